@@ -1,0 +1,679 @@
+"""Geometry file (TOML) -> validated :class:`fields.model.Design` in SI units.
+
+The file format is documented in README.md ("Geometry file reference"). Every dimensional value
+carries its unit; a bare number where a unit is needed is an error. Unknown keys are errors with
+the nearest valid key suggested. Every error is a :class:`fields.errors.GeometryError` whose
+message names the file, the key path, the value and what was expected.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import tomllib
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from . import tables
+from .errors import GeometryError
+from .model import (
+    CORE_SHAPES,
+    MAGNET_SHAPES,
+    BeamGate,
+    Coil,
+    Core,
+    Design,
+    Floater,
+    HallSensor,
+    Magnet,
+    Study,
+    axis_to_rotvec,
+    rotation_matrix,
+)
+from .units import UnitParseError, parse
+
+# --------------------------------------------------------------------------------------------
+# a small reader that knows where it is in the file
+
+
+class _Table:
+    """A TOML table with its key path; every accessor raises GeometryError with file and path."""
+
+    def __init__(self, data: Any, path: str, file: str) -> None:
+        self.file = file
+        self.path = path
+        if not isinstance(data, dict):
+            raise GeometryError(self._where(), "this entry", "a table (key = value lines)", _show(data))
+        self.data = data
+        self.used: set[str] = set()
+
+    def _where(self, key: str | None = None) -> str:
+        p = self.path if key is None else (f"{self.path}.{key}" if self.path else key)
+        return f"{self.file}: {p}" if p else self.file
+
+    def has(self, key: str) -> bool:
+        return key in self.data
+
+    def raw(self, key: str, default: Any = ..., ) -> Any:
+        self.used.add(key)
+        if key not in self.data:
+            if default is ...:
+                raise GeometryError(self._where(key), "this key", "present", "nothing")
+            return default
+        return self.data[key]
+
+    def fail(self, key: str, rule: str, got: Any) -> GeometryError:
+        return GeometryError(self._where(key), "the value", rule, _show(got))
+
+    def quantity(self, key: str, kind: str, default: Any = ..., *, positive: bool = False,
+                 nonnegative: bool = False) -> float:
+        v = self.raw(key, default)
+        if v is default and default is not ...:
+            return v
+        try:
+            x = parse(v, kind)
+        except UnitParseError as e:
+            raise GeometryError(self._where(key), "the value", e.rule, _show(v)) from None
+        if positive and not x > 0:
+            raise GeometryError(self._where(key), "the value", "positive", _show(v))
+        if nonnegative and x < 0:
+            raise GeometryError(self._where(key), "the value", "zero or positive", _show(v))
+        return x
+
+    def number(self, key: str, default: Any = ..., *, positive: bool = False, minimum: float | None = None,
+               maximum: float | None = None, integer: bool = False) -> float:
+        v = self.raw(key, default)
+        if v is default and default is not ...:
+            return v
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or (integer and not isinstance(v, int)):
+            kind = "a whole number" if integer else "a plain number (no unit)"
+            raise GeometryError(self._where(key), "the value", kind, _show(v))
+        if not math.isfinite(v):
+            raise GeometryError(self._where(key), "the value", "a finite number", _show(v))
+        if positive and not v > 0:
+            raise GeometryError(self._where(key), "the value", "positive", _show(v))
+        if minimum is not None and v < minimum:
+            raise GeometryError(self._where(key), "the value", f"at least {minimum:g}", _show(v))
+        if maximum is not None and v > maximum:
+            raise GeometryError(self._where(key), "the value", f"at most {maximum:g}", _show(v))
+        return v
+
+    def string(self, key: str, default: Any = ..., choices: tuple[str, ...] | None = None) -> str:
+        v = self.raw(key, default)
+        if v is default and default is not ...:
+            return v
+        if not isinstance(v, str):
+            raise GeometryError(self._where(key), "the value", "a string in quotes", _show(v))
+        if choices is not None and v not in choices:
+            near = difflib.get_close_matches(v, choices, n=1)
+            hint = f" (did you mean \"{near[0]}\"?)" if near else ""
+            raise GeometryError(self._where(key), "the value", "one of " + ", ".join(f'"{c}"' for c in choices) + hint, _show(v))
+        return v
+
+    def boolean(self, key: str, default: Any = ...) -> bool:
+        v = self.raw(key, default)
+        if not isinstance(v, bool):
+            raise GeometryError(self._where(key), "the value", "true or false", _show(v))
+        return v
+
+    def vector(self, key: str, kind: str, default: Any = ...) -> tuple[float, float, float]:
+        v = self.raw(key, default)
+        if v is default and default is not ...:
+            return v
+        if not isinstance(v, list) or len(v) != 3:
+            raise GeometryError(self._where(key), "the value", f"a list of three quantities, e.g. [\"0 mm\", \"0 mm\", \"{'5 mm' if kind == 'length' else '1 deg'}\"]", _show(v))
+        out = []
+        for i, item in enumerate(v):
+            try:
+                out.append(parse(item, kind))
+            except UnitParseError as e:
+                raise GeometryError(self._where(f"{key}[{i}]"), "the value", e.rule, _show(item)) from None
+        return tuple(out)
+
+    def direction(self, key: str, default: Any = ...) -> tuple[float, float, float]:
+        v = self.raw(key, default)
+        if v is default and default is not ...:
+            return v
+        if (not isinstance(v, list) or len(v) != 3
+                or not all(isinstance(c, (int, float)) and not isinstance(c, bool) and math.isfinite(c) for c in v)):
+            raise GeometryError(self._where(key), "the value", "a direction of three plain numbers, e.g. [0, 0, 1]", _show(v))
+        a = np.asarray(v, dtype=float)
+        n = float(np.linalg.norm(a))
+        if n == 0.0:
+            raise GeometryError(self._where(key), "the value", "a non-zero direction", _show(v))
+        return tuple(float(c) for c in a / n)
+
+    def sub(self, key: str) -> _Table:
+        self.used.add(key)
+        return _Table(self.data[key], f"{self.path}.{key}" if self.path else key, self.file)
+
+    def array(self, key: str, required: bool = False) -> list[_Table]:
+        self.used.add(key)
+        if key not in self.data:
+            if required:
+                raise GeometryError(self._where(key), "this section", "present", "nothing")
+            return []
+        v = self.data[key]
+        if not isinstance(v, list):
+            raise GeometryError(self._where(key), "this section", f"a list of tables, written [[{key}]]", _show(v))
+        base = f"{self.path}.{key}" if self.path else key
+        return [_Table(item, f"{base}[{i}]", self.file) for i, item in enumerate(v)]
+
+    def done(self, allowed: tuple[str, ...] | None = None) -> None:
+        """Raise on keys nobody read (unknown keys), suggesting the nearest valid key."""
+        valid = tuple(allowed) if allowed is not None else tuple(self.used)
+        for key in self.data:
+            if key not in self.used and key not in valid:
+                near = difflib.get_close_matches(key, sorted(set(valid) | self.used), n=1, cutoff=0.5)
+                hint = f"; did you mean \"{near[0]}\"" if near else ""
+                raise GeometryError(self._where(key), "this key", "one the format knows" + hint, "an unknown key")
+
+
+def _show(v: Any) -> str:
+    if isinstance(v, str):
+        return f'"{v}"'
+    if isinstance(v, dict):
+        return "a table"
+    s = repr(v)
+    return s if len(s) < 60 else s[:57] + "..."
+
+
+# --------------------------------------------------------------------------------------------
+# sections
+
+
+def _pose(t: _Table) -> tuple[tuple[float, float, float], tuple[float, float, float]]:
+    pos = t.vector("position", "length", (0.0, 0.0, 0.0))
+    rot = (0.0, 0.0, 0.0)
+    if t.has("rotate_axis") or t.has("rotate_angle"):
+        axis = t.direction("rotate_axis")
+        ang = t.quantity("rotate_angle", "angle")
+        rot = tuple(float(a * ang) for a in axis)
+    return pos, rot
+
+
+_MAGNET_SIZE_KEYS = {
+    "cylinder": ("diameter", "height"),
+    "ring": ("inner_diameter", "outer_diameter", "height"),
+    "cuboid": ("size",),
+    "sphere": ("diameter",),
+    "mesh": ("file", "mesh_unit"),
+}
+_MAGNET_COMMON = ("name", "shape", "grade", "remanence", "magnetization", "position", "rotate_axis",
+                  "rotate_angle", "density")
+
+
+def _magnet(t: _Table, default_name: str, base_dir: Path) -> Magnet:
+    t.done(_MAGNET_COMMON + tuple(k for keys in _MAGNET_SIZE_KEYS.values() for k in keys))
+    name = t.string("name", default_name)
+    shape = t.string("shape", choices=MAGNET_SHAPES)
+    if shape in ("cylinder", "sphere"):
+        dims = tuple(t.quantity(k, "length", positive=True) for k in _MAGNET_SIZE_KEYS[shape])
+    elif shape == "ring":
+        di = t.quantity("inner_diameter", "length", positive=True)
+        do = t.quantity("outer_diameter", "length", positive=True)
+        h = t.quantity("height", "length", positive=True)
+        if di >= do:
+            raise t.fail("inner_diameter", f"smaller than outer_diameter ({t.data['outer_diameter']})", t.data["inner_diameter"])
+        dims = (di, do, h)
+    elif shape == "cuboid":
+        size = t.vector("size", "length")
+        for i, s in enumerate(size):
+            if not s > 0:
+                raise GeometryError(t._where(f"size[{i}]"), "the value", "positive", _show(t.data["size"][i]))
+        dims = size
+    else:
+        dims = ()
+    # grade / remanence
+    grade_name = None
+    density = None
+    if t.has("remanence"):
+        br = t.quantity("remanence", "flux_density", positive=True)
+        if t.has("grade"):
+            grade_name = t.string("grade")
+            g = tables.lookup_grade(grade_name)
+            if g is None:
+                raise t.fail("grade", "a grade from the table (" + ", ".join(tables.GRADES) + ")", grade_name)
+            density = g.density_kg_per_m3
+    elif t.has("grade"):
+        grade_name = t.string("grade")
+        g = tables.lookup_grade(grade_name)
+        if g is None:
+            near = difflib.get_close_matches(grade_name.upper(), list(tables.GRADES), n=1)
+            hint = f" (did you mean \"{near[0]}\"?)" if near else ""
+            raise t.fail("grade", "a grade from the table (" + ", ".join(tables.GRADES) + ") or use remanence = \"1.3 T\"" + hint, grade_name)
+        br = g.remanence_nominal_T
+        density = g.density_kg_per_m3
+    else:
+        raise GeometryError(t._where("grade"), "a magnet", "given a grade (e.g. \"N42\") or a remanence (e.g. \"1.3 T\")", "neither")
+    if t.has("density"):
+        density = t.quantity("density", "density", positive=True)
+    if density is None:
+        density = tables.NDFEB_DENSITY if br > 0.6 else tables.FERRITE_DENSITY
+    mdir = t.direction("magnetization", (0.0, 0.0, 1.0))
+    pos, rot = _pose(t)
+    verts = faces = None
+    mesh_file = None
+    if shape == "mesh":
+        mesh_file = t.string("file")
+        unit = t.string("mesh_unit", "mm")
+        try:
+            scale = parse(f"1 {unit}", "length")
+        except UnitParseError:
+            raise t.fail("mesh_unit", "a length unit such as \"mm\" or \"in\"", unit) from None
+        verts, faces = _load_mesh(t, mesh_file, base_dir, scale)
+    t.done(_MAGNET_COMMON + _MAGNET_SIZE_KEYS[shape])
+    return Magnet(name=name, shape=shape, dimensions_m=tuple(float(d) for d in dims),
+                  polarization_T=tuple(float(br * c) for c in mdir), position_m=pos, rotvec_rad=rot,
+                  grade=grade_name, density_kg_per_m3=float(density), mesh_vertices_m=verts,
+                  mesh_faces=faces, mesh_file=mesh_file)
+
+
+def _load_mesh(t: _Table, rel: str, base_dir: Path, scale: float):
+    import trimesh
+
+    path = (base_dir / rel) if not Path(rel).is_absolute() else Path(rel)
+    if not path.is_file():
+        raise t.fail("file", f"an existing mesh file (STL, OBJ or PLY) relative to the geometry file (looked for {path})", rel)
+    try:
+        mesh = trimesh.load(str(path), force="mesh")
+    except Exception as e:  # trimesh raises many types on bad files
+        raise t.fail("file", f"a readable STL/OBJ/PLY mesh ({type(e).__name__})", rel) from None
+    if not isinstance(mesh, trimesh.Trimesh) or len(mesh.faces) == 0:
+        raise t.fail("file", "a triangle mesh with at least one face", rel)
+    mesh.merge_vertices()
+    if not mesh.is_watertight:
+        raise t.fail("file", "a closed (watertight) triangle mesh", rel)
+    mesh.fix_normals()
+    if mesh.volume <= 0:
+        raise t.fail("file", "a mesh enclosing a positive volume", rel)
+    return np.asarray(mesh.vertices, dtype=float) * scale, np.asarray(mesh.faces, dtype=np.int64)
+
+
+def _coil(t: _Table, i: int) -> Coil:
+    t.done(("name", "inner_radius", "outer_radius", "height", "turns", "wire_gauge", "wire_diameter",
+            "fill_factor", "position", "axis", "nominal_current", "max_current", "insulation_class"))
+    name = t.string("name", f"coil {i + 1}")
+    a = t.quantity("inner_radius", "length", nonnegative=True)
+    b = t.quantity("outer_radius", "length", positive=True)
+    if a >= b:
+        raise t.fail("inner_radius", f"smaller than outer_radius ({t.data['outer_radius']})", t.data["inner_radius"])
+    h = t.quantity("height", "length", positive=True)
+    wire_d = None
+    gauge = None
+    if t.has("wire_gauge") and t.has("wire_diameter"):
+        raise t.fail("wire_diameter", "given alone (give wire_gauge or wire_diameter, not both)", t.data["wire_diameter"])
+    if t.has("wire_gauge"):
+        gauge = t.raw("wire_gauge")
+        gtxt = str(gauge) if isinstance(gauge, (int, str)) and not isinstance(gauge, bool) else None
+        try:
+            n = tables.parse_gauge(gtxt if gtxt is not None else "x")
+        except ValueError:
+            raise t.fail("wire_gauge", "an AWG size such as \"AWG 26\"", gauge) from None
+        gauge = f"AWG {gtxt.upper().replace('AWG', '').strip()}"
+        wire_d = tables.awg_diameter_m(n)
+    elif t.has("wire_diameter"):
+        wire_d = t.quantity("wire_diameter", "length", positive=True)
+    fill = t.number("fill_factor", None, positive=True, maximum=0.9069) if t.has("fill_factor") else None
+    area = (b - a) * h
+    if t.has("turns"):
+        turns = t.number("turns", positive=True, integer=True)
+        if wire_d is not None:
+            copper = turns * math.pi * wire_d**2 / 4
+            implied = copper / area
+            # hexagonal packing of round wire is the densest possible: pi / (2 sqrt 3) = 0.9069
+            if implied > 0.9069:
+                raise t.fail("turns", f"at most {int(0.9069 * area / (math.pi * wire_d**2 / 4))} for this winding "
+                              f"cross-section and wire (copper would fill {implied:.0%} of it; round wire packs "
+                              "at most 90.7 %)", turns)
+            if fill is not None and abs(implied - fill) > 0.02:
+                raise t.fail("turns", f"consistent with fill_factor {fill} and the wire (that gives "
+                              f"{round(fill * area / (math.pi * wire_d**2 / 4))} turns)", turns)
+            fill = implied
+    else:
+        if wire_d is None:
+            raise GeometryError(t._where("turns"), "a coil", "given turns, or a wire (wire_gauge or wire_diameter) with a fill_factor", "neither")
+        if fill is None:
+            raise GeometryError(t._where("fill_factor"), "a coil given by its wire", "given a fill_factor (copper area / winding area, e.g. 0.6)", "nothing")
+        turns = max(1, int(round(fill * area / (math.pi * wire_d**2 / 4))))
+    pos = t.vector("position", "length", (0.0, 0.0, 0.0))
+    axis = t.direction("axis", (0.0, 0.0, 1.0))
+    i_nom = t.quantity("nominal_current", "current")
+    i_max = t.quantity("max_current", "current", positive=True)
+    if abs(i_nom) > i_max:
+        raise t.fail("nominal_current", f"within max_current ({t.data['max_current']})", t.data["nominal_current"])
+    ins = None
+    if t.has("insulation_class"):
+        ins = t.quantity("insulation_class", "temperature")
+        if ins not in tables.THERMAL_CLASSES_C:
+            raise t.fail("insulation_class", "a thermal class in degrees C: " + ", ".join(f"\"{c:g} degC\"" for c in tables.THERMAL_CLASSES_C), t.data["insulation_class"])
+    t.done(("name", "inner_radius", "outer_radius", "height", "turns", "wire_gauge", "wire_diameter",
+            "fill_factor", "position", "axis", "nominal_current", "max_current", "insulation_class"))
+    return Coil(name=name, inner_radius_m=a, outer_radius_m=b, height_m=h, turns=float(turns), position_m=pos,
+                axis=axis, nominal_current_A=i_nom, max_current_A=i_max, wire_diameter_m=wire_d,
+                wire_gauge=gauge, fill_factor=fill, insulation_class_C=ins)
+
+
+def _core(t: _Table, i: int) -> Core:
+    t.done(("name", "shape", "diameter", "height", "inner_diameter", "outer_diameter", "size", "position",
+            "axis", "relative_permeability", "saturation_polarization"))
+    name = t.string("name", f"core {i + 1}")
+    shape = t.string("shape", choices=CORE_SHAPES)
+    if shape == "cylinder":
+        dims = (t.quantity("diameter", "length", positive=True), t.quantity("height", "length", positive=True))
+    elif shape == "ring":
+        di = t.quantity("inner_diameter", "length", positive=True)
+        do = t.quantity("outer_diameter", "length", positive=True)
+        if di >= do:
+            raise t.fail("inner_diameter", f"smaller than outer_diameter ({t.data['outer_diameter']})", t.data["inner_diameter"])
+        dims = (di, do, t.quantity("height", "length", positive=True))
+    else:
+        size = t.vector("size", "length")
+        for j, s in enumerate(size):
+            if not s > 0:
+                raise GeometryError(t._where(f"size[{j}]"), "the value", "positive", _show(t.data["size"][j]))
+        dims = size
+    pos = t.vector("position", "length", (0.0, 0.0, 0.0))
+    axis = t.direction("axis", (0.0, 0.0, 1.0))
+    mur = t.number("relative_permeability", minimum=1.0)
+    jsat = t.quantity("saturation_polarization", "flux_density", positive=True)
+    t.done(("name", "shape", "diameter", "height", "inner_diameter", "outer_diameter", "size", "position",
+            "axis", "relative_permeability", "saturation_polarization"))
+    return Core(name=name, shape=shape, dimensions_m=tuple(float(d) for d in dims), position_m=pos, axis=axis,
+                relative_permeability=float(mur), saturation_polarization_T=jsat)
+
+
+def _floater(t: _Table, base_dir: Path) -> Floater:
+    t.done(("name", "magnets", "payload_mass", "payload_position", "mass", "centre_of_mass"))
+    name = t.string("name", "floater")
+    mags = [_magnet(m, f"floater magnet {j + 1}", base_dir) for j, m in enumerate(t.array("magnets", required=True))]
+    if not mags:
+        raise GeometryError(t._where("magnets"), "the floater", "made of at least one magnet ([[floater.magnets]])", "none")
+    payload = t.quantity("payload_mass", "mass", 0.0, nonnegative=True)
+    ppos = t.vector("payload_position", "length", (0.0, 0.0, 0.0))
+    # rigid-body mass properties from the magnets (each a uniform solid) plus a point payload
+    masses, coms, inertias = [], [], []
+    for m in mags:
+        r = rotation_matrix(m.rotvec_rad)
+        masses.append(m.mass_kg)
+        coms.append(np.asarray(m.position_m) + r @ m.centroid_own_m)
+        inertias.append(r @ m.inertia_own_kg_m2() @ r.T)
+    masses.append(payload)
+    coms.append(np.asarray(ppos))
+    inertias.append(np.zeros((3, 3)))
+    mtot = float(sum(masses))
+    com = sum(mi * ci for mi, ci in zip(masses, coms)) / mtot if mtot > 0 else np.zeros(3)
+    inertia = np.zeros((3, 3))
+    for mi, ci, ii in zip(masses, coms, inertias):
+        d = ci - com
+        inertia += ii + mi * (np.dot(d, d) * np.eye(3) - np.outer(d, d))
+    mass_given = t.has("mass")
+    if mass_given:
+        mtot_file = t.quantity("mass", "mass", positive=True)
+        if mtot > 0:
+            inertia *= mtot_file / mtot
+        mtot = mtot_file
+    if t.has("centre_of_mass"):
+        com = np.asarray(t.vector("centre_of_mass", "length"))
+    t.done(("name", "magnets", "payload_mass", "payload_position", "mass", "centre_of_mass"))
+    return Floater(name=name, magnets=tuple(mags), payload_mass_kg=payload, payload_position_m=ppos,
+                   mass_kg=mtot, centre_of_mass_m=tuple(float(c) for c in com),
+                   inertia_kg_m2=tuple(tuple(float(x) for x in row) for row in inertia), mass_given=mass_given)
+
+
+def _sensor(t: _Table, i: int):
+    t.done(("type", "name", "height", "beam_height", "beam_width", "direction", "position", "axis", "range"))
+    kind = t.string("type", choices=("beam", "hall"))
+    name = t.string("name", f"sensor {i + 1}")
+    if kind == "beam":
+        s = BeamGate(name=name, height_m=t.quantity("height", "length"),
+                     beam_height_m=t.quantity("beam_height", "length", positive=True),
+                     beam_width_m=t.quantity("beam_width", "length", positive=True),
+                     direction=t.direction("direction", (1.0, 0.0, 0.0)))
+        if abs(s.direction[2]) > 1e-9:
+            raise t.fail("direction", "horizontal (its z component zero), e.g. [1, 0, 0]", t.data["direction"])
+    else:
+        s = HallSensor(name=name, position_m=t.vector("position", "length"), axis=t.direction("axis", (0.0, 0.0, 1.0)),
+                       range_T=t.quantity("range", "flux_density", positive=True))
+    t.done(("type", "name", "height", "beam_height", "beam_width", "direction", "position", "axis", "range"))
+    return s
+
+
+# --------------------------------------------------------------------------------------------
+# solids' vertical extents, for the gap definition
+
+
+def _extent_along(vertices: np.ndarray, up: np.ndarray) -> tuple[float, float]:
+    h = vertices @ up
+    return float(h.min()), float(h.max())
+
+
+def _primitive_points(shape: str, dims: tuple[float, ...], n: int = 64) -> np.ndarray:
+    """Points on the boundary of a primitive in its own frame, enough for exact vertical extents."""
+    t = np.linspace(0, 2 * np.pi, n, endpoint=False)
+    if shape in ("cylinder", "ring", "coil"):
+        r = dims[-2] / 2 if shape != "coil" else dims[1]
+        h = dims[-1]
+        c = np.stack([r * np.cos(t), r * np.sin(t)], axis=1)
+        return np.concatenate([np.c_[c, np.full(n, -h / 2)], np.c_[c, np.full(n, h / 2)]])
+    if shape == "cuboid":
+        a, b, c = (d / 2 for d in dims)
+        return np.array([[x, y, z] for x in (-a, a) for y in (-b, b) for z in (-c, c)])
+    if shape == "sphere":
+        r = dims[0] / 2
+        p, q = np.meshgrid(np.linspace(0, np.pi, 33), t)
+        return r * np.stack([np.sin(p) * np.cos(q), np.sin(p) * np.sin(q), np.cos(p)], axis=-1).reshape(-1, 3)
+    raise ValueError(shape)
+
+
+def solid_points(kind: str, obj, parent_pos=None, parent_rot=None) -> np.ndarray:
+    """Boundary points (p, 3) of a solid in world coordinates (used for extents and gap definition)."""
+    if kind == "coil":
+        own = _primitive_points("coil", (obj.inner_radius_m, obj.outer_radius_m, obj.height_m))
+        rot, pos = rotation_matrix(obj.rotvec_rad), np.asarray(obj.position_m)
+    elif kind == "core":
+        own = _primitive_points(obj.shape, obj.dimensions_m)
+        rot, pos = rotation_matrix(obj.rotvec_rad), np.asarray(obj.position_m)
+    else:
+        own = obj.mesh_vertices_m if obj.shape == "mesh" else _primitive_points(obj.shape, obj.dimensions_m)
+        rot, pos = rotation_matrix(obj.rotvec_rad), np.asarray(obj.position_m)
+    pts = own @ rot.T + pos
+    if parent_rot is not None:
+        pts = pts @ rotation_matrix(parent_rot).T + np.asarray(parent_pos)
+    return pts
+
+
+# --------------------------------------------------------------------------------------------
+
+
+def _study(t: _Table, design_bodies: dict[str, np.ndarray], floater: Floater, file: str) -> Study:
+    t.done(("gap_min", "gap_max", "gap_points", "operating_gap", "gap_reference", "gap_side", "currents",
+            "lateral_span", "lateral_points", "tilt_span", "tilt_points", "gravity", "gravity_direction",
+            "supply_voltage", "floater_tilt_axis", "floater_tilt_angle", "floater_lateral_position",
+            "free_axes", "ambient_temperature", "convection_coefficient", "sensor_line_start",
+            "sensor_line_end", "sensor_line_points"))
+    g_dir = t.direction("gravity_direction", (0.0, 0.0, -1.0))
+    g_mag = t.quantity("gravity", "acceleration", tables.G_STANDARD, positive=True)
+    gravity = tuple(float(g_mag * c) for c in g_dir)
+    up = -np.asarray(g_dir)
+    gmin = t.quantity("gap_min", "length", positive=True)
+    gmax = t.quantity("gap_max", "length", positive=True)
+    if gmin >= gmax:
+        raise t.fail("gap_min", f"smaller than gap_max ({t.data['gap_max']})", t.data["gap_min"])
+    npts = int(t.number("gap_points", 101, integer=True, minimum=3, maximum=100000))
+    op = t.quantity("operating_gap", "length", 0.5 * (gmin + gmax), positive=True)
+    if not gmin <= op <= gmax:
+        raise t.fail("operating_gap", f"inside gap_min..gap_max ({t.data['gap_min']} .. {t.data['gap_max']})", t.data["operating_gap"])
+    tilt_rot = (0.0, 0.0, 0.0)
+    if t.has("floater_tilt_axis") or t.has("floater_tilt_angle"):
+        ax = t.direction("floater_tilt_axis")
+        ang = t.quantity("floater_tilt_angle", "angle")
+        tilt_rot = tuple(float(a * ang) for a in ax)
+    # floater's extent along "up" in its own frame (nominal orientation), lateral position x, y
+    fpts = np.concatenate([solid_points("magnet", m, (0, 0, 0), tilt_rot) for m in floater.magnets])
+    f_lo, f_hi = _extent_along(fpts, up)
+    lateral = t.vector("floater_lateral_position", "length", (0.0, 0.0, 0.0))
+    if not design_bodies:
+        raise GeometryError(f"{file}: study.gap_reference", "a design", "given at least one fixed body (coil, core or magnet) to measure the gap from", "none")
+    names = list(design_bodies)
+    if t.has("gap_reference"):
+        ref = t.string("gap_reference")
+        if ref not in design_bodies:
+            near = difflib.get_close_matches(ref, names, n=1)
+            hint = f" (did you mean \"{near[0]}\"?)" if near else ""
+            raise t.fail("gap_reference", "the name of a coil, core or magnet: " + ", ".join(f'"{n}"' for n in names) + hint, ref)
+        side = t.string("gap_side", "auto", choices=("auto", "above", "below"))
+    else:
+        side = t.string("gap_side", "above", choices=("auto", "above", "below"))
+        # nearest body on that side: the lowest underside above the floater or the highest top below
+        ref = None
+    ext = {n: _extent_along(p, up) for n, p in design_bodies.items()}
+    if ref is None:
+        # the body whose underside is lowest is the ceiling (suspension designs); the body whose
+        # top is highest is the floor (repulsive bases)
+        ref = min(ext, key=lambda n: ext[n][0]) if side == "above" else max(ext, key=lambda n: ext[n][1])
+    lo, hi = ext[ref]
+    if side == "auto":
+        side = "above"
+    up_v = up
+    lat = np.asarray(lateral) - (np.asarray(lateral) @ up_v) * up_v
+    if side == "above":
+        # floater top at (ref underside - gap): origin height = lo - gap - f_hi
+        origin = lat + (lo - f_hi) * up_v
+        direction = -up_v
+    else:
+        origin = lat + (hi - f_lo) * up_v
+        direction = up_v
+    currents = ()
+    if t.has("currents"):
+        v = t.raw("currents")
+        if not isinstance(v, list):
+            raise t.fail("currents", "a list of currents, e.g. [\"0.2 A\", \"0.5 A\"]", v)
+        cs = []
+        for j, c in enumerate(v):
+            try:
+                cs.append(parse(c, "current"))
+            except UnitParseError as e:
+                raise GeometryError(f"{file}: study.currents[{j}]", "the value", e.rule, _show(c)) from None
+        currents = tuple(cs)
+    free = ("x", "y", "z", "rx", "ry", "rz")
+    if t.has("free_axes"):
+        v = t.raw("free_axes")
+        if not isinstance(v, list) or not v or not all(isinstance(a, str) and a in free for a in v):
+            raise t.fail("free_axes", "a list drawn from \"x\", \"y\", \"z\", \"rx\", \"ry\", \"rz\"", v)
+        free = tuple(a for a in free if a in v)
+    line = None
+    if t.has("sensor_line_start") or t.has("sensor_line_end"):
+        line = (t.vector("sensor_line_start", "length"), t.vector("sensor_line_end", "length"),
+                int(t.number("sensor_line_points", 21, integer=True, minimum=2, maximum=10000)))
+    st = Study(
+        gap_min_m=gmin, gap_max_m=gmax, gap_points=npts, gap_reference=ref,
+        gap_origin_m=tuple(float(c) for c in origin), gap_direction=tuple(float(c) for c in direction),
+        operating_gap_m=op, currents_A=currents,
+        lateral_span_m=t.quantity("lateral_span", "length", 0.25 * (gmax - gmin), positive=True),
+        lateral_points=int(t.number("lateral_points", 41, integer=True, minimum=3, maximum=100000)),
+        tilt_span_rad=t.quantity("tilt_span", "angle", math.radians(10.0), positive=True),
+        tilt_points=int(t.number("tilt_points", 41, integer=True, minimum=3, maximum=100000)),
+        gravity_m_per_s2=gravity,
+        supply_voltage_V=t.quantity("supply_voltage", "voltage", positive=True),
+        floater_rotvec_rad=tilt_rot, free_axes=free,
+        ambient_temperature_C=t.quantity("ambient_temperature", "temperature", 25.0),
+        convection_W_per_m2K=t.quantity("convection_coefficient", "heat_transfer", 10.0, positive=True),
+        sensor_line=line,
+    )
+    t.done(("gap_min", "gap_max", "gap_points", "operating_gap", "gap_reference", "gap_side", "currents",
+            "lateral_span", "lateral_points", "tilt_span", "tilt_points", "gravity", "gravity_direction",
+            "supply_voltage", "floater_tilt_axis", "floater_tilt_angle", "floater_lateral_position",
+            "free_axes", "ambient_temperature", "convection_coefficient", "sensor_line_start",
+            "sensor_line_end", "sensor_line_points"))
+    return st
+
+
+TOP_KEYS = ("name", "description", "invented", "coils", "cores", "magnets", "floater", "sensors", "study")
+
+
+def loads(text: str, file: str = "<string>", base_dir: str | Path = ".", check_overlaps: bool = True) -> Design:
+    """Parse geometry-file text into a validated :class:`Design` (SI units).
+
+    Raises
+    ------
+    GeometryError
+        With file, key path, value and the rule, for every invalid input.
+    """
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as e:
+        msg = str(e)
+        raise GeometryError(file, "the file", "valid TOML", msg) from None
+    root = _Table(data, "", file)
+    root.done(TOP_KEYS)
+    base = Path(base_dir)
+    name = root.string("name", Path(file).stem if file != "<string>" else "design")
+    if not name.strip() or any(c in name for c in '/\\:*?"<>|'):
+        raise root.fail("name", "a design name usable as a folder name (no / \\ : * ? \" < > |)", name)
+    description = root.string("description", "")
+    invented = root.boolean("invented", False)
+    coils = tuple(_coil(c, i) for i, c in enumerate(root.array("coils")))
+    cores = tuple(_core(c, i) for i, c in enumerate(root.array("cores")))
+    magnets = tuple(_magnet(m, f"magnet {i + 1}", base) for i, m in enumerate(root.array("magnets")))
+    if "floater" not in data:
+        raise GeometryError(f"{file}: floater", "a design", "given a [floater] section with at least one [[floater.magnets]]", "none")
+    floater = _floater(root.sub("floater"), base)
+    sensors = tuple(_sensor(s, i) for i, s in enumerate(root.array("sensors")))
+    # names must be unique (they key outputs and the gap reference)
+    seen: dict[str, str] = {}
+    for kind, objs in (("coils", coils), ("cores", cores), ("magnets", magnets), ("sensors", sensors)):
+        for i, o in enumerate(objs):
+            if o.name in seen:
+                raise GeometryError(f"{file}: {kind}[{i}].name", "each body name", f"unique (also used by {seen[o.name]})", f'"{o.name}"')
+            seen[o.name] = f"{kind}[{i}]"
+    bodies: dict[str, np.ndarray] = {}
+    for c in coils:
+        bodies[c.name] = solid_points("coil", c)
+    for c in cores:
+        bodies[c.name] = solid_points("core", c)
+    for m in magnets:
+        bodies[m.name] = solid_points("magnet", m)
+    if "study" not in data:
+        raise GeometryError(f"{file}: study", "a design", "given a [study] section (gap_min, gap_max, supply_voltage, ...)", "none")
+    study = _study(root.sub("study"), bodies, floater, file)
+    root.done(TOP_KEYS)
+    design = Design(name=name, description=description, source=file, coils=coils, cores=cores,
+                    magnets=magnets, floater=floater, sensors=sensors, study=study, invented=invented)
+    if check_overlaps:
+        _check_overlaps(design, file)
+    return design
+
+
+def _check_overlaps(design: Design, file: str) -> None:
+    try:
+        from . import bodies as _bodies
+    except ImportError:  # pragma: no cover - bodies is part of the package
+        return
+    pairs = _bodies.overlapping_pairs(design)
+    if pairs:
+        a, b, depth = pairs[0]
+        raise GeometryError(f"{file}: {a} / {b}", "solids at the operating gap", "apart (they overlap)",
+                            f"{depth * 1e3:.3g} mm of overlap")
+
+
+def load(path: str | Path, check_overlaps: bool = True) -> Design:
+    """Read and validate a geometry file.
+
+    Examples
+    --------
+    >>> from pathlib import Path
+    >>> d = load(Path(__file__).parent.parent / "geometries" / "suspension.toml")
+    >>> d.floater.magnets[0].shape
+    'cylinder'
+    """
+    p = Path(path)
+    if not p.is_file():
+        raise GeometryError(str(path), "the geometry file", "an existing file", "no such file")
+    try:
+        text = p.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as e:
+        raise GeometryError(str(path), "the geometry file", "readable UTF-8 text", type(e).__name__) from None
+    return loads(text, file=str(path), base_dir=p.parent, check_overlaps=check_overlaps)

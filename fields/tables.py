@@ -1,0 +1,139 @@
+"""Material and wire tables.
+
+Every value names where it comes from. Values marked "from memory" were recalled without the
+document at hand and should be checked against the named standard before being relied on.
+"""
+
+from __future__ import annotations
+
+
+from dataclasses import dataclass
+
+from scipy import constants
+
+
+@dataclass(frozen=True)
+class Grade:
+    """A permanent-magnet grade.
+
+    Attributes
+    ----------
+    name : str
+        Grade designation as written in the geometry file (case-insensitive lookup).
+    family : str
+        ``"NdFeB"`` (sintered neodymium-iron-boron) or ``"ferrite"`` (hard ceramic ferrite).
+    remanence_min_T, remanence_max_T : float
+        Remanence range of the grade (T).
+    density_kg_per_m3 : float
+        Typical density (kg/m^3).
+    source : str
+        Where the numbers come from.
+    """
+
+    name: str
+    family: str
+    remanence_min_T: float
+    remanence_max_T: float
+    density_kg_per_m3: float
+    source: str
+
+    @property
+    def remanence_nominal_T(self) -> float:
+        """Mid-range remanence (T), the value the solver uses unless the file gives one."""
+        return 0.5 * (self.remanence_min_T + self.remanence_max_T)
+
+
+_NDFEB_SRC = (
+    "sintered NdFeB grade ranges as tabulated in GB/T 13560 (Sintered neodymium iron boron "
+    "permanent magnets) and the family values of IEC 60404-8-1 (Magnetically hard materials); "
+    "from memory"
+)
+_FERRITE_SRC = (
+    "hard ferrite classes of IEC 60404-8-1 (Magnetically hard materials, table of hard ferrites) "
+    "and MMPA Standard 0100-00 (ceramic grades C5, C8); from memory"
+)
+#: density of sintered NdFeB, typical (kg/m^3); from memory
+NDFEB_DENSITY = 7500.0
+#: density of sintered hard ferrite, typical (kg/m^3); from memory
+FERRITE_DENSITY = 4900.0
+
+GRADES: dict[str, Grade] = {
+    g.name.upper(): g
+    for g in [
+        Grade("N35", "NdFeB", 1.17, 1.22, NDFEB_DENSITY, _NDFEB_SRC),
+        Grade("N38", "NdFeB", 1.22, 1.25, NDFEB_DENSITY, _NDFEB_SRC),
+        Grade("N40", "NdFeB", 1.25, 1.28, NDFEB_DENSITY, _NDFEB_SRC),
+        Grade("N42", "NdFeB", 1.28, 1.32, NDFEB_DENSITY, _NDFEB_SRC),
+        Grade("N45", "NdFeB", 1.32, 1.38, NDFEB_DENSITY, _NDFEB_SRC),
+        Grade("N48", "NdFeB", 1.38, 1.42, NDFEB_DENSITY, _NDFEB_SRC),
+        Grade("N50", "NdFeB", 1.40, 1.45, NDFEB_DENSITY, _NDFEB_SRC),
+        Grade("N52", "NdFeB", 1.43, 1.48, NDFEB_DENSITY, _NDFEB_SRC),
+        Grade("C5", "ferrite", 0.36, 0.40, FERRITE_DENSITY, _FERRITE_SRC),
+        Grade("C8", "ferrite", 0.38, 0.41, FERRITE_DENSITY, _FERRITE_SRC),
+        Grade("HF24/23", "ferrite", 0.35, 0.37, FERRITE_DENSITY, _FERRITE_SRC),
+        Grade("HF28/26", "ferrite", 0.37, 0.39, FERRITE_DENSITY, _FERRITE_SRC),
+    ]
+}
+
+
+def lookup_grade(name: str) -> Grade | None:
+    """Return the grade called ``name`` (case-insensitive), or None when unknown."""
+    return GRADES.get(name.strip().upper())
+
+
+# --- wire -------------------------------------------------------------------------------------
+
+#: American Wire Gauge: ASTM B258 (Standard Specification for Standard Nominal Diameters and
+#: Cross-Sectional Areas of AWG Sizes of Solid Round Wires) defines the series by
+#: d(n) = 0.005 in * 92 ** ((36 - n) / 39), with gauge 0000 = n of -3 (0.46 in) and 36 = 0.005 in.
+AWG_SOURCE = "ASTM B258, definition d(n) = 0.005 in x 92^((36-n)/39)"
+
+
+def awg_diameter_m(gauge: int) -> float:
+    """Bare diameter of AWG ``gauge`` (m), from the ASTM B258 defining formula.
+
+    Examples
+    --------
+    >>> round(awg_diameter_m(36) / 0.0254, 6)
+    0.005
+    >>> round(awg_diameter_m(-3) / 0.0254, 4)   # 0000 gauge
+    0.46
+    """
+    return 0.005 * 0.0254 * 92.0 ** ((36 - gauge) / 39.0)
+
+
+def parse_gauge(text: str) -> int:
+    """Parse ``"AWG 26"``, ``"26 AWG"``, ``"AWG26"``, ``"4/0 AWG"`` to the AWG number (0000 -> -3)."""
+    t = text.strip().upper().replace("AWG", "").strip()
+    zeros = {"0": 0, "1/0": 0, "00": -1, "2/0": -1, "000": -2, "3/0": -2, "0000": -3, "4/0": -3}
+    if t in zeros:
+        return zeros[t]
+    n = int(t)
+    if not 0 <= n <= 56:
+        raise ValueError(text)
+    return n
+
+
+# --- copper -----------------------------------------------------------------------------------
+
+#: resistivity of annealed copper at 20 C, ohm m: the International Annealed Copper Standard,
+#: IEC 60028 (1925): 1/58 ohm mm^2/m
+COPPER_RESISTIVITY_20C_OHM_M = 1.0 / 58.0 * 1e-6
+#: temperature coefficient of resistance of annealed copper at 20 C, 1/K (IEC 60028: 0.00393)
+COPPER_ALPHA_20C_PER_K = 0.00393
+#: density of copper, kg/m^3 (IEC 60028: 8890 kg/m^3 at 20 C)
+COPPER_DENSITY_KG_PER_M3 = 8890.0
+COPPER_SOURCE = "IEC 60028 (International Annealed Copper Standard)"
+
+#: magnet-wire thermal classes (C), IEC 60317 / IEC 60085 thermal class designations
+THERMAL_CLASSES_C = (105.0, 120.0, 130.0, 155.0, 180.0, 200.0, 220.0, 240.0)
+THERMAL_CLASS_SOURCE = "IEC 60085 thermal classes as used by the IEC 60317 magnet-wire series"
+
+MU_0 = constants.mu_0
+G_STANDARD = constants.g  # standard acceleration of gravity, 9.80665 m/s^2 (CGPM 1901)
+
+__all__ = [
+    "Grade", "GRADES", "lookup_grade", "awg_diameter_m", "parse_gauge", "AWG_SOURCE",
+    "COPPER_RESISTIVITY_20C_OHM_M", "COPPER_ALPHA_20C_PER_K", "COPPER_DENSITY_KG_PER_M3",
+    "THERMAL_CLASSES_C", "MU_0", "G_STANDARD",
+]

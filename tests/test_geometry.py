@@ -1,0 +1,221 @@
+"""The geometry loader: examples load, every error case gives its one-line message.
+
+Error messages follow one pattern: "<file>: <key path>: <what> must be <rule>; got <value>."
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from fields.errors import GeometryError, HoverfieldError
+from fields.geometry import load, loads
+
+from helpers import EXAMPLES, MINIMAL, SUSPENSION
+
+
+def _mutate(old: str, new: str) -> str:
+    assert old in MINIMAL, old
+    return MINIMAL.replace(old, new, 1)
+
+
+def test_minimal_loads_in_si():
+    d = loads(MINIMAL, "m.toml")
+    c = d.coils[0]
+    assert (c.inner_radius_m, c.outer_radius_m, c.height_m) == pytest.approx((0.005, 0.015, 0.020))
+    # floater mass = volume x NdFeB density (7500 kg/m^3, tables) when no payload is given
+    vol = math.pi * 0.005**2 * 0.005
+    assert d.floater.mass_kg == pytest.approx(vol * 7500.0)
+    # gap measured from the coil's underside (z = 20 mm) to the floater top (origin - 2.5 mm)
+    origin = d.study.floater_origin_m(0.003)[0]
+    assert origin[2] + 0.0025 == pytest.approx(0.020 - 0.003)
+
+
+@pytest.mark.parametrize("path", EXAMPLES, ids=lambda p: p.name)
+def test_examples_load(path):
+    d = load(path)
+    assert d.invented, "example designs must be marked invented"
+    assert d.floater.mass_kg > 0
+    assert d.study.gap_min_m < d.study.operating_gap_m < d.study.gap_max_m
+
+
+def test_suspension_numbers():
+    d = load(SUSPENSION)
+    c = d.coils[0]
+    # AWG 26 bare diameter from ASTM B258: 0.005 in x 92^(10/39) = 0.4049 mm
+    assert c.wire_diameter_m == pytest.approx(0.4049e-3, rel=1e-3)
+    # turns from the copper fill factor: N = fill (b - a) h / (pi d^2 / 4)
+    assert c.turns == round(0.6 * 0.015 * 0.030 / (math.pi * c.wire_diameter_m**2 / 4))
+    # payload 4 g at -8 mm, magnet 12.7 x 6.35 mm N42 at the origin: centre of mass by moments
+    m_mag = math.pi * 0.00635**2 * 0.00635 * 7500
+    assert d.floater.centre_of_mass_m[2] == pytest.approx(-0.008 * 0.004 / (m_mag + 0.004))
+
+
+ERROR_CASES = [
+    # (old text, new text, expected message fragment)
+    ('outer_radius = "15 mm"', 'outer_radus = "15 mm"', r"coils\[0\]\.outer_radus: this key must be one the format knows; did you mean \"outer_radius\""),
+    ('height = "20 mm"', 'height = "20 kg"', r"coils\[0\]\.height: the value must be a length .*got \"20 kg\""),
+    ('height = "20 mm"', 'height = 20', r"coils\[0\]\.height: .*bare numbers have no unit.*got 20"),
+    ('height = "20 mm"', 'height = "-20 mm"', r"coils\[0\]\.height: the value must be positive; got \"-20 mm\""),
+    ('height = "20 mm"', 'height = "0 mm"', r"coils\[0\]\.height: the value must be positive"),
+    ('inner_radius = "5 mm"', 'inner_radius = "15 mm"', r"coils\[0\]\.inner_radius: the value must be smaller than outer_radius"),
+    ('turns = 500', 'turns = 5000\nwire_gauge = "AWG 20"', r"coils\[0\]\.turns: the value must be at most \d+ for this winding cross-section"),
+    ('turns = 500', 'turns = 500\nwire_gauge = "AWG 30"\nfill_factor = 0.3', r"coils\[0\]\.turns: the value must be consistent with fill_factor 0.3"),
+    ('grade = "N42"', 'grade = "N43"', r"floater\.magnets\[0\]\.grade: the value must be a grade from the table"),
+    ('grade = "N42"', 'grade = "N42"\ncolour = "red"', r"floater\.magnets\[0\]\.colour: this key must be one the format knows"),
+    ('shape = "cylinder"', 'shape = "cilinder"', r"floater\.magnets\[0\]\.shape: .*did you mean \"cylinder\""),
+    ('gap_min = "3 mm"', 'gap_min = "30 mm"', r"study\.gap_min: the value must be smaller than gap_max"),
+    ('supply_voltage = "12 V"', 'supply_voltage = "12 A"', r"study\.supply_voltage: the value must be a voltage"),
+    ('position = ["0 mm", "0 mm", "30 mm"]', 'position = ["0 mm", "30 mm"]', r"coils\[0\]\.position: the value must be a list of three quantities"),
+    ('position = ["0 mm", "0 mm", "30 mm"]', 'position = ["0 mm", "0 mm", 30]', r"coils\[0\]\.position\[2\]: .*no unit"),
+    ('nominal_current = "0.5 A"', 'nominal_current = "2 A"', r"coils\[0\]\.nominal_current: the value must be within max_current"),
+]
+
+
+@pytest.mark.parametrize("old, new, pattern", ERROR_CASES)
+def test_error_messages(old, new, pattern):
+    with pytest.raises(GeometryError, match=pattern) as exc:
+        loads(_mutate(old, new), "bad.toml")
+    msg = str(exc.value)
+    assert msg.startswith("bad.toml: ") and "\n" not in msg
+
+
+def test_missing_floater():
+    text = MINIMAL.split("[floater]")[0] + "[study]\n" + MINIMAL.split("[study]")[1]
+    with pytest.raises(GeometryError, match=r"bad.toml: floater: a design must be given a \[floater\] section"):
+        loads(text, "bad.toml")
+
+
+def test_invalid_toml_gives_line_and_column():
+    with pytest.raises(GeometryError, match=r"bad.toml: the file must be valid TOML; got .*line 3, column"):
+        loads('name = "x"\n\nheight = "5 mm\n', "bad.toml")
+
+
+def test_overlap_at_operating_gap(tmp_path):
+    # a fixed magnet placed where the floater hovers
+    text = MINIMAL + '''
+[[magnets]]
+name = "intruder"
+shape = "sphere"
+diameter = "6 mm"
+grade = "N35"
+position = ["0 mm", "0 mm", "8 mm"]
+'''
+    text = text.replace('supply_voltage = "12 V"', 'supply_voltage = "12 V"\noperating_gap = "10 mm"\ngap_reference = "c"')
+    with pytest.raises(GeometryError, match=r"bad.toml: (floater magnet 1 / intruder|intruder / floater magnet 1): solids at the operating gap must be apart \(they overlap\)"):
+        loads(text, "bad.toml")
+
+
+def test_mesh_missing_and_open(tmp_path):
+    import trimesh
+
+    text = MINIMAL + '''
+[[magnets]]
+name = "blob"
+shape = "mesh"
+file = "blob.stl"
+grade = "N35"
+position = ["40 mm", "0 mm", "0 mm"]
+'''
+    with pytest.raises(GeometryError, match=r"magnets\[0\]\.file: the value must be an existing mesh file"):
+        loads(text, str(tmp_path / "g.toml"), base_dir=tmp_path)
+    box = trimesh.creation.box((5, 5, 5))
+    open_box = trimesh.Trimesh(box.vertices, box.faces[:-2])
+    open_box.export(tmp_path / "blob.stl")
+    with pytest.raises(GeometryError, match=r"magnets\[0\]\.file: the value must be a closed \(watertight\) triangle mesh"):
+        loads(text, str(tmp_path / "g.toml"), base_dir=tmp_path)
+    box.export(tmp_path / "blob.stl")
+    d = loads(text, str(tmp_path / "g.toml"), base_dir=tmp_path)
+    # mesh_unit defaults to mm: a 5 mm cube
+    assert d.magnets[0].volume_m3 == pytest.approx(125e-9, rel=1e-9)
+
+
+def test_never_writes_input(tmp_path):
+    p = tmp_path / "d.toml"
+    p.write_text(MINIMAL)
+    before = p.read_bytes(), p.stat().st_mtime_ns
+    load(p)
+    assert (p.read_bytes(), p.stat().st_mtime_ns) == before
+
+
+# ---- property-based fuzzing: malformed and random files raise only the tool's own error ----
+
+_values = st.recursive(
+    st.one_of(st.integers(-10**6, 10**6), st.floats(allow_nan=True), st.booleans(),
+              st.text(max_size=12), st.sampled_from(["5 mm", "-1 mm", "1.3 T", "0 A", "N42", "cylinder", "ring", "12 V", "nan mm", "1e400 mm"])),
+    lambda inner: st.one_of(st.lists(inner, max_size=4), st.dictionaries(st.text(max_size=8), inner, max_size=4)),
+    max_leaves=10,
+)
+
+
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.text(max_size=200))
+def test_fuzz_random_text(text):
+    try:
+        loads(text, "fuzz.toml")
+    except HoverfieldError:
+        pass
+
+
+@settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.data())
+def test_fuzz_mutated_minimal(data):
+    doc = tomllib.loads(MINIMAL)
+    section = data.draw(st.sampled_from(["coils", "floater", "study", "top"]))
+    if section == "coils":
+        target = doc["coils"][0]
+    elif section == "floater":
+        target = doc["floater"]["magnets"][0]
+    elif section == "study":
+        target = doc["study"]
+    else:
+        target = doc
+    key = data.draw(st.sampled_from(sorted(target) + ["extra"]))
+    target[key] = data.draw(_values)
+    try:
+        text = _dump(doc)
+    except ValueError:
+        return
+    try:
+        loads(text, "fuzz.toml")
+    except HoverfieldError:
+        pass
+
+
+def _dump(obj) -> str:
+    """A tiny TOML writer for the fuzz test (inline tables for everything)."""
+    def val(v):
+        if isinstance(v, bool):
+            return "true" if v else "false"
+        if isinstance(v, int):
+            return str(v)
+        if isinstance(v, float):
+            if math.isnan(v):
+                return "nan"
+            if math.isinf(v):
+                return "inf" if v > 0 else "-inf"
+            return repr(v)
+        if isinstance(v, str):
+            return '"' + v.replace("\\", "\\\\").replace('"', '\\"').replace("\n", "\\n") + '"'
+        if isinstance(v, list):
+            return "[" + ", ".join(val(x) for x in v) + "]"
+        if isinstance(v, dict):
+            return "{" + ", ".join(f"{key(k)} = {val(x)}" for k, x in v.items()) + "}"
+        raise ValueError(v)
+
+    def key(k):
+        if any(ord(c) < 32 for c in k):
+            raise ValueError(k)
+        return '"' + k.replace("\\", "\\\\").replace('"', '\\"') + '"'
+
+    return "\n".join(f"{key(k)} = {val(v)}" for k, v in obj.items()) + "\n"
+
+
+def test_dump_roundtrip_helper():
+    assert tomllib.loads(_dump(tomllib.loads(MINIMAL))) == tomllib.loads(MINIMAL)
+    _ = np
