@@ -446,8 +446,11 @@ class Mode:
     frequency_Hz: float | None
     growth_time_s: float | None
     vector: np.ndarray
+    neutral: bool = False
 
     def text(self) -> str:
+        if self.neutral:
+            return f"{self.name}: neutral (no restoring stiffness)"
         if self.stable:
             f = f", {self.frequency_Hz:.3g} Hz" if self.frequency_Hz else ""
             return f"{self.name}: stable, {self.stiffness:.3g} {self.unit}{f}"
@@ -474,8 +477,7 @@ class Verdict:
         return out
 
 
-_MODE_NAMES = {"x": "sideways x", "y": "sideways y", "z": "vertical", "rx": "tilt about x",
-               "ry": "tilt about y", "rz": "spin about vertical"}
+_MODE_CLASS = {"x": "sideways", "y": "sideways", "z": "vertical", "rx": "tilt", "ry": "tilt", "rz": "spin about vertical"}
 
 
 def mass_matrix(design: Design, rotvec_rad) -> np.ndarray:
@@ -492,9 +494,12 @@ def mass_matrix(design: Design, rotvec_rad) -> np.ndarray:
 def stability_verdict(design: Design, stiff: Stiffness, free_axes=None) -> Verdict:
     """Modes of M q'' + K q = 0 over the free axes, each named by its dominant axis.
 
-    A mode with K-eigenvalue > 0 is stable (frequency sqrt(lambda)/2 pi from the generalized
-    problem K v = lambda M v); < 0 grows with time constant 1/sqrt(-lambda). Axes the floater
-    cannot move on (spin of an axisymmetric floater has zero stiffness) are reported neutral.
+    The generalized eigenproblem K v = lambda M v gives each mode; lambda > 0 is stable with
+    frequency sqrt(lambda) / 2 pi, lambda < 0 grows with time constant 1 / sqrt(-lambda). The
+    reported stiffness is lambda times the mass (or moment of inertia) of the dominant axis.
+    Modes of equal lambda and the same kind (sideways x and y of an axisymmetric design) are
+    merged ("sideways x/y"). A mode whose stiffness is below 1e-7 of the largest entry of its
+    kind is neutral (e.g. the spin of an axisymmetric floater).
     """
     free = tuple(design.study.free_axes if free_axes is None else free_axes)
     idx = [AXES.index(a) for a in free]
@@ -506,29 +511,49 @@ def stability_verdict(design: Design, stiff: Stiffness, free_axes=None) -> Verdi
     lam = lam.real
     V = V.real
     order = np.argsort(lam)
-    modes = []
-    notes = []
-    Kscale = np.abs(np.diag(stiff.K))
+    raw = []
+    Kd = np.abs(np.diag(stiff.K))
     for j in order:
         v = V[:, j]
-        # dominant axis by its share of kinetic energy v_i M_ii v_i
         share = v**2 * np.diag(M)
         a = free[int(np.argmax(share))]
         ai = AXES.index(a)
-        unit = "N/m" if ai < 3 else "N m/rad"
-        k_eff = lam[j] * (design.floater.mass_kg if ai < 3 else M[idx.index(ai), idx.index(ai)])
-        tiny = 1e-9 * max(Kscale[ai], 1e-30) + 1e-12
-        if abs(k_eff) <= max(tiny, 1e-9 * (Kscale.max() if ai < 3 else Kscale[3:].max())):
-            modes.append(Mode(_MODE_NAMES[a], True, 0.0, unit, None, None, v))
-            notes.append(f"{_MODE_NAMES[a]}: neutral (no restoring stiffness; free to drift slowly)")
+        mi = M[idx.index(ai), idx.index(ai)]
+        k_eff = float(lam[j] * mi)
+        ref = Kd[:3].max() if ai < 3 else Kd[3:].max()
+        neutral = abs(k_eff) <= 1e-7 * max(ref, 1e-300)
+        raw.append((a, ai, float(lam[j]), k_eff, neutral, v))
+    modes: list[Mode] = []
+    notes = []
+    used = [False] * len(raw)
+    unstable_axes = 0
+    for i, (a, ai, lam_i, k_eff, neutral, v) in enumerate(raw):
+        if used[i]:
             continue
-        if lam[j] > 0:
-            modes.append(Mode(_MODE_NAMES[a], True, float(k_eff), unit, float(np.sqrt(lam[j]) / (2 * np.pi)), None, v))
+        used[i] = True
+        group = [a]
+        for j in range(i + 1, len(raw)):
+            b = raw[j]
+            if not used[j] and _MODE_CLASS[b[0]] == _MODE_CLASS[a] and abs(b[2] - lam_i) <= 1e-6 * max(abs(lam_i), 1e-30) + 1e-12:
+                used[j] = True
+                group.append(b[0])
+        kind = _MODE_CLASS[a]
+        if kind in ("sideways", "tilt"):
+            letters = "x/y" if len(group) == 2 else group[0].lstrip("r")
+            name = f"{kind} {letters}" if kind == "sideways" else f"tilt about {letters}"
         else:
-            modes.append(Mode(_MODE_NAMES[a], False, float(k_eff), unit, None, float(1 / np.sqrt(-lam[j])), v))
-    unstable = sum(1 for m in modes if not m.stable)
+            name = kind
+        unit = "N/m" if ai < 3 else "N m/rad"
+        if neutral:
+            modes.append(Mode(name, True, 0.0, unit, None, None, v, neutral=True))
+            notes.append(f"{name}: neutral (no restoring stiffness; it may drift slowly)")
+        elif lam_i > 0:
+            modes.append(Mode(name, True, k_eff, unit, float(np.sqrt(lam_i) / (2 * np.pi)), None, v))
+        else:
+            modes.append(Mode(name, False, k_eff, unit, None, float(1 / np.sqrt(-lam_i)), v))
+            unstable_axes += len(group)
     tr, rel = stiff.earnshaw_residual()
-    return Verdict(modes=tuple(modes), unstable_count=unstable, earnshaw_trace_N_per_m=tr, earnshaw_residual=rel,
+    return Verdict(modes=tuple(modes), unstable_count=unstable_axes, earnshaw_trace_N_per_m=tr, earnshaw_residual=rel,
                    stiffness=stiff, mass_matrix=mass_matrix(design, stiff.rotvec_rad), free_axes=free,
                    notes=tuple(notes))
 
@@ -697,6 +722,8 @@ class Allocation:
 
     G: np.ndarray
     condition_number: float
+    rank: int
+    axes: tuple[str, ...]
     length_scale_m: float
     position_m: np.ndarray
     rotvec_rad: np.ndarray
@@ -738,6 +765,7 @@ def allocation_matrix(design: Design, position_m, rotvec_rad, axes=None) -> Allo
     scale = np.array([1, 1, 1, 1 / L, 1 / L, 1 / L])
     rows = [AXES.index(a) for a in (design.study.free_axes if axes is None else axes)]
     sv = np.linalg.svd((G * scale[:, None])[rows], compute_uv=False)
-    cond = float(sv[0] / sv[-1]) if sv[-1] > 0 else float("inf")
-    return Allocation(G=G, condition_number=cond, length_scale_m=L, position_m=np.asarray(position_m, float),
+    rank = int(np.sum(sv > 1e-9 * sv[0])) if sv.size and sv[0] > 0 else 0
+    cond = float(sv[0] / sv[-1]) if sv.size and sv[-1] > 1e-12 * sv[0] else float("inf")
+    return Allocation(G=G, condition_number=cond, rank=rank, axes=tuple(AXES[r] for r in rows), length_scale_m=L, position_m=np.asarray(position_m, float),
                       rotvec_rad=np.asarray(rotvec_rad, float))

@@ -51,6 +51,41 @@ def cmd_check(args) -> int:
     return 0
 
 
+def cmd_curves(args) -> int:
+    from .runs import run_curves
+
+    design = _load(args)
+    out = _out_dir(args, design)
+    s = run_curves(design, out)
+    print(f"{design.name}: weight {s['weight_N']:.4g} N ({s['mass_kg'] * 1e3:.4g} g)")
+    op = s["at_operating_gap"]
+    print(f"at the operating gap {op['gap_m'] * 1e3:.4g} mm: hover current {op['hover_current_A']:.4g} A, "
+          f"k_i {op['ki_N_per_A']:.4g} N/A, k_z {op['kz_at_hover_N_per_m']:.4g} N/m (k = -dF/dh; < 0 is unstable)")
+    for e in s["equilibria"]:
+        print(f"  equilibrium at {e['current_A']:g} A: gap {e['gap_m'] * 1e3:.4g} mm, {e['label']} (k_z {e['kz_N_per_m']:.4g} N/m)")
+    for w in s["warnings"]:
+        print(f"warning: {w}")
+    print(f"force error estimate: {s['max_force_error_N']:.2g} N; wrote " + ", ".join(s["files"]))
+    return 0
+
+
+def cmd_stability(args) -> int:
+    from .runs import run_stability
+
+    design = _load(args)
+    out = _out_dir(args, design)
+    s = run_stability(design, out, with_maps=not args.no_maps)
+    eq = s["equilibrium"]
+    print(f"{design.name}: operating point: {s['operating_point']}")
+    print(f"equilibrium gap {eq['gap_m'] * 1e3:.4g} mm over axes {', '.join(eq['free_axes'])}")
+    for ln in s["verdict_lines"]:
+        print("  " + ln)
+    if "allocation" in s:
+        print(f"  current-to-force/torque matrix: {s['allocation']['text']}")
+    print("wrote " + ", ".join(s["files"]))
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="hoverfield",
@@ -68,6 +103,9 @@ def build_parser() -> argparse.ArgumentParser:
         return sp
 
     add("check", cmd_check, "validate a design, print its summary and draw it to scale")
+    add("curves", cmd_curves, "axial force versus gap for a family of currents, hover current, equilibria, payload envelope")
+    sp = add("stability", cmd_stability, "equilibrium, 6x6 stiffness, stability verdict, sideways and tilt maps")
+    sp.add_argument("--no-maps", action="store_true", help="skip the maps (faster)")
     return p
 
 

@@ -75,3 +75,108 @@ def design_picture(design, gap_m: float | None = None):
                  + ("  [invented example]" if design.invented else ""), fontsize=11)
     fig.tight_layout()
     return fig
+
+
+def curve_family(curves, equilibria=(), title: str = ""):
+    """F_up versus gap for each current, the weight line, equilibria (filled: stable, open: unstable)."""
+    fig, (ax, ax2) = plt.subplots(2, 1, figsize=(8, 7.5), sharex=True, gridspec_kw={"height_ratios": [2.2, 1]})
+    g = curves.gaps_m * 1e3
+    cmap = plt.get_cmap("viridis")
+    n = len(curves.currents_A)
+    for j, I in enumerate(curves.currents_A):
+        F = np.where(curves.contact, np.nan, curves.Fup_N[:, j])
+        ax.plot(g, F, color=cmap(j / max(n - 1, 1)), lw=1.6, label=f"I = {I:g} A")
+    ax.axhline(curves.weight_N, color="#b22222", ls="--", lw=1.3, label=f"weight {curves.weight_N:.3g} N")
+    ax.fill_between(g, np.where(curves.contact, np.nan, curves.min_total_mass_kg * curves.weight_N / max(curves.weight_N, 1e-30) * 9.80665),
+                    np.where(curves.contact, np.nan, curves.max_total_mass_kg * 9.80665), color="#999999", alpha=0.15,
+                    label=f"reach within +-{curves.max_current_A:g} A")
+    for e in equilibria:
+        ax.plot(e.gap_m * 1e3, curves.weight_N, "o", ms=8, mfc="black" if e.stable else "white", mec="black",
+                label=f"{e.label} at {e.gap_m * 1e3:.3g} mm, {e.current_A:g} A")
+    lo = np.nanmin(np.where(curves.contact[:, None], np.nan, curves.Fup_N))
+    hi = np.nanmax(np.where(curves.contact[:, None], np.nan, curves.Fup_N))
+    span = max(hi, curves.weight_N * 3) - min(lo, 0)
+    ax.set_ylim(min(lo, 0) - 0.05 * span, min(hi, curves.weight_N * 6) + 0.05 * span)
+    ax.set_ylabel("upward magnetic force F_up (N)")
+    ax.grid(True, alpha=0.3)
+    ax.legend(fontsize=7.5, loc="best", ncol=2)
+    ax.set_title(title or "axial force versus gap")
+    ih = np.where(curves.contact, np.nan, curves.hover_current_A)
+    ax2.plot(g, ih, color="#1f4e9c", lw=1.6, label="hover current")
+    ax2.axhline(curves.max_current_A, color="#b22222", ls=":", lw=1, label="current limit")
+    ax2.axhline(-curves.max_current_A, color="#b22222", ls=":", lw=1)
+    ax2.set_ylabel("hover current (A)")
+    ax2.set_xlabel("gap (mm)")
+    ax2.grid(True, alpha=0.3)
+    ax2.legend(fontsize=7.5)
+    fin = ih[np.isfinite(ih)]
+    if fin.size:
+        m = max(np.max(np.abs(fin)), curves.max_current_A)
+        ax2.set_ylim(-1.3 * m, 1.3 * m) if np.min(fin) < 0 else ax2.set_ylim(-0.1 * m, 1.3 * m)
+    fig.tight_layout()
+    return fig
+
+
+def pose_maps(lateral_map, tilt_map, title: str = ""):
+    """Sideways force over gap x offset and tilt torque over gap x tilt; the passively centred
+    region is shaded green, the region that pushes away red, contact grey."""
+    from matplotlib.colors import ListedColormap
+
+    fig, axes = plt.subplots(1, 2, figsize=(12, 5.2))
+    for ax, mp in zip(axes, (lateral_map, tilt_map)):
+        if mp is None:
+            ax.set_visible(False)
+            continue
+        if mp.kind == "lateral":
+            x = mp.coordinate * 1e3
+            val = mp.force_N[..., 0] * 1e3
+            lab = "sideways force F_x (mN)"
+            xl = "sideways offset x (mm)"
+        else:
+            x = np.degrees(mp.coordinate)
+            val = mp.torque_Nm[..., 1] * 1e3
+            lab = "tilt torque T_y (mN m)"
+            xl = "tilt about y (deg)"
+        y = mp.gaps_m * 1e3
+        state = np.where(mp.contact, 2, np.where(mp.passively_centred, 0, np.where(mp.restoring, 3, 1)))
+        cmap = ListedColormap(["#9fd8a4", "#f3a6a0", "#bbbbbb", "#d8ecd9"])
+        ax.pcolormesh(x, y, state, cmap=cmap, vmin=-0.5, vmax=3.5, shading="nearest")
+        v = np.where(mp.contact, np.nan, val)
+        lim = np.nanpercentile(np.abs(v), 95) if np.any(np.isfinite(v)) else 1.0
+        levels = np.linspace(-lim, lim, 13)
+        cs = ax.contour(x, y, v, levels=levels, colors="k", linewidths=0.6)
+        ax.clabel(cs, fontsize=6.5, fmt="%.3g")
+        ax.set_xlabel(xl)
+        ax.set_ylabel("gap (mm)")
+        ax.set_title(f"contours: {lab}", fontsize=9)
+    from matplotlib.patches import Patch
+
+    handles = [Patch(color="#9fd8a4", label="passively centred (pushed back; the coil can hold the weight)"),
+               Patch(color="#d8ecd9", label="pushed back, but the weight cannot be held at this gap"),
+               Patch(color="#f3a6a0", label="pushed away from the centre (needs active control)"),
+               Patch(color="#bbbbbb", label="contact with a body")]
+    fig.legend(handles=handles, loc="lower center", ncol=2, fontsize=8, frameon=False)
+    fig.suptitle(title or "sideways and tilt maps", fontsize=11)
+    fig.tight_layout(rect=(0, 0.08, 1, 1))
+    return fig
+
+
+def stiffness_vs_gap(gs, title: str = ""):
+    """Lateral, vertical and tilt stiffness versus gap (at the hover current)."""
+    fig, (a1, a2) = plt.subplots(2, 1, figsize=(8, 6), sharex=True)
+    g = gs.gaps_m * 1e3
+    a1.plot(g, gs.k_lateral_N_per_m, label="sideways k_x = k_y", color="#2e7d32")
+    a1.plot(g, gs.k_vertical_N_per_m, label="vertical k_z", color="#1f4e9c")
+    a1.axhline(0, color="k", lw=0.8)
+    a1.set_ylabel("stiffness (N/m)\n> 0 restores")
+    a1.legend(fontsize=8)
+    a1.grid(True, alpha=0.3)
+    a2.plot(g, gs.k_tilt_Nm_per_rad * 1e3, color="#8e24aa", label="tilt k_rx = k_ry")
+    a2.axhline(0, color="k", lw=0.8)
+    a2.set_ylabel("tilt stiffness (mN m/rad)")
+    a2.set_xlabel("gap (mm)")
+    a2.legend(fontsize=8)
+    a2.grid(True, alpha=0.3)
+    a1.set_title(title or "stiffness versus gap at the hover current")
+    fig.tight_layout()
+    return fig

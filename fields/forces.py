@@ -1,0 +1,487 @@
+"""Force and torque on the floater by surface magnetic charges and Gauss quadrature.
+
+For a uniformly magnetized floater magnet in an external field ``B_ext`` with no sources inside
+it, ``F = oint sigma B_ext dA`` with ``sigma = M . n = J . n / mu0``, and the torque about a point
+``c`` is ``T = oint (x - c) x sigma B_ext dA`` (this already contains ``m x B``). Only faces with
+``J . n != 0`` carry charge. Rules (METHODS.md section 2):
+
+- discs and annuli: Gauss-Legendre in r with the ``r dr`` weight, uniform trapezoid in angle;
+- cylinder sides (diametral polarization): Gauss-Legendre in z, trapezoid in angle;
+- cuboid faces: tensor Gauss-Legendre;
+- sphere: the charge route on the sphere surface (Gauss-Legendre in ``cos theta``, trapezoid
+  in angle). It is chosen over ``(m . grad) B`` at the centre because it needs no
+  finite-difference step, gives the torque by the same formula, and converges spectrally
+  like the other rules, so the two-order error estimate works the same way;
+- mesh faces: the symmetric 7-point degree-5 triangle rule (Dunavant, Int. J. Numer. Meth.
+  Eng. 21 (1985) 1129, table for p = 5), on each face subdivided ``4^s`` times.
+
+Only the fixed sources' field is used (coils, fixed magnets, cores), never the floater's own.
+The error estimate is the difference between the requested rule level and the next coarser one
+(fewer coil layers and fewer surface nodes); it bounds the error of the coarser result and is
+therefore conservative for the returned one.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.spatial.transform import Rotation
+
+from fields.errors import GeometryError
+from fields.model import Design, Floater, Magnet, rotation_matrix
+from fields.sources import CHUNK, _clip, core_models, fixed_field_basis, gauss_legendre
+
+#: rule levels: coil layers, radial nodes, angular nodes, axial/edge nodes, triangle subdivisions
+LEVELS: dict[str, dict[str, int]] = {
+    "coarse": dict(layers=6, nr=4, na=12, nz=4, sub=0),
+    "fast": dict(layers=8, nr=4, na=12, nz=5, sub=0),
+    "standard": dict(layers=10, nr=5, na=12, nz=6, sub=1),
+    "high": dict(layers=14, nr=8, na=24, nz=10, sub=2),
+    "reference": dict(layers=24, nr=14, na=48, nz=14, sub=3),
+}
+_ORDER = list(LEVELS)
+
+#: poses whose clearance is at or below this are reported as contact (m)
+CONTACT_CLEARANCE_M = 0.0
+
+
+# --------------------------------------------------------------------------- surface rules
+
+
+def _dunavant5() -> tuple[np.ndarray, np.ndarray]:
+    """Barycentric points (7,3) and weights (7,) (sum 1) of the degree-5 symmetric rule."""
+    s15 = np.sqrt(15.0)
+    a1, b1 = (6 - s15) / 21, (9 + 2 * s15) / 21
+    a2, b2 = (6 + s15) / 21, (9 - 2 * s15) / 21
+    w1, w2 = (155 - s15) / 1200, (155 + s15) / 1200
+    pts = [(1 / 3, 1 / 3, 1 / 3), (b1, a1, a1), (a1, b1, a1), (a1, a1, b1), (b2, a2, a2), (a2, b2, a2), (a2, a2, b2)]
+    return np.array(pts), np.array([9 / 40, w1, w1, w1, w2, w2, w2])
+
+
+def _subdivide(tri: np.ndarray) -> np.ndarray:
+    a, b, c = tri[:, 0], tri[:, 1], tri[:, 2]
+    ab, bc, ca = (a + b) / 2, (b + c) / 2, (c + a) / 2
+    return np.concatenate([np.stack(t, axis=1) for t in ((a, ab, ca), (ab, b, bc), (ca, bc, c), (ab, bc, ca))])
+
+
+def _disc_rule(r_in: float, r_out: float, nr: int, na: int):
+    r, wr = gauss_legendre(nr, r_in, r_out)
+    phi = 2 * np.pi * (np.arange(na) + 0.5) / na
+    R, P = np.meshgrid(r, phi, indexing="ij")
+    W = (wr * r)[:, None] * np.full(na, 2 * np.pi / na)[None, :]
+    return np.stack((R * np.cos(P), R * np.sin(P)), axis=-1).reshape(-1, 2), W.reshape(-1)
+
+
+def _side_rule(radius: float, h: float, nz: int, na: int):
+    z, wz = gauss_legendre(nz, -h / 2, h / 2)
+    phi = 2 * np.pi * (np.arange(na) + 0.5) / na
+    P, Z = np.meshgrid(phi, z, indexing="ij")
+    n = np.stack((np.cos(P), np.sin(P), np.zeros_like(P)), axis=-1).reshape(-1, 3)
+    x = n * radius
+    x[:, 2] = Z.reshape(-1)
+    W = (np.full(na, 2 * np.pi * radius / na)[:, None] * wz[None, :]).reshape(-1)
+    return x, n, W
+
+
+def magnet_surface_rule(magnet: Magnet, level: str = "standard", axisymmetric: bool = False):
+    """Charge quadrature of one magnet in its own frame.
+
+    Parameters
+    ----------
+    magnet : Magnet
+    level : str
+        A key of :data:`LEVELS`.
+    axisymmetric : bool
+        One angular node (``phi = 0``) carrying the whole ``2 pi`` weight (cylinder/ring caps,
+        axial polarization only): the 1-D radial rule for on-axis poses.
+
+    Returns
+    -------
+    points_m : ndarray, shape (q, 3)
+        Nodes, own frame (m).
+    charges_Am : ndarray, shape (q,)
+        ``sigma dA = (J . n / mu0) w`` (A m): the force is ``sum charges * B``.
+    """
+    from scipy.constants import mu_0
+
+    L = LEVELS[level]
+    J = np.asarray(magnet.polarization_T, dtype=float)
+    d = magnet.dimensions_m
+    xs, qs = [], []
+
+    def add(x, n, w):
+        s = (n @ J) * w / mu_0
+        keep = s != 0.0
+        xs.append(x[keep])
+        qs.append(s[keep])
+
+    if magnet.shape in ("cylinder", "ring"):
+        ri = 0.0 if magnet.shape == "cylinder" else d[0] / 2
+        ro, h = d[-2] / 2, d[-1]
+        if axisymmetric:
+            r, wr = gauss_legendre(L["nr"], ri, ro)
+            xy, w = np.stack((r, np.zeros_like(r)), axis=-1), 2 * np.pi * r * wr
+        else:
+            xy, w = _disc_rule(ri, ro, L["nr"], L["na"])
+        for sgn in (1.0, -1.0):
+            if J[2] != 0.0:
+                x = np.column_stack((xy, np.full(len(w), sgn * h / 2)))
+                add(x, np.tile([0.0, 0.0, sgn], (len(w), 1)), w)
+        if (J[0] != 0.0 or J[1] != 0.0) and not axisymmetric:
+            x, n, w = _side_rule(ro, h, L["nz"], L["na"])
+            add(x, n, w)
+            if ri > 0.0:
+                x, n, w = _side_rule(ri, h, L["nz"], L["na"])
+                add(x, -n, w)
+    elif magnet.shape == "cuboid":
+        half = np.asarray(d, dtype=float) / 2
+        for ax in range(3):
+            o1, o2 = [i for i in range(3) if i != ax]
+            u, wu = gauss_legendre(L["nz"], -half[o1], half[o1])
+            v, wv = gauss_legendre(L["nz"], -half[o2], half[o2])
+            U, V = np.meshgrid(u, v, indexing="ij")
+            W = (wu[:, None] * wv[None, :]).reshape(-1)
+            for sgn in (1.0, -1.0):
+                x = np.zeros((W.size, 3))
+                x[:, o1], x[:, o2], x[:, ax] = U.reshape(-1), V.reshape(-1), sgn * half[ax]
+                n = np.zeros((W.size, 3))
+                n[:, ax] = sgn
+                add(x, n, W)
+    elif magnet.shape == "sphere":
+        R = d[0] / 2
+        ct, wt = gauss_legendre(L["nr"] + 4, -1.0, 1.0)
+        phi = 2 * np.pi * (np.arange(L["na"]) + 0.5) / L["na"]
+        CT, P = np.meshgrid(ct, phi, indexing="ij")
+        st = np.sqrt(1 - CT**2)
+        n = np.stack((st * np.cos(P), st * np.sin(P), CT), axis=-1).reshape(-1, 3)
+        W = (wt[:, None] * np.full(L["na"], 2 * np.pi / L["na"])[None, :]).reshape(-1) * R * R
+        add(n * R, n, W)
+    elif magnet.shape == "mesh":
+        tri = np.asarray(magnet.mesh_vertices_m, dtype=float)[np.asarray(magnet.mesh_faces)]
+        for _ in range(L["sub"]):
+            tri = _subdivide(tri)
+        bary, wb = _dunavant5()
+        cr = np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0])
+        area = 0.5 * np.linalg.norm(cr, axis=1)
+        n = cr / (2 * area[:, None])
+        x = np.einsum("pj,tjc->tpc", bary, tri).reshape(-1, 3)
+        add(x, np.repeat(n, len(wb), axis=0), (area[:, None] * wb[None, :]).reshape(-1))
+    else:
+        raise GeometryError(f"magnet {magnet.name}", "shape", "one of cylinder, ring, cuboid, sphere, mesh", magnet.shape)
+    return np.concatenate(xs), np.concatenate(qs)
+
+
+def floater_surface_rule(floater: Floater, level: str = "standard", axisymmetric: bool = False):
+    """Charge quadrature (points (q,3) in the floater frame, charges (q,) in A m) of all magnets."""
+    xs, qs = [], []
+    for m in floater.magnets:
+        x, s = magnet_surface_rule(m, level, axisymmetric)
+        xs.append(x @ rotation_matrix(m.rotvec_rad).T + np.asarray(m.position_m, dtype=float))
+        qs.append(s)
+    return np.concatenate(xs), np.concatenate(qs)
+
+
+# --------------------------------------------------------------------------- results
+
+
+def _apply(base: np.ndarray, per_A: np.ndarray, currents_A) -> np.ndarray:
+    I = np.asarray(currents_A, dtype=float)
+    k = per_A.shape[1]
+    if I.shape[-1] != k:
+        raise GeometryError("wrench", "currents_A", f"{k} values per row (one per coil)", I.shape)
+    if I.ndim == 1:
+        return base + np.einsum("k,nki->ni", I, per_A)
+    return base[None] + np.einsum("ck,nki->cni", I, per_A)
+
+
+@dataclass(frozen=True)
+class WrenchBasis:
+    """Force and torque on the floater split by linearity in the coil currents.
+
+    ``F(I) = F0_N + sum_k I_k Fk_N_per_A[:, k]`` (exact without cores, and with cores that do not
+    saturate; ``core_saturated`` flags poses where the rated current box can saturate a core).
+
+    Attributes
+    ----------
+    F0_N, T0_Nm : ndarray, shape (n, 3)
+        Force (N) and torque about the floater's centre of mass (N m) at zero current.
+    Fk_N_per_A, Tk_Nm_per_A : ndarray, shape (n, k, 3)
+        Per ampere of each coil.
+    error_F_N, error_T_Nm : ndarray, shape (n,)
+        Two-level error estimates (at the coils' nominal currents).
+    contact : ndarray of bool, shape (n,)
+        Floater touches or overlaps a body: no field is evaluated there and the force and torque
+        are reported as zero (not a physical value: check this flag).
+    clearance_m : ndarray, shape (n,)
+        Signed clearance (negative = overlap); NaN when no clearance model is available.
+    core_saturated : ndarray of bool, shape (n,)
+    warnings : tuple of str
+    """
+
+    F0_N: np.ndarray
+    Fk_N_per_A: np.ndarray
+    T0_Nm: np.ndarray
+    Tk_Nm_per_A: np.ndarray
+    error_F_N: np.ndarray
+    error_T_Nm: np.ndarray
+    contact: np.ndarray
+    clearance_m: np.ndarray
+    core_saturated: np.ndarray
+    warnings: tuple[str, ...] = field(default_factory=tuple)
+
+    def force(self, currents_A) -> np.ndarray:
+        """Force (n,3) for currents (k,), or (c,n,3) for currents (c,k) (N)."""
+        return _apply(self.F0_N, self.Fk_N_per_A, currents_A)
+
+    def torque(self, currents_A) -> np.ndarray:
+        """Torque about the centre of mass, (n,3) or (c,n,3) (N m)."""
+        return _apply(self.T0_Nm, self.Tk_Nm_per_A, currents_A)
+
+
+@dataclass(frozen=True)
+class Wrench:
+    """Force and torque at given currents (nonlinear core clipping included).
+
+    Attributes
+    ----------
+    force_N, torque_Nm : ndarray, shape (n, 3)
+    error_F_N, error_T_Nm : ndarray, shape (n,)
+    contact : ndarray of bool, shape (n,)
+    clearance_m : ndarray, shape (n,)
+    core_saturated : ndarray of bool, shape (n,)
+        A core is clipped at saturation at these currents.
+    warnings : tuple of str
+    """
+
+    force_N: np.ndarray
+    torque_Nm: np.ndarray
+    error_F_N: np.ndarray
+    error_T_Nm: np.ndarray
+    contact: np.ndarray
+    clearance_m: np.ndarray
+    core_saturated: np.ndarray
+    warnings: tuple[str, ...] = field(default_factory=tuple)
+
+
+# --------------------------------------------------------------------------- evaluation
+
+
+def _poses(positions_m, rotvecs_rad):
+    P = np.atleast_2d(np.asarray(positions_m, dtype=float))
+    Rv = np.atleast_2d(np.asarray(rotvecs_rad, dtype=float))
+    if Rv.shape[0] == 1 and P.shape[0] > 1:
+        Rv = np.repeat(Rv, P.shape[0], axis=0)
+    if P.ndim != 2 or P.shape[1] != 3 or Rv.shape != P.shape:
+        raise GeometryError("wrench", "positions_m and rotvecs_rad", "arrays of shape (n, 3)", (P.shape, Rv.shape))
+    if not (np.all(np.isfinite(P)) and np.all(np.isfinite(Rv))):
+        raise GeometryError("wrench", "positions_m and rotvecs_rad", "finite numbers", "NaN or inf")
+    return P, Rv
+
+
+def _is_axial(axis) -> bool:
+    a = np.asarray(axis, dtype=float)
+    a = a / np.linalg.norm(a)
+    return abs(abs(a[2]) - 1.0) < 1e-12
+
+
+def _axis_xy(design: Design):
+    """Common symmetry axis (x, y) of an axisymmetric design about a z-parallel line, else None."""
+    xy = []
+    for c in design.coils:
+        if not _is_axial(c.axis):
+            return None
+        xy.append(c.position_m[:2])
+    for c in design.cores:
+        if c.shape not in ("cylinder", "ring") or not _is_axial(c.axis):
+            return None
+        xy.append(c.position_m[:2])
+    for m in design.magnets:
+        R = rotation_matrix(m.rotvec_rad)
+        J = R @ np.asarray(m.polarization_T, dtype=float)
+        if m.shape not in ("cylinder", "ring") or abs(abs(R[2, 2]) - 1) > 1e-12 or np.hypot(J[0], J[1]) != 0.0:
+            return None
+        xy.append(m.position_m[:2])
+    fl = design.floater
+    for m in fl.magnets:
+        R = rotation_matrix(m.rotvec_rad)
+        J = R @ np.asarray(m.polarization_T, dtype=float)
+        if m.shape not in ("cylinder", "ring") or abs(abs(R[2, 2]) - 1) > 1e-12 or np.hypot(J[0], J[1]) != 0.0:
+            return None
+        if np.hypot(*m.position_m[:2]) != 0.0:
+            return None
+    if np.hypot(*np.asarray(fl.centre_of_mass_m, dtype=float)[:2]) != 0.0:
+        return None
+    if not xy:
+        return None
+    xy = np.asarray(xy, dtype=float)
+    if np.ptp(xy[:, 0]) > 0.0 or np.ptp(xy[:, 1]) > 0.0:
+        return None
+    return xy[0]
+
+
+def _on_axis_mask(design: Design, P: np.ndarray, Rv: np.ndarray) -> np.ndarray:
+    xy = _axis_xy(design)
+    if xy is None:
+        return np.zeros(P.shape[0], dtype=bool)
+    return (P[:, 0] == xy[0]) & (P[:, 1] == xy[1]) & np.all(Rv == 0.0, axis=1)
+
+
+def _clearance(design: Design, P: np.ndarray, Rv: np.ndarray):
+    try:
+        from fields.bodies import floater_clearance_m
+    except ImportError:
+        return np.full(P.shape[0], np.nan), ("contact not checked: fields.bodies is not available",)
+    c = np.asarray(floater_clearance_m(design, P, Rv), dtype=float).reshape(-1)
+    return c, ()
+
+
+def _raw(design: Design, P, Rv, level: str, axisym: bool, currents_A=None):
+    """F0, Fk, T0, Tk (and clipped F, T at currents) for the poses P (n,3) at one rule level."""
+    xf, s = floater_surface_rule(design.floater, level, axisym)
+    q = xf.shape[0]
+    k = len(design.coils)
+    c_f = np.asarray(design.floater.centre_of_mass_m, dtype=float)
+    n = P.shape[0]
+    F0 = np.zeros((n, 3))
+    T0 = np.zeros((n, 3))
+    Fk = np.zeros((n, k, 3))
+    Tk = np.zeros((n, k, 3))
+    Fc = np.zeros((n, 3))
+    Tc = np.zeros((n, 3))
+    sat = np.zeros(n, dtype=bool)
+    sat_box = np.zeros(n, dtype=bool)
+    layers = LEVELS[level]["layers"]
+    per = max(1, CHUNK // max(1, q * max(layers, 1)))
+    cores = core_models(design) if design.cores else ()
+    for a in range(0, n, per):
+        sl = slice(a, a + per)
+        R = Rotation.from_rotvec(Rv[sl]).as_matrix()
+        X = np.einsum("nij,qj->nqi", R, xf) + P[sl, None, :]
+        arm = X - (np.einsum("nij,j->ni", R, c_f) + P[sl])[:, None, :]
+        fb = fixed_field_basis(design, X, P[sl], Rv[sl], layers=layers)
+        F0[sl] = np.einsum("q,nqi->ni", s, fb.B0_T)
+        Fk[sl] = np.einsum("q,nkqi->nki", s, fb.Bk_T_per_A)
+        T0[sl] = np.einsum("q,nqi->ni", s, np.cross(arm, fb.B0_T))
+        Tk[sl] = np.einsum("q,nkqi->nki", s, np.cross(arm[:, None], fb.Bk_T_per_A))
+        sat_box[sl] = fb.core_saturated
+        if currents_A is not None:
+            I = np.asarray(currents_A, dtype=float)
+            B = fb.field_T(I)
+            if cores:
+                J = fb.core_J0_T + np.einsum("k,nkci->nci", I, fb.core_Jk_T_per_A)
+                Jc, over = _clip(J, fb.core_saturation_T[None, :])
+                sat[sl] = np.any(over, axis=1)
+                for j, cm in enumerate(cores):
+                    idx = np.nonzero(over[:, j])[0]
+                    if idx.size:
+                        G = cm.field_matrix(X[idx]).reshape(idx.size, q, 3, 3)
+                        B[idx] += np.einsum("nqij,nj->nqi", G, Jc[idx, j] - J[idx, j])
+            Fc[sl] = np.einsum("q,nqi->ni", s, B)
+            Tc[sl] = np.einsum("q,nqi->ni", s, np.cross(arm, B))
+    return F0, Fk, T0, Tk, Fc, Tc, sat, sat_box
+
+
+def _evaluate(design: Design, positions_m, rotvecs_rad, order: str, currents_A=None):
+    if order not in LEVELS or order == "coarse":
+        raise GeometryError("wrench", "order", f"one of {', '.join(_ORDER[1:])}", order)
+    P, Rv = _poses(positions_m, rotvecs_rad)
+    n = P.shape[0]
+    k = len(design.coils)
+    if currents_A is not None:
+        currents_A = np.asarray(currents_A, dtype=float).reshape(-1)
+        if currents_A.size != k:
+            raise GeometryError("wrench", "currents_A", f"{k} values (one per coil)", currents_A.size)
+    clearance, warns = _clearance(design, P, Rv)
+    contact = clearance <= CONTACT_CLEARANCE_M  # NaN compares False
+    lower = _ORDER[_ORDER.index(order) - 1]
+    out = [np.zeros((n, 3)), np.zeros((n, k, 3)), np.zeros((n, 3)), np.zeros((n, k, 3)),
+           np.zeros((n, 3)), np.zeros((n, 3)), np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)]
+    low = [np.zeros((n, 3)), np.zeros((n, k, 3)), np.zeros((n, 3)), np.zeros((n, k, 3)),
+           np.zeros((n, 3)), np.zeros((n, 3))]
+    axial = _on_axis_mask(design, P, Rv) & ~contact
+    general = ~axial & ~contact
+    for mask, axisym in ((axial, True), (general, False)):
+        if not np.any(mask):
+            continue
+        res = _raw(design, P[mask], Rv[mask], order, axisym, currents_A)
+        res_lo = _raw(design, P[mask], Rv[mask], lower, axisym, currents_A)
+        if axisym:  # exact symmetry: transverse force and all torque vanish
+            for r in (res, res_lo):
+                r[0][:, :2] = 0.0
+                r[1][:, :, :2] = 0.0
+                r[2][:] = 0.0
+                r[3][:] = 0.0
+                r[4][:, :2] = 0.0
+                r[5][:] = 0.0
+        for dst, src in zip(out, res):
+            dst[mask] = src
+        for dst, src in zip(low, res_lo):
+            dst[mask] = src
+    if currents_A is not None:
+        dF, dT = out[4] - low[4], out[5] - low[5]
+    else:
+        Inom = np.array([float(c.nominal_current_A) for c in design.coils])
+        dF = (out[0] - low[0]) + np.einsum("k,nki->ni", Inom, out[1] - low[1])
+        dT = (out[2] - low[2]) + np.einsum("k,nki->ni", Inom, out[3] - low[3])
+    warns = list(warns)
+    if np.any(contact):
+        warns.append(f"{int(contact.sum())} of {n} poses are in contact: force and torque not evaluated there")
+    return P, out, np.linalg.norm(dF, axis=1), np.linalg.norm(dT, axis=1), contact, clearance, warns
+
+
+def wrench_basis(design: Design, positions_m, rotvecs_rad, order: str = "standard") -> WrenchBasis:
+    """Force and torque bases of the floater at n poses.
+
+    Parameters
+    ----------
+    design : Design
+    positions_m : ndarray, shape (n, 3)
+        Floater frame origins, world frame (m).
+    rotvecs_rad : ndarray, shape (n, 3) or (3,)
+        Floater orientations (rotation vectors, rad).
+    order : str
+        Rule level: ``"fast"``, ``"standard"``, ``"high"`` or ``"reference"`` (:data:`LEVELS`).
+
+    Returns
+    -------
+    WrenchBasis
+        Linear in the currents; exact without cores and for unclipped cores. Torque is about the
+        floater's centre of mass.
+
+    Notes
+    -----
+    Poses on the symmetry axis of an axisymmetric design (all sources coaxial along a line
+    parallel to z, axial polarizations, floater untilted) use the 1-D radial cap rule; the
+    transverse force and the torque are then zero by symmetry.
+    """
+    P, out, eF, eT, contact, clearance, warns = _evaluate(design, positions_m, rotvecs_rad, order)
+    sat = out[7]
+    if np.any(sat):
+        warns.append(f"{int(sat.sum())} poses can saturate a core within the rated currents: "
+                     "the linear basis is not exact there (use wrench() with the currents)")
+    return WrenchBasis(out[0], out[1], out[2], out[3], eF, eT, contact, clearance, sat, tuple(warns))
+
+
+def wrench(design: Design, positions_m, rotvecs_rad, currents_A, order: str = "standard") -> Wrench:
+    """Force and torque on the floater at n poses and one set of currents.
+
+    Parameters
+    ----------
+    design : Design
+    positions_m : ndarray, shape (n, 3)
+    rotvecs_rad : ndarray, shape (n, 3) or (3,)
+    currents_A : array_like, shape (k,)
+    order : str
+        Rule level (see :func:`wrench_basis`).
+
+    Returns
+    -------
+    Wrench
+        Core polarizations are clipped at saturation (nonlinear in the currents).
+    """
+    P, out, eF, eT, contact, clearance, warns = _evaluate(design, positions_m, rotvecs_rad, order, currents_A)
+    sat = out[6]
+    if np.any(sat):
+        warns.append(f"{int(sat.sum())} poses saturate a core: polarization clipped at saturation")
+    return Wrench(out[4], out[5], eF, eT, contact, clearance, sat, tuple(warns))

@@ -1,0 +1,310 @@
+"""Stiffness, equilibrium and stability against outside references.
+
+References:
+- Earnshaw, S. (1842), Trans. Camb. Phil. Soc. 7, 97: no stable equilibrium of rigid magnets in
+  static fields; the Laplace-equation form (Jackson, Classical Electrodynamics, 3rd ed., sec. 1.7
+  and problem 5.x on force = grad(m.B)) makes the translational stiffness of a rigid magnet in a
+  source-free field traceless, and symmetric (a Hessian of the energy).
+- Dipole-dipole energy U = -(mu0 / 4 pi r^3) [3 (m1.r^)(m2.r^) - m1.m2] (Jackson eq. 5.98
+  rearranged); a uniformly magnetized sphere has exactly a dipole field outside (Jackson sec. 5.10)
+  and feels exactly the dipole force in an external field (mean-value property of harmonic fields).
+- Tilt stiffness of a dipole in a uniform field: torque m x B, so k = m B at alignment (any text,
+  e.g. Griffiths, Introduction to Electrodynamics, eq. 6.1).
+- Yonnet, J.-P. (1981), "Permanent magnet bearings and couplings", IEEE Trans. Magn. 17(1),
+  1169: for coaxial ring magnets the radial stiffness is minus half the axial stiffness.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+from scipy import constants
+
+from fields import analysis
+from fields.errors import SolverError
+from fields.geometry import load, loads
+
+from helpers import REPULSIVE, SUSPENSION
+
+MU0 = constants.mu_0
+
+
+def _sphere_pair(d_fixed_mm=10.0, d_float_mm=8.0, br_fixed="1.2 T", br_float="1.3 T", sign=1):
+    text = f'''
+name = "spheres"
+[[magnets]]
+name = "fixed sphere"
+shape = "sphere"
+diameter = "{d_fixed_mm} mm"
+remanence = "{br_fixed}"
+position = ["0 mm", "0 mm", "0 mm"]
+[floater]
+[[floater.magnets]]
+shape = "sphere"
+diameter = "{d_float_mm} mm"
+remanence = "{br_float}"
+magnetization = [0, 0, {sign}]
+[study]
+gap_min = "5 mm"
+gap_max = "40 mm"
+gap_reference = "fixed sphere"
+gap_side = "below"
+supply_voltage = "1 V"
+'''
+    return loads(text, "spheres.toml")
+
+
+def _moment(br_T, d_m):
+    return br_T / MU0 * math.pi * d_m**3 / 6
+
+
+def test_dipole_dipole_stiffness_equals_energy_hessian():
+    d = _sphere_pair()
+    m1 = _moment(1.2, 0.010)
+    m2 = _moment(1.3, 0.008)
+    z = 0.025  # centre distance
+    gap = z - 0.005 - 0.004
+    pos, rot = analysis.pose_at_gap(d, [gap])
+    S = analysis.stiffness_matrix(d, pos[0], rot[0])
+    # coaxial aligned dipoles: U(z) = -mu0 m1 m2 / (2 pi z^3); k_z = d2U/dz2 = -6 mu0 m1 m2 / (pi z^5)
+    kz = -6 * MU0 * m1 * m2 / (math.pi * z**5)
+    # sideways: U(x) at fixed z, from the full dipole energy: k_x = -k_z / 2 (Laplace)
+    assert S.K[2, 2] == pytest.approx(kz, rel=1e-6)
+    assert S.K[0, 0] == pytest.approx(-kz / 2, rel=1e-6)
+    assert S.K[1, 1] == pytest.approx(-kz / 2, rel=1e-6)
+    # force check too: F_z = -dU/dz = -3 mu0 m1 m2 / (2 pi z^4) (attractive: points down, to the fixed one)
+    assert S.force_N[2] == pytest.approx(-3 * MU0 * m1 * m2 / (2 * math.pi * z**4), rel=1e-8)
+
+
+def test_tilt_stiffness_in_uniform_field_is_mB():
+    # a sphere at the centre of a large, long solenoid: field uniform to ~1e-7 over the sphere
+    R, L, N, I = 0.5, 4.0, 20000, 1.0
+    text = f'''
+name = "uniform"
+[[coils]]
+name = "big"
+inner_radius = "{R * 1000} mm"
+outer_radius = "{R * 1000 + 1} mm"
+height = "{L * 1000} mm"
+turns = {N}
+position = ["0 mm", "0 mm", "0 mm"]
+nominal_current = "{I} A"
+max_current = "{I} A"
+[floater]
+[[floater.magnets]]
+shape = "sphere"
+diameter = "6 mm"
+remanence = "1.2 T"
+[study]
+gap_min = "100 mm"
+gap_max = "3000 mm"
+gap_reference = "big"
+gap_side = "above"
+supply_voltage = "1 V"
+'''
+    d = loads(text, "uniform.toml")
+    pos = np.array([0.0, 0.0, 0.0])
+    S = analysis.stiffness_matrix(d, pos, np.zeros(3), [I])
+    # on-axis field at the centre of a thin finite solenoid: B = mu0 n I (L/2) / sqrt(R'^2 + (L/2)^2)
+    # (any electromagnetism text; R' the mean radius of the 1 mm thick winding, effect < 1e-6)
+    Rm = R + 0.0005
+    B = MU0 * N / L * I * (L / 2) / math.sqrt(Rm**2 + (L / 2) ** 2)
+    m = _moment(1.2, 0.006)
+    assert S.K[3, 3] == pytest.approx(m * B, rel=1e-5)
+    assert S.K[4, 4] == pytest.approx(m * B, rel=1e-5)
+    assert abs(S.K[5, 5]) < 1e-9 * m * B  # spin about the field: no stiffness
+
+
+def test_axisymmetric_lateral_is_minus_half_axial():
+    d = load(SUSPENSION)
+    # iron-free version of the suspension example (the core breaks the rigid-magnet assumption)
+    from dataclasses import replace
+
+    d = replace(d, cores=())
+    pos, rot = analysis.pose_at_gap(d, [0.012])
+    S = analysis.stiffness_matrix(d, pos[0], rot[0], [0.5])
+    assert S.K[0, 0] == pytest.approx(-S.K[2, 2] / 2, rel=1e-6)
+    assert S.K[1, 1] == pytest.approx(-S.K[2, 2] / 2, rel=1e-6)
+
+
+def test_ring_pair_bearing_yonnet():
+    # two coaxial axially magnetized rings repelling (a passive magnetic bearing, Yonnet 1981):
+    # axial stiffness > 0 implies radial stiffness = -axial / 2 < 0
+    text = '''
+name = "bearing"
+[[magnets]]
+name = "stator ring"
+shape = "ring"
+inner_diameter = "10 mm"
+outer_diameter = "20 mm"
+height = "5 mm"
+remanence = "1.2 T"
+[floater]
+[[floater.magnets]]
+shape = "ring"
+inner_diameter = "10 mm"
+outer_diameter = "20 mm"
+height = "5 mm"
+remanence = "1.2 T"
+magnetization = [0, 0, -1]
+[study]
+gap_min = "1 mm"
+gap_max = "10 mm"
+gap_reference = "stator ring"
+gap_side = "below"
+supply_voltage = "1 V"
+'''
+    d = loads(text, "bearing.toml")
+    pos, rot = analysis.pose_at_gap(d, [0.002])
+    S = analysis.stiffness_matrix(d, pos[0], rot[0])
+    assert S.K[2, 2] > 0
+    assert S.K[0, 0] == pytest.approx(-S.K[2, 2] / 2, rel=1e-6)
+
+
+# ---- Earnshaw: random iron-free arrangements ----
+
+_shapes = st.sampled_from(["cylinder", "cuboid", "sphere", "ring"])
+
+
+def _magnet_toml(section, name, shape, size, pos, mag):
+    lines = [f"[[{section}]]", f'name = "{name}"', f'shape = "{shape}"', 'remanence = "1.2 T"',
+             f"magnetization = [{mag[0]:.3f}, {mag[1]:.3f}, {mag[2]:.3f}]",
+             f'position = ["{pos[0]:.3f} mm", "{pos[1]:.3f} mm", "{pos[2]:.3f} mm"]']
+    if shape == "cylinder":
+        lines += [f'diameter = "{size:.3f} mm"', f'height = "{0.6 * size:.3f} mm"']
+    elif shape == "cuboid":
+        lines += [f'size = ["{size:.3f} mm", "{0.8 * size:.3f} mm", "{0.5 * size:.3f} mm"]']
+    elif shape == "sphere":
+        lines += [f'diameter = "{size:.3f} mm"']
+    else:
+        lines += [f'inner_diameter = "{0.4 * size:.3f} mm"', f'outer_diameter = "{size:.3f} mm"', f'height = "{0.5 * size:.3f} mm"']
+    return "\n".join(lines) + "\n"
+
+
+@settings(max_examples=12, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(
+    fixed_shape=_shapes, float_shape=_shapes,
+    fx=st.floats(-6, 6), fy=st.floats(-6, 6),
+    mag=st.tuples(st.floats(-1, 1), st.floats(-1, 1), st.floats(0.2, 1)),
+    fmag=st.tuples(st.floats(-1, 1), st.floats(-1, 1), st.floats(-1, 1)).filter(lambda v: sum(c * c for c in v) > 0.05),
+    current=st.floats(-2, 2),
+    coil_x=st.floats(-10, 10),
+)
+def test_earnshaw_trace_and_symmetry(fixed_shape, float_shape, fx, fy, mag, fmag, current, coil_x):
+    text = 'name = "random"\n'
+    text += _magnet_toml("magnets", "m1", fixed_shape, 10.0, (fx, fy, 0.0), mag)
+    text += f'''
+[[coils]]
+name = "c1"
+inner_radius = "3 mm"
+outer_radius = "8 mm"
+height = "6 mm"
+turns = 300
+position = ["{coil_x:.3f} mm", "0 mm", "-20 mm"]
+nominal_current = "{current:.4f} A"
+max_current = "2 A"
+[floater]
+'''
+    text += _magnet_toml("floater.magnets", "f", float_shape, 8.0, (0, 0, 0), fmag)
+    text += '''
+[study]
+gap_min = "4 mm"
+gap_max = "30 mm"
+operating_gap = "10 mm"
+gap_reference = "m1"
+gap_side = "below"
+supply_voltage = "1 V"
+'''
+    d = loads(text, "random.toml")
+    pos, rot = analysis.pose_at_gap(d, [0.010])
+    S = analysis.stiffness_matrix(d, pos[0], rot[0], [current])
+    Kt = S.translational
+    Et = S.error[:3, :3]
+    scale = np.abs(Kt).max()
+    # error bars: Richardson estimate plus the quadrature's relative accuracy (~1e-7 of the scale;
+    # the force rule is accurate to ~1e-8 relative, the central difference amplifies it by ~size/h)
+    tol = 3 * Et + 1e-5 * scale
+    assert abs(np.trace(Kt)) <= 3 * np.trace(Et) + 1e-5 * scale
+    assert np.all(np.abs(Kt - Kt.T) <= tol + tol.T)
+
+
+# ---- finite-difference step: convergence order ----
+
+
+def test_stiffness_step_convergence_order():
+    d = _sphere_pair()
+    m1 = _moment(1.2, 0.010)
+    m2 = _moment(1.3, 0.008)
+    z = 0.025
+    kz = -6 * MU0 * m1 * m2 / (math.pi * z**5)
+    pos, rot = analysis.pose_at_gap(d, [z - 0.009])
+    hs = np.array([4e-4, 2e-4, 1e-4])
+    err_c, err_r = [], []
+    for h in hs:
+        S = analysis.stiffness_matrix(d, pos[0], rot[0], step_length_m=h)
+        err_r.append(abs(S.K[2, 2] - kz))
+        # central difference at step h from the forces directly
+        b = analysis._basis(d, np.array([pos[0] + [0, 0, h], pos[0] - [0, 0, h]]), np.zeros((2, 3)))
+        Dh = -(b.F0_N[0, 2] - b.F0_N[1, 2]) / (2 * h)
+        err_c.append(abs(Dh - kz))
+    slope_c = np.polyfit(np.log(hs), np.log(err_c), 1)[0]
+    slope_r = np.polyfit(np.log(hs), np.log(err_r), 1)[0]
+    # central difference: second order; Richardson-extrapolated: fourth order
+    assert slope_c == pytest.approx(2.0, abs=0.15)
+    assert slope_r == pytest.approx(4.0, abs=0.4)
+
+
+# ---- the examples: the verdicts the design intends ----
+
+
+def test_suspension_verdict():
+    d = load(SUSPENSION)
+    c = analysis.axial_curves(d)
+    gi = int(np.argmin(np.abs(c.gaps_m - d.study.operating_gap_m)))
+    eq = analysis.find_equilibrium(d, [c.hover_current_A[gi]], start_gap_m=c.gaps_m[gi])
+    S = analysis.stiffness_matrix(d, eq.position_m, eq.rotvec_rad, eq.currents_A)
+    v = analysis.stability_verdict(d, S)
+    names = {m.name: m for m in v.modes}
+    assert not names["vertical"].stable
+    assert names["sideways x/y"].stable
+    assert v.unstable_count == 1
+    # the axial curve's k_z at the hover current agrees with the 6x6 matrix
+    assert S.K[2, 2] == pytest.approx(c.kz_at_hover()[gi], rel=1e-4)
+
+
+def test_repulsive_verdict():
+    d = load(REPULSIVE)
+    c = analysis.axial_curves(d)
+    eqs = [e for e in analysis.axial_equilibria(d, 0.0, c) if e.stable]
+    assert eqs, "the repulsive base must have a stable passive height"
+    eq = analysis.find_equilibrium(d, np.zeros(len(d.coils)), start_gap_m=eqs[0].gap_m)
+    S = analysis.stiffness_matrix(d, eq.position_m, eq.rotvec_rad, eq.currents_A)
+    v = analysis.stability_verdict(d, S)
+    names = {m.name: m for m in v.modes}
+    assert names["vertical"].stable
+    assert not names["sideways x/y"].stable
+    # Earnshaw: iron-free, so the translational trace vanishes
+    assert v.earnshaw_residual < 1e-6
+
+
+def test_equilibrium_failure_is_clear():
+    d = _sphere_pair()
+    # two attracting spheres: no equilibrium with gravity pulling them apart at any height above
+    with pytest.raises(SolverError, match=r"equilibrium: no pose found from gap .* over axes"):
+        analysis.find_equilibrium(d, start_gap_m=0.03, free_axes=("z",))
+
+
+def test_allocation_least_squares_and_limits():
+    d = load(REPULSIVE)
+    pos, rot = analysis.pose_at_gap(d, [0.03])
+    A = analysis.allocation_matrix(d, pos[0], rot[0])
+    want = np.array([1e-3, -5e-4, 0.0])
+    I = A.currents_for(want, [0, 0, 0], 1.0, axes=("x", "y", "z"))
+    assert np.all(np.abs(I) <= 1.0 + 1e-12)
+    np.testing.assert_allclose(A.G[:3] @ I, want, atol=1e-9)
+    with pytest.raises(SolverError, match="beyond the limits"):
+        A.currents_for([1.0, 0, 0], [0, 0, 0], 1.0, axes=("x", "y", "z"))

@@ -1,0 +1,384 @@
+"""Force and torque on the floater against independent references (scipy only, no magpylib).
+
+Designs are built directly from fields.model (invented geometries).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy import integrate, special
+from scipy.constants import mu_0
+from scipy.spatial.transform import Rotation
+
+from fields.forces import LEVELS, wrench, wrench_basis
+from fields.model import Coil, Core, Design, Floater, Magnet, Study
+
+#: the quadrature references below (Gauss-Legendre, quad) are converged to better than 1e-9
+REF_RTOL = 1e-7
+#: accuracy promised at the "standard" level where the floater is clear by >= 1 % of its size
+STANDARD_RTOL = 1e-6
+
+
+# --------------------------------------------------------------------------- design helpers
+
+
+def make_design(fl_magnets, coils=(), magnets=(), cores=(), com=(0.0, 0.0, 0.0)) -> Design:
+    """A Design built in Python (invented geometry); the study block is a placeholder."""
+    mass = float(sum(m.mass_kg for m in fl_magnets))
+    fl = Floater("floater", tuple(fl_magnets), 0.0, (0.0, 0.0, 0.0), mass, com,
+                 ((1.0, 0.0, 0.0), (0.0, 1.0, 0.0), (0.0, 0.0, 1.0)))
+    st = Study(0.003, 0.02, 5, "coil", (0.0, 0.0, 0.0), (0.0, 0.0, -1.0), 0.005, (0.0,), 0.0, 1, 0.0, 1,
+               (0.0, 0.0, -9.80665), 12.0)
+    return Design("test (invented)", "", "tests", tuple(coils), tuple(cores), tuple(magnets), fl, (), st)
+
+
+def bench_coil(position=(0.0, 0.0, 0.025)):
+    return Coil("coil", 0.007, 0.022, 0.030, 2100, position, (0.0, 0.0, 1.0), 0.5, 1.0)
+
+
+def disc(J=(0.0, 0.0, 1.30), dims=(0.0127, 0.00635), **kw):
+    return Magnet("disc", "cylinder", dims, J, **kw)
+
+
+# --------------------------------------------------------------------------- independent references
+
+
+def loop_pair_force_z(a, b, dz):
+    """Axial force on loop b (radius b, at +dz) from coaxial loop a, per unit I_a I_b (N/A^2).
+
+    Derivative of Maxwell's mutual inductance M = mu0 sqrt(ab) [(2/k - k) K(k) - (2/k) E(k)],
+    k^2 = 4ab / ((a+b)^2 + dz^2) (Smythe, Static and Dynamic Electricity, 3rd ed. 1968, sec. 8.02;
+    Grover, Inductance Calculations, 1946, ch. 13): F_z = dM/d(dz), in the closed form
+    F_z = -mu0 dz / sqrt((a+b)^2 + dz^2) [ -K + (a^2 + b^2 + dz^2) / ((a-b)^2 + dz^2) E ]
+    (checked against a finite difference of M in the next test).
+    """
+    m = 4 * a * b / ((a + b) ** 2 + dz**2)
+    K, E = special.ellipk(m), special.ellipe(m)
+    return -mu_0 * dz / np.sqrt((a + b) ** 2 + dz**2) * (-K + (a * a + b * b + dz * dz) / ((a - b) ** 2 + dz * dz) * E)
+
+
+def maxwell_mutual(a, b, dz):
+    m = 4 * a * b / ((a + b) ** 2 + dz**2)
+    k = np.sqrt(m)
+    return mu_0 * np.sqrt(a * b) * ((2 / k - k) * special.ellipk(m) - 2 / k * special.ellipe(m))
+
+
+def test_loop_force_formula_is_derivative_of_maxwell_mutual_inductance():
+    # internal consistency of the two published forms (central difference, step 1e-7 m)
+    a, b, dz, h = 0.01, 0.006, 0.004, 1e-7
+    fd = (maxwell_mutual(a, b, dz + h) - maxwell_mutual(a, b, dz - h)) / (2 * h)
+    assert loop_pair_force_z(a, b, dz) == pytest.approx(fd, rel=1e-6)
+
+
+def gl(n, lo, hi):
+    x, w = np.polynomial.legendre.leggauss(n)
+    return lo + (hi - lo) * (x + 1) / 2, w * (hi - lo) / 2
+
+
+def coil_on_disc_force_reference(coil: Coil, R, h, Jz, zc, n=48):
+    """F_z on an axially magnetized disc (radius R, height h, centre zc) below/above a coaxial coil.
+
+    The disc is its Amperian side current K = Jz/mu0 on radius R over its height; the coil is
+    j = N I/((b-a) h_c) over its cross-section. Loop-loop forces (Maxwell / Smythe above)
+    integrated with Gauss-Legendre over r_c, z_c and the disc height.
+    """
+    rc, wr = gl(n, coil.inner_radius_m, coil.outer_radius_m)
+    zcn, wz = gl(n, coil.position_m[2] - coil.height_m / 2, coil.position_m[2] + coil.height_m / 2)
+    zd, wd = gl(n, zc - h / 2, zc + h / 2)
+    j = coil.turns / ((coil.outer_radius_m - coil.inner_radius_m) * coil.height_m)
+    Rc, Zc, Zd = np.meshgrid(rc, zcn, zd, indexing="ij")
+    W = wr[:, None, None] * wz[None, :, None] * wd[None, None, :]
+    return float((W * j * (Jz / mu_0) * loop_pair_force_z(Rc, R, Zd - Zc)).sum())
+
+
+def cylinders_axial_force_reference(R1, L1, z1, R2, L2, z2, J1, J2):
+    """Axial force on cylinder 2 (above cylinder 1), both axially polarized and coaxial.
+
+    Charged-disc interaction in the Hankel form (Vokoun, Beleggia, Heller, Sittner, JMMM 321
+    (2009) 3758, eq. for coaxial cylinders): a pair of discs with charges s1, s2 (A/m) at
+    separation d > 0 repels with mu0 s1 s2 pi R1 R2 int_0^inf J1(kR1) J1(kR2) e^{-kd} / k dk.
+    """
+    total = 0.0
+    for s1, za in ((1, z1 + L1 / 2), (-1, z1 - L1 / 2)):
+        for s2, zb in ((1, z2 + L2 / 2), (-1, z2 - L2 / 2)):
+            d = zb - za
+            f = lambda k: special.j1(k * R1) * special.j1(k * R2) * np.exp(-k * d) / k  # noqa: E731
+            val = integrate.quad(f, 0, np.inf, epsabs=0, epsrel=1e-12, limit=2000)[0]
+            total += s1 * s2 * (J1 / mu_0) * (J2 / mu_0) * mu_0 * np.pi * R1 * R2 * val
+    return total
+
+
+# --------------------------------------------------------------------------- tests
+
+
+def test_coil_on_disc_matches_maxwell_loop_integral():
+    """Coil vs. thin magnetized disc (= current loop spread over its height)."""
+    coil = bench_coil()
+    R, h, Jz = 0.0063, 0.002, 1.2
+    d = make_design([disc((0, 0, Jz), (2 * R, h))], coils=[coil])
+    zc = 0.010 - 0.004 - h / 2  # 4 mm below the coil's bottom face
+    wb = wrench_basis(d, [[0.0, 0.0, zc]], [[0.0, 0.0, 0.0]], order="high")
+    ref = coil_on_disc_force_reference(coil, R, h, Jz, zc)
+    assert wb.Fk_N_per_A[0, 0, 2] == pytest.approx(ref, rel=REF_RTOL)
+    assert wb.F0_N[0] == pytest.approx([0, 0, 0], abs=1e-300)  # no permanent fixed source
+
+
+def test_two_cylinders_match_bessel_integral():
+    """Two coaxial axially magnetized cylinders (Vokoun et al. 2009)."""
+    fixed = Magnet("base", "cylinder", (0.02, 0.01), (0.0, 0.0, 1.2), (0.0, 0.0, 0.0))
+    fl = disc((0.0, 0.0, 1.3), (0.0127, 0.00635))
+    d = make_design([fl], magnets=[fixed])
+    gaps = np.array([0.002, 0.006, 0.015])
+    z2 = 0.005 + gaps + 0.00635 / 2
+    P = np.column_stack((np.zeros(3), np.zeros(3), z2))
+    wb = wrench_basis(d, P, np.zeros((3, 3)), order="high")
+    for i in range(3):
+        ref = cylinders_axial_force_reference(0.01, 0.01, 0.0, 0.00635, 0.00635, z2[i], 1.2, 1.3)
+        assert wb.F0_N[i, 2] == pytest.approx(ref, rel=REF_RTOL)
+        assert ref < 0  # aligned stacked magnets attract (sign check of the reference itself)
+
+
+def test_far_field_dipole_dipole_spheres():
+    """Two uniformly magnetized spheres interact exactly as point dipoles: F = 3 mu0 m1 m2/(2 pi z^4).
+
+    (Jackson, Classical Electrodynamics, 3rd ed., sec. 5.10 for the sphere's dipole field; the
+    coaxial dipole-dipole force follows from F = grad(m2 . B1).)
+    """
+    d1, d2, J1, J2 = 0.006, 0.004, 1.2, 1.1
+    s1 = Magnet("s1", "sphere", (d1,), (0.0, 0.0, J1))
+    s2 = Magnet("s2", "sphere", (d2,), (0.0, 0.0, J2))
+    d = make_design([s2], magnets=[s1])
+    z = np.array([0.008, 0.02, 0.05])
+    P = np.column_stack((np.zeros(3), np.zeros(3), z))
+    wb = wrench_basis(d, P, np.zeros((3, 3)), order="high")
+    m1 = J1 / mu_0 * np.pi * d1**3 / 6
+    m2 = J2 / mu_0 * np.pi * d2**3 / 6
+    ref = -3 * mu_0 * m1 * m2 / (2 * np.pi * z**4)  # attractive along +z
+    np.testing.assert_allclose(wb.F0_N[:, 2], ref, rtol=1e-9)
+    np.testing.assert_allclose(wb.F0_N[:, :2], 0.0, atol=1e-12 * np.abs(ref).max())
+
+
+# ----- Newton's third law and reciprocity (source side computed independently)
+
+
+def loop_field(a, r, z):
+    """(B_r, B_z) per ampere of a circular loop radius a at observer (r, z) (Smythe sec. 7.10)."""
+    m = 4 * a * r / ((a + r) ** 2 + z**2)
+    K, E = special.ellipk(m), special.ellipe(m)
+    s = np.sqrt((a + r) ** 2 + z**2)
+    den = (a - r) ** 2 + z**2
+    Bz = mu_0 / (2 * np.pi * s) * (K + (a * a - r * r - z * z) / den * E)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        Br = np.where(r > 0, mu_0 * z / (2 * np.pi * s * np.where(r > 0, r, 1)) * (-K + (a * a + r * r + z * z) / den * E), 0.0)
+    return Br, Bz
+
+
+def disc_field_world(R, h, Jz, rot, centre, X, n=40):
+    """B of an axially magnetized cylinder (Amperian side sheet = loops) at world points X (..., 3)."""
+    Rm = Rotation.from_rotvec(rot).as_matrix()
+    own = (X - centre) @ Rm
+    r = np.hypot(own[..., 0], own[..., 1])
+    zl, wl = gl(n, -h / 2, h / 2)
+    Br = np.zeros(r.shape)
+    Bz = np.zeros(r.shape)
+    for zi, wi in zip(zl, wl):
+        br, bz = loop_field(R, r, own[..., 2] - zi)
+        Br += wi * br
+        Bz += wi * bz
+    K = Jz / mu_0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        c = np.where(r > 0, own[..., 0] / np.where(r > 0, r, 1), 0)
+        s = np.where(r > 0, own[..., 1] / np.where(r > 0, r, 1), 0)
+    Bown = K * np.stack((Br * c, Br * s, Bz), axis=-1)
+    return Bown @ Rm.T
+
+
+def lorentz_on_coil(coil: Coil, R, h, Jz, rot, centre, pivot, n=(24, 24, 64)):
+    """Force and torque on the (z-axis) coil winding: int j phi_hat x B_disc dV, Gauss points."""
+    rc, wr = gl(n[0], coil.inner_radius_m, coil.outer_radius_m)
+    zc, wz = gl(n[1], coil.position_m[2] - coil.height_m / 2, coil.position_m[2] + coil.height_m / 2)
+    phi = 2 * np.pi * (np.arange(n[2]) + 0.5) / n[2]
+    Rr, Zz, Pp = np.meshgrid(rc, zc, phi, indexing="ij")
+    X = np.stack((Rr * np.cos(Pp), Rr * np.sin(Pp), Zz), axis=-1)
+    W = (wr[:, None, None] * Rr) * wz[None, :, None] * (2 * np.pi / n[2])
+    j = coil.turns / ((coil.outer_radius_m - coil.inner_radius_m) * coil.height_m)
+    tang = np.stack((-np.sin(Pp), np.cos(Pp), np.zeros_like(Pp)), axis=-1)
+    B = disc_field_world(R, h, Jz, rot, centre, X)
+    dF = j * np.cross(tang, B) * W[..., None]
+    return dF.sum(axis=(0, 1, 2)), np.cross(X - pivot, dF).sum(axis=(0, 1, 2))
+
+
+def test_newtons_third_law_general_pose():
+    coil = bench_coil(position=(0.0, 0.0, 0.0))
+    R, h, Jz = 0.00635, 0.00635, 1.3
+    com = (0.0, 0.0, 0.001)  # off-centre centre of mass (payload), floater frame
+    d = make_design([disc((0, 0, Jz), (2 * R, h))], coils=[coil], com=com)
+    pos = np.array([0.003, -0.002, -0.015 - 0.006 - h / 2])
+    rot = np.array([0.06, -0.04, 0.02])
+    wb = wrench_basis(d, pos[None], rot[None], order="high")
+    F_fl, T_fl = wb.Fk_N_per_A[0, 0], wb.Tk_Nm_per_A[0, 0]
+    pivot = pos + Rotation.from_rotvec(rot).apply(com)
+    F_coil, T_coil = lorentz_on_coil(coil, R, h, Jz, rot, pos, pivot)
+    scale = np.linalg.norm(F_fl)
+    np.testing.assert_allclose(F_fl, -F_coil, atol=1e-7 * scale)
+    # the torques about the same point cancel too
+    np.testing.assert_allclose(T_fl, -T_coil, atol=1e-7 * np.linalg.norm(T_fl) + 1e-7 * scale * 0.01)
+
+
+def test_reciprocity_force_is_gradient_of_flux_linkage():
+    """dF_z/dI = d(Lambda)/dz, Lambda the floater's flux linked by the coil's turns.
+
+    Lambda = (N/((b-a) h)) int int 2 pi r A_phi(r, z) dr dz with the floater's vector potential
+    built from loop potentials A_phi = (mu0/(pi k)) sqrt(a/r) [(1 - k^2/2) K - E] (Smythe 7.10).
+    """
+    coil = bench_coil(position=(0.0, 0.0, 0.0))
+    R, h, Jz = 0.00635, 0.00635, 1.3
+    d = make_design([disc((0, 0, Jz), (2 * R, h))], coils=[coil])
+
+    def linkage(zf):
+        rc, wr = gl(32, coil.inner_radius_m, coil.outer_radius_m)
+        zc, wz = gl(32, -coil.height_m / 2, coil.height_m / 2)
+        zl, wl = gl(32, zf - h / 2, zf + h / 2)
+        Rr, Zc, Zl = np.meshgrid(rc, zc, zl, indexing="ij")
+        m = 4 * R * Rr / ((R + Rr) ** 2 + (Zc - Zl) ** 2)
+        k = np.sqrt(m)
+        A = mu_0 / (np.pi * k) * np.sqrt(R / Rr) * ((1 - m / 2) * special.ellipk(m) - special.ellipe(m))
+        flux = 2 * np.pi * Rr * A * (Jz / mu_0)
+        W = wr[:, None, None] * wz[None, :, None] * wl[None, None, :]
+        return coil.turns / ((coil.outer_radius_m - coil.inner_radius_m) * coil.height_m) * (W * flux).sum()
+
+    zf = -0.015 - 0.005 - h / 2
+    step = 1e-5  # central difference: truncation ~ (step/gap)^2 ~ 1e-8
+    dlam = (linkage(zf + step) - linkage(zf - step)) / (2 * step)
+    wb = wrench_basis(d, [[0.0, 0.0, zf]], [[0.0, 0.0, 0.0]], order="high")
+    assert wb.Fk_N_per_A[0, 0, 2] == pytest.approx(dlam, rel=1e-6)
+
+
+# ----- accuracy, convergence, fast path, linearity
+
+
+def general_poses(n=6):
+    gaps = np.linspace(0.003, 0.02, n)
+    P = np.column_stack((np.full(n, 0.003), np.full(n, 0.001), 0.010 - gaps - 0.00635 / 2))
+    Rv = np.column_stack((np.zeros(n), np.full(n, np.deg2rad(5.0)), np.zeros(n)))
+    return P, Rv
+
+
+def test_standard_level_within_1e6_of_converged_reference():
+    d = make_design([disc()], coils=[bench_coil()])
+    P, Rv = general_poses()
+    ref = wrench_basis(d, P, Rv, order="reference")
+    std = wrench_basis(d, P, Rv, order="standard")
+    I = np.array([0.5])
+    Fr, F = ref.force(I), std.force(I)
+    err = np.linalg.norm(F - Fr, axis=1) / np.linalg.norm(Fr, axis=1)
+    assert np.all(err < STANDARD_RTOL)
+    # the two-level estimate is an upper bound of the actual error
+    assert np.all(std.error_F_N >= np.linalg.norm(F - Fr, axis=1))
+    # the reference itself is converged: it agrees with the "high" level far below 1e-6
+    high = wrench_basis(d, P, Rv, order="high")
+    assert np.max(np.linalg.norm(high.force(I) - Fr, axis=1) / np.linalg.norm(Fr, axis=1)) < 1e-9
+
+
+def test_quadrature_error_decays_exponentially_with_layers():
+    """Convergence rate: the coil-layer rule error falls geometrically (Gauss-Legendre on an analytic
+    integrand, Trefethen, Approximation Theory and Approximation Practice, 2013, thm 19.3)."""
+    import fields.forces as ff
+
+    d = make_design([disc()], coils=[bench_coil()])
+    P, Rv = general_poses(3)
+    ff.LEVELS["_ref"] = dict(layers=30, nr=12, na=32, nz=12, sub=0)
+    try:
+        def F(L):
+            ff.LEVELS["_t"] = dict(layers=L, nr=12, na=32, nz=12, sub=0)
+            r = ff._raw(d, P, Rv, "_t", False)
+            return r[1][:, 0]
+
+        ref = F(30)
+        errs = np.array([np.abs(F(L) - ref).max() for L in (4, 6, 8, 10, 12)])
+    finally:
+        ff.LEVELS.pop("_ref", None)
+        ff.LEVELS.pop("_t", None)
+    rates = errs[1:] / errs[:-1]
+    assert np.all(rates < 0.3), errs  # each +2 layers gains at least a factor 3
+    slope = np.polyfit([4, 6, 8, 10, 12], np.log(errs), 1)[0]
+    assert slope < -0.8  # ~ exp(-0.8 L) or faster
+
+
+def test_on_axis_fast_path_gives_same_numbers_as_general_rule():
+    import fields.forces as ff
+
+    d = make_design([disc()], coils=[bench_coil()])
+    z = 0.010 - np.array([0.003, 0.01, 0.02]) - 0.00635 / 2
+    P = np.column_stack((np.zeros(3), np.zeros(3), z))
+    fast = wrench_basis(d, P, np.zeros((3, 3)))
+    assert ff._on_axis_mask(d, P, np.zeros((3, 3))).all()
+    general = ff._raw(d, P, np.zeros((3, 3)), "standard", False)
+    np.testing.assert_allclose(fast.Fk_N_per_A[:, 0, 2], general[1][:, 0, 2], rtol=1e-13)
+    np.testing.assert_allclose(general[1][:, 0, :2], 0.0, atol=1e-12 * np.abs(general[1]).max())
+    np.testing.assert_allclose(general[3], 0.0, atol=1e-12 * np.abs(general[1]).max() * 0.01)
+    assert np.all(fast.Tk_Nm_per_A == 0.0)
+
+
+def test_basis_linearity_and_current_tables():
+    fixed = Magnet("ring", "ring", (0.01, 0.03, 0.005), (0.0, 0.0, -1.0), (0.0, 0.0, 0.045))
+    coils = [bench_coil(), Coil("c2", 0.025, 0.03, 0.01, 500, (0.0, 0.0, 0.02), (0, 0, 1), 0.3, 1.0)]
+    d = make_design([disc()], coils=coils, magnets=[fixed])
+    P, Rv = general_poses(3)
+    wb = wrench_basis(d, P, Rv)
+    I = np.array([[0.2, -0.1], [0.5, 0.3]])
+    Ftab = wb.force(I)
+    assert Ftab.shape == (2, 3, 3)
+    w = wrench(d, P, Rv, I[1])
+    np.testing.assert_allclose(w.force_N, Ftab[1], rtol=1e-12, atol=1e-15)
+    np.testing.assert_allclose(w.torque_Nm, wb.torque(I[1]), rtol=1e-12, atol=1e-15)
+
+
+def test_torque_includes_m_cross_B_once():
+    """A small dipole-like disc in a uniform-ish field far on the axis of a big coil, tilted:
+    torque about its centre ~ m x B (the charge route must not double it)."""
+    coil = Coil("big", 0.2, 0.21, 0.05, 1000, (0.0, 0.0, 0.0), (0, 0, 1), 1.0, 1.0)
+    d = make_design([disc((0, 0, 1.0), (0.002, 0.002))], coils=[coil])
+    rot = np.array([0.3, 0.0, 0.0])
+    wb = wrench_basis(d, [[0.0, 0.0, 0.0]], rot[None], order="high")
+    # field at the centre of a thick coil, on its axis (Montgomery 1969 field-factor form)
+    a, b, hc = 0.2, 0.21, 0.05
+    j = 1000 / ((b - a) * hc)
+    B0 = mu_0 * j * hc / 2 * np.log((b + np.hypot(b, hc / 2)) / (a + np.hypot(a, hc / 2)))
+    m = 1.0 / mu_0 * np.pi * 0.001**2 * 0.002 * Rotation.from_rotvec(rot).apply([0, 0, 1])
+    T_ref = np.cross(m, [0, 0, B0])
+    np.testing.assert_allclose(wb.Tk_Nm_per_A[0, 0], T_ref, rtol=2e-4, atol=1e-12)  # field non-uniformity ~ (2 mm/0.2 m)^2
+
+
+def test_core_adds_bias_pull_and_flags_saturation():
+    core = Core("core", "cylinder", (0.012, 0.03), (0.0, 0.0, 0.025), (0.0, 0.0, 1.0), 1000.0, 1.5)
+    d = make_design([disc()], coils=[bench_coil()], cores=[core])
+    P = np.array([[0.0, 0.0, 0.010 - 0.01 - 0.00635 / 2]])
+    wb = wrench_basis(d, P, np.zeros((1, 3)))
+    assert wb.F0_N[0, 2] > 0.0  # the floater magnetizes the core above it and is pulled up
+    # linear in current while unclipped: wrench() equals the basis at a small current
+    w = wrench(d, P, np.zeros((1, 3)), [0.05])
+    assert not w.core_saturated[0]
+    np.testing.assert_allclose(w.force_N, wb.force([0.05]), rtol=1e-12)
+    # a huge current saturates the core: clipped force is below the linear extrapolation
+    w_big = wrench(d, P, np.zeros((1, 3)), [200.0])
+    assert w_big.core_saturated[0] and any("saturate" in s for s in w_big.warnings)
+    assert w_big.force_N[0, 2] < wb.force([200.0])[0, 2]
+
+
+def test_levels_are_ordered():
+    keys = list(LEVELS)
+    assert [LEVELS[k]["layers"] for k in keys] == sorted(LEVELS[k]["layers"] for k in keys)
+
+
+def test_contact_is_flagged_and_never_evaluated():
+    fixed = Magnet("base", "cylinder", (0.02, 0.01), (0.0, 0.0, 1.2), (0.0, 0.0, 0.0))
+    d = make_design([disc()], magnets=[fixed])
+    # second pose overlaps the base magnet (centre 1 mm above its top face, disc half-height 3.2 mm)
+    P = np.array([[0.0, 0.0, 0.005 + 0.004 + 0.00635 / 2], [0.0, 0.0, 0.006]])
+    wb = wrench_basis(d, P, np.zeros((2, 3)))
+    assert list(wb.contact) == [False, True]
+    assert wb.clearance_m[0] == pytest.approx(0.004, abs=1e-5) and wb.clearance_m[1] < 0
+    assert np.all(np.isfinite(wb.F0_N)) and np.all(wb.F0_N[1] == 0.0)
+    assert any("contact" in s for s in wb.warnings)
