@@ -1145,6 +1145,14 @@ def _ss_arrays(sys):
             np.asarray(sys.D, float))
 
 
+def _root(f, a, b, fa, fb):
+    """Root of f in [a, b] by brentq; linear interpolation if rounding hides the sign change."""
+    try:
+        return brentq(f, a, b, xtol=1e-14)
+    except ValueError:
+        return a + (b - a) * fa / (fa - fb) if fa != fb else 0.5 * (a + b)
+
+
 def loop_margins(plant: Plant, controller: ControllerDesign, *, sampled: bool | None = None,
                  loop_delay_s: float | None = None) -> Margins:
     """Gain interval, phase margin, Nyquist count and peak sensitivity of ``L = C P``.
@@ -1197,12 +1205,8 @@ def loop_margins(plant: Plant, controller: ControllerDesign, *, sampled: bool | 
     im = cont.val.imag
     xs = []
     for i in np.flatnonzero(np.sign(im[:-1]) * np.sign(im[1:]) < 0):
-        ta, tb = cont.tau[i], cont.tau[i + 1]
-        try:
-            tr = brentq(lambda t: cont.value_at(t).imag, ta, tb, xtol=1e-14)
-            xs.append(cont.value_at(tr).real)
-        except ValueError:
-            xs.append(0.5 * (cont.val[i].real + cont.val[i + 1].real))
+        tr = _root(lambda t: cont.value_at(t).imag, cont.tau[i], cont.tau[i + 1], im[i], im[i + 1])
+        xs.append(cont.value_at(tr).real)
     xs.extend(cont.val.real[im == 0])
     big = float(np.max(np.abs(cont.val))) if cont.val.size else 1.0
     xs = np.sort(np.array([x for x in xs if x < -1e-12 * big]))
@@ -1245,17 +1249,18 @@ def loop_margins(plant: Plant, controller: ControllerDesign, *, sampled: bool | 
     if dt is not None:
         pos &= np.abs(cont.pts) > 1 - 1e-12
     mag = np.log(np.abs(cont.val))
+    im = cont.val.imag
     wgc, pms = [], []
     wpc = []
     idx = np.flatnonzero(pos[:-1] & pos[1:] & (kidx[:-1] == kidx[1:]))
     for i in idx:
         if np.sign(mag[i]) * np.sign(mag[i + 1]) < 0:
-            tr = brentq(lambda t: math.log(abs(cont.value_at(t))), tau_ax[i], tau_ax[i + 1], xtol=1e-14)
+            tr = _root(lambda t: math.log(abs(cont.value_at(t))), tau_ax[i], tau_ax[i + 1], mag[i], mag[i + 1])
             pt = cont.points(np.array([tr]))[0]
             wgc.append(float(pt.imag if dt is None else np.angle(pt) / dt))
             pms.append(math.degrees(float(np.angle(-cont.value_at(tr)))))
         if np.sign(im[i]) * np.sign(im[i + 1]) < 0 and cont.val[i].real < 0:
-            tr = brentq(lambda t: cont.value_at(t).imag, tau_ax[i], tau_ax[i + 1], xtol=1e-14)
+            tr = _root(lambda t: cont.value_at(t).imag, tau_ax[i], tau_ax[i + 1], im[i], im[i + 1])
             pt = cont.points(np.array([tr]))[0]
             wpc.append(float(pt.imag if dt is None else np.angle(pt) / dt))
     order = np.argsort(wgc)
@@ -2157,36 +2162,29 @@ class HysteresisStudy:
 
 
 def _relay_run(params, table, mode, band, lead, on, off, s_set, t_end, s0):
-    """One on/off run; returns dict of measures. States: s, v, [I], energy_joule, energy_supply."""
+    """One on/off run. States: s, v, [I], Joule energy, supply energy; measures over the 2nd half."""
     p = params
     lo, hi = table.range_m
-    up = np.sign(p.force_per_ampere_N_per_A)  # "on" pushes along +s if k_i > 0
+    up = float(np.sign(p.force_per_ampere_N_per_A))  # "on" pushes along +s if k_i > 0
     R, L = p.resistance_ohm, p.inductance_H
+    volt = mode == "voltage"
 
     def rhs(t, x, state_on):
         s, v = x[0], x[1]
         fk = float(table._fk(s))
-        if mode == "current":
-            I = on if state_on else off
-            V = R * I + fk * v
-            dI = []
-        else:
+        if volt:
             I = x[2]
             V = on if state_on else off
             dI = [(V - R * I - fk * v) / L]
+        else:
+            I = on if state_on else off
+            V = R * I + fk * v
+            dI = []
         acc = (float(table._f0(s)) + I * fk) / p.mass_kg - p.gravity_m_per_s2
         return [v, acc] + dI + [R * I * I, V * I]
 
     def sigma(x):
         return up * ((x[0] - s_set) + lead * x[1])
-
-    nI = 1 if mode == "voltage" else 0
-    x = np.array([s0, 0.0] + ([p.hover_current_A] if nI else []) + [0.0, 0.0])
-    state_on = False
-    t = 0.0
-    ts, ss, Is, ons = [t], [x[0]], [x[2] if nI else off], [0]
-    switch_on_times = []
-    status = "limit cycle"
 
     def ev_lo(t, x, *a):
         return x[0] - lo
@@ -2195,81 +2193,81 @@ def _relay_run(params, table, mode, band, lead, on, off, s_set, t_end, s0):
     def ev_hi(t, x, *a):
         return x[0] - hi
     ev_hi.terminal, ev_hi.direction = True, 1
-    on_time = 0.0
-    half = 0.5 * t_end
-    e_half = None
-    guard = 0
-    while t < t_end:
-        guard += 1
-        if guard > 200_000:
-            raise SolverError("hysteresis_study: switching must stay below 200000 events per run; got more "
-                              "(band too narrow).")
 
-        if state_on:
-            def ev_sw(tt, xx, *a):
-                return sigma(xx) - band / 2
-            ev_sw.direction = 1
-        else:
-            def ev_sw(tt, xx, *a):
-                return sigma(xx) + band / 2
-            ev_sw.direction = -1
-        ev_sw.terminal = True
-        t_eval = np.arange(math.ceil(t / 2e-4) * 2e-4, t_end, 2e-4)
-        t_eval = t_eval[t_eval > t]
-        sol = solve_ivp(rhs, (t, t_end), x, args=(state_on,), method="RK45", rtol=1e-8,
-                        atol=1e-10, events=(ev_sw, ev_lo, ev_hi), t_eval=t_eval if t_eval.size else None)
-        ts.extend(sol.t.tolist())
-        ss.extend(sol.y[0].tolist())
-        Is.extend((sol.y[2] if nI else np.full(sol.t.size, on if state_on else off)).tolist())
-        ons.extend([int(state_on)] * sol.t.size)
+    def ev_on(t, x, *a):  # while on: switch off when sigma rises above +band/2
+        return sigma(x) - band / 2
+    ev_on.terminal, ev_on.direction = True, 1
+
+    def ev_off(t, x, *a):  # while off: switch on when sigma falls below -band/2
+        return sigma(x) + band / 2
+    ev_off.terminal, ev_off.direction = True, -1
+
+    x = np.array([s0, 0.0] + ([p.hover_current_A] if volt else []) + [0.0, 0.0])
+    iE = 3 if volt else 2
+    state_on = sigma(x) < -band / 2
+    t = 0.0
+    half = 0.5 * t_end
+    rec_t, rec_s, rec_I = [0.0], [s0], [x[2] if volt else (on if state_on else off)]
+    on_times = []
+    on_time_2nd = 0.0
+    e_half = None
+    status = "limit cycle"
+    for _ in range(200_000):
+        if t >= t_end - 1e-15:
+            break
+        target = half if t < half else t_end
+        grid = np.arange(math.floor(t / 2e-4) + 1, math.floor(target / 2e-4) + 1) * 2e-4
+        grid = grid[(grid > t) & (grid < target)]
+        sol = solve_ivp(rhs, (t, target), x, args=(state_on,), method="RK45", rtol=1e-8, atol=1e-11,
+                        events=(ev_on if state_on else ev_off, ev_lo, ev_hi),
+                        t_eval=np.concatenate([grid, [target]]))
         if sol.status < 0:
             raise SolverError(f"hysteresis_study: solve_ivp must succeed; got {sol.message!r}.")
-        t_new = float(sol.t_events[0][0]) if sol.t_events[0].size else (
-            float(sol.t_events[1][0]) if sol.t_events[1].size else (
-                float(sol.t_events[2][0]) if sol.t_events[2].size else float(sol.t[-1])))
-        if state_on:
-            on_time += max(0.0, t_new - max(t, half))
-        if e_half is None and t_new >= half:
-            # energies at half time from the dense path: interpolate linearly on the record
-            e_half = "pending"
-        if sol.status == 1 and (sol.t_events[1].size or sol.t_events[2].size):
-            high = bool(sol.t_events[2].size)
-            status = _event_kind(p, high)
-            xe = sol.y_events[2 if high else 1][0]
-            x = xe
-            t = t_new
+        hit = [e.size > 0 for e in sol.t_events]
+        if sol.status == 1:
+            j = hit.index(True)
+            t_new, x_new = float(sol.t_events[j][0]), np.array(sol.y_events[j][0], float)
+        else:
+            j, t_new, x_new = -1, float(target), np.asarray(sol.y, float).reshape(x.size, -1)[:, -1].copy()
+        st = np.asarray(sol.t, dtype=float)
+        sy = np.asarray(sol.y, dtype=float).reshape(x.size, -1)
+        keep = st < t_new
+        rec_t += st[keep].tolist() + [t_new]
+        rec_s += sy[0][keep].tolist() + [x_new[0]]
+        rec_I += (sy[2][keep].tolist() + [x_new[2]]) if volt else [on if state_on else off] * int(keep.sum() + 1)
+        if state_on and t_new > half:
+            on_time_2nd += t_new - max(t, half)
+        t, x = t_new, x_new
+        if e_half is None and t >= half - 1e-15 and j != 0:
+            e_half = x[iE:iE + 2].copy()
+        if j in (1, 2):
+            status = _event_kind(p, j == 2)
             break
-        x = sol.y_events[0][0] if sol.t_events[0].size else sol.y[:, -1]
-        x = np.array(x, dtype=float)
-        t = t_new
-        if sol.t_events[0].size:
+        if j == 0:
             state_on = not state_on
             if state_on:
-                switch_on_times.append(t)
-    ts, ss, Is = np.array(ts), np.array(ss), np.array(Is)
-    t_stop = t
-    sel = ts >= half
-    out = {"status": status, "end": t_stop}
-    if status != "limit cycle" or sel.sum() < 4:
-        out.update(amp=math.nan, freq=math.nan, mean_s=math.nan, pj=math.nan, ps=math.nan, duty=math.nan,
-                   peak=float(np.max(np.abs(Is))))
+                on_times.append(t)
+    else:
+        raise SolverError("hysteresis_study: switching must stay below 200000 events per run; got more "
+                          "(band too narrow).")
+    rec_t, rec_s, rec_I = np.array(rec_t), np.array(rec_s), np.array(rec_I)
+    out = {"status": status, "end": t, "peak": float(np.max(np.abs(rec_I)))}
+    sel = rec_t >= half
+    if status != "limit cycle" or e_half is None:
+        out.update(amp=math.nan, freq=math.nan, mean_s=math.nan, pj=math.nan, ps=math.nan, duty=math.nan)
         return out
-    s2 = ss[sel]
-    q = ts >= 0.75 * t_end
-    r = (ts >= half) & (ts < 0.75 * t_end)
-    amp3 = 0.5 * (ss[r].max() - ss[r].min())
-    amp4 = 0.5 * (ss[q].max() - ss[q].min())
-    if amp4 > 1.5 * amp3 and amp4 > 1e-9:
+    s2 = rec_s[sel]
+    r3 = (rec_t >= half) & (rec_t < 0.75 * t_end)
+    r4 = rec_t >= 0.75 * t_end
+    a3 = 0.5 * (rec_s[r3].max() - rec_s[r3].min())
+    a4 = 0.5 * (rec_s[r4].max() - rec_s[r4].min())
+    if a4 > 1.5 * a3 and a4 > 1e-9:
         out["status"] = "growing"
-    # energies: integrate on the recorded grid (piecewise constant current in current mode is exact
-    # at switching resolution; the record spacing is 0.2 ms plus the switch points)
-    tt = ts[sel]
-    Ii = Is[sel]
-    dur = tt[-1] - tt[0]
-    pj = float(np.trapezoid(R * Ii**2, tt) / dur) if dur > 0 else math.nan
-    n_on = sum(1 for ti in switch_on_times if ti >= half)
-    out.update(amp=float(0.5 * (s2.max() - s2.min())), freq=n_on / (t_end - half), mean_s=float(s2.mean()),
-               pj=pj, ps=math.nan, duty=on_time / (t_end - half), peak=float(np.max(np.abs(Is))))
+    dur = t_end - half
+    e_end = x[iE:iE + 2]
+    out.update(amp=float(0.5 * (s2.max() - s2.min())), freq=sum(ti >= half for ti in on_times) / dur,
+               mean_s=float(np.trapezoid(s2, rec_t[sel]) / dur), pj=float((e_end[0] - e_half[0]) / dur),
+               ps=float((e_end[1] - e_half[1]) / dur), duty=on_time_2nd / dur)
     return out
 
 

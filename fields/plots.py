@@ -48,13 +48,12 @@ def design_picture(design, gap_m: float | None = None):
                                color="#2e9e5b", alpha=0.35, label=f"beam: {s.name}")
                 else:
                     ax.plot(s.position_m[0] * 1e3, s.position_m[2] * 1e3, "k^", ms=7, label=f"Hall: {s.name}")
-            up = design.up
             com = design.study.floater_origin_m(gap)[0] + np.asarray(design.floater.centre_of_mass_m)
-            ax.plot(com[0] * 1e3, com[2] * 1e3, "x", color="black", ms=8, label="floater centre of mass")
+            ax.plot(com[0] * 1e3, com[2] * 1e3, "x", color="black", ms=8, label="floater centre of mass (payload included)")
+            allpts.append(np.array([[com[0] * 1e3, com[2] * 1e3]]))
             ax.annotate("", xy=(0.06, 0.12), xytext=(0.06, 0.26), xycoords="axes fraction",
                         arrowprops=dict(arrowstyle="->", color="#444444"))
             ax.text(0.075, 0.17, "g", transform=ax.transAxes, color="#444444")
-            _ = up
         else:
             for s in design.sensors:
                 if s.kind == "hall":
@@ -70,7 +69,7 @@ def design_picture(design, gap_m: float | None = None):
         ax.set_ylabel("z (mm)" if plane == "xz" else "y (mm)")
         ax.set_title(title)
         ax.grid(True, alpha=0.25)
-    ax1.legend(loc="upper right", fontsize=7, framealpha=0.9)
+    ax1.legend(loc="upper center", bbox_to_anchor=(0.5, -0.11), ncol=3, fontsize=7, frameon=False)
     fig.suptitle(f"{design.name}: floater at gap {gap * 1e3:.3g} mm (to scale)"
                  + ("  [invented example]" if design.invented else ""), fontsize=11)
     fig.tight_layout()

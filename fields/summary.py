@@ -5,8 +5,6 @@ Returns lines of text and a JSON-ready dict; printing is the CLI's business.
 
 from __future__ import annotations
 
-import numpy as np
-
 from . import tables
 from .model import Design, Magnet
 
@@ -42,7 +40,7 @@ def _grade_text(m: Magnet) -> str:
 
 def design_summary(design: Design) -> tuple[list[str], dict]:
     """Human-readable lines and a JSON-ready dict describing ``design``."""
-    from .coil import winding_data  # electrical numbers of each winding
+    from .coil import coil_datasheet  # electrical numbers of each winding
 
     lines: list[str] = []
     out: dict = {"name": design.name, "description": design.description, "source": design.source,
@@ -52,19 +50,21 @@ def design_summary(design: Design) -> tuple[list[str], dict]:
         lines.append(f"  {design.description}")
     lines.append(f"coils: {len(design.coils)}")
     out["coils"] = []
-    for c in design.coils:
-        w = winding_data(c)
+    for ci, c in enumerate(design.coils):
+        w = coil_datasheet(design, ci)
         wire = ""
         if c.wire_diameter_m is not None:
             wire = f", wire {c.wire_gauge + ' ' if c.wire_gauge else ''}{c.wire_diameter_m * 1e3:.3f} mm, fill {c.fill_factor:.2f}"
-        r = f", R(20 C) {w.resistance_20C_ohm:.3g} ohm, wire {w.wire_length_m:.3g} m, copper {w.copper_mass_kg * 1e3:.3g} g" if w.resistance_20C_ohm is not None else ""
+        r = (f", R(20 C) {w.resistance_20C_ohm:.3g} ohm, L {w.inductance_H * 1e3:.3g} mH, wire {w.wire_length_m:.3g} m, "
+             f"copper {w.copper_mass_kg * 1e3:.3g} g")
         lines.append(f"  {c.name}: r {_mm(c.inner_radius_m)}..{_mm(c.outer_radius_m)}, h {_mm(c.height_m)}, "
                      f"{c.turns:.0f} turns{wire}{r}; at {_vec_mm(c.position_m)}, axis {tuple(round(a, 3) for a in c.axis)}; "
                      f"I nominal {c.nominal_current_A:g} A, max {c.max_current_A:g} A")
         out["coils"].append({"name": c.name, "inner_radius_m": c.inner_radius_m, "outer_radius_m": c.outer_radius_m,
                              "height_m": c.height_m, "turns": c.turns, "wire_diameter_m": c.wire_diameter_m,
                              "fill_factor": c.fill_factor, "resistance_20C_ohm": w.resistance_20C_ohm,
-                             "wire_length_m": w.wire_length_m, "nominal_current_A": c.nominal_current_A,
+                             "wire_length_m": w.wire_length_m, "inductance_H": w.inductance_H,
+                             "copper_mass_kg": w.copper_mass_kg, "nominal_current_A": c.nominal_current_A,
                              "max_current_A": c.max_current_A})
     if design.cores:
         lines.append(f"iron cores: {len(design.cores)} (iron-free approximation: uniformly magnetized equivalent body)")
@@ -111,5 +111,4 @@ def design_summary(design: Design) -> tuple[list[str], dict]:
                     "gravity_m_per_s2": st.gravity_m_per_s2, "free_axes": st.free_axes}
     p = st.floater_origin_m(st.operating_gap_m)[0]
     lines.append(f"  floater origin at the operating gap: {_vec_mm(p)}")
-    _ = np
     return lines, out
