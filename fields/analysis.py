@@ -769,3 +769,47 @@ def allocation_matrix(design: Design, position_m, rotvec_rad, axes=None) -> Allo
     cond = float(sv[0] / sv[-1]) if sv.size and sv[-1] > 1e-12 * sv[0] else float("inf")
     return Allocation(G=G, condition_number=cond, rank=rank, axes=tuple(AXES[r] for r in rows), length_scale_m=L, position_m=np.asarray(position_m, float),
                       rotvec_rad=np.asarray(rotvec_rad, float))
+
+
+# ---------------------------------------------------------------------------------------------
+# the axis a controller must hold
+
+
+@dataclass(frozen=True)
+class ControlAxis:
+    """The least stable translational axis at an equilibrium and how the coils act on it.
+
+    The coils are driven with currents ``I0 + i * pattern`` (i the control current, A);
+    ``force_per_ampere_N_per_A`` is the force along ``direction`` per ampere of i, and
+    ``stiffness_N_per_m`` is -dF/ds along it (negative: unstable).
+    """
+
+    name: str
+    index: int
+    direction: np.ndarray
+    stiffness_N_per_m: float
+    force_per_ampere_N_per_A: float
+    pattern: np.ndarray
+    bias_currents_A: np.ndarray
+
+
+def control_axis(design: Design, stiff: Stiffness) -> ControlAxis:
+    """Pick the translational axis with the most negative stiffness (ties: vertical first) and
+    the coil pattern that pushes along it: the sign of each coil's force per ampere on that
+    axis, coils with less than 1e-6 of the largest share left out."""
+    diag = np.diag(stiff.K)[:3]
+    order = [2, 0, 1]
+    j = min(order, key=lambda a: (diag[a], order.index(a)))
+    direction = np.eye(3)[j]
+    if j == 2:
+        direction = design.up * np.sign(design.up[2]) if design.up[2] != 0 else direction
+    if not design.coils:
+        return ControlAxis(("sideways x", "sideways y", "vertical")[j], j, direction, float(diag[j]), 0.0,
+                           np.zeros(0), np.zeros(0))
+    b = _basis(design, np.atleast_2d(stiff.position_m), np.atleast_2d(stiff.rotvec_rad))
+    g = b.Fk_N_per_A[0] @ direction  # (k,)
+    big = np.abs(g) >= 1e-6 * np.abs(g).max() if np.abs(g).max() > 0 else np.zeros_like(g, bool)
+    pattern = np.where(big, np.sign(g), 0.0)
+    ki = float(g @ pattern)
+    name = {0: "sideways x", 1: "sideways y", 2: "vertical"}[j]
+    return ControlAxis(name, j, direction, float(stiff.K[j, j]), ki, pattern, np.asarray(stiff.currents_A, float))

@@ -721,9 +721,13 @@ def coil_datasheet(design: Design, coil_index: int, hover_currents_A=None, gaps_
     fin = np.isfinite(T)
     if np.any(fin):
         Tmax = float(np.max(T[fin]))
+        over = fin & (T > ins)
         if Tmax > ins:
-            warnings.append(f"coil {coil.name}: average winding temperature {Tmax:.0f} C exceeds the insulation "
-                            f"thermal class {ins:g} C (IEC 60085 / IEC 60317)")
+            go = gaps[over] * 1e3
+            where = (f"at {int(over.sum())} of {ng} gaps ({go.min():.3g}-{go.max():.3g} mm)" if ng > 1
+                     else "at this current")
+            warnings.append(f"coil {coil.name}: the winding would run above its insulation thermal class {ins:g} C "
+                            f"{where} if held there continuously (IEC 60085 / IEC 60317)")
         elif Tmax + HOT_SPOT_ALLOWANCE_K > ins:
             warnings.append(f"coil {coil.name}: average winding temperature {Tmax:.0f} C is within the "
                             f"{HOT_SPOT_ALLOWANCE_K:g} K hot-spot allowance of the thermal class {ins:g} C "

@@ -579,7 +579,7 @@ def analog_lead_network(zero_rad_per_s: float, pole_rad_per_s: float, dc_gain_V_
     if wp <= wz:
         raise GeometryError(w, "pole_rad_per_s", f"above zero_rad_per_s = {wz:g}", wp)
     k = _check_positive(w, "dc_gain_V_per_V", dc_gain_V_per_V)
-    caps = [m * d for d in _CAP_DECADES for m in e_series(capacitor_series)]
+    caps = [float(f"{m * d:.3g}") for d in _CAP_DECADES for m in e_series(capacitor_series)]
     best = None
     for c1 in caps:
         r1 = 1.0 / (wz * c1)
@@ -741,7 +741,7 @@ class ControllerDesign:
             "loop_delay_s": self.loop_delay_s,
             "current_loop_gain_V_per_A": self.current_loop_gain_V_per_A,
             "current_loop_bandwidth_rad_per_s": _json_float(self.current_loop_bandwidth_rad_per_s),
-            "analog": self.analog.to_dict(),
+            "analog": None if self.analog is None else self.analog.to_dict(),
         }
 
 
@@ -837,7 +837,7 @@ def design_controller(plant: Plant, crossover_multiple: float = 3.0, phase_margi
     if th_p > 0:
         th_p -= 2 * math.pi
     th_zoh = -wc * T / 2 if T is not None else 0.0
-    th_d = -wc * tau
+    th_d = -wc * tau if tau > 0 else 0.0
     wi = _check_positive(w, "integral_zero_fraction", integral_zero_fraction) * wc if kind == "pid" else 0.0
     th_i = -math.atan(wi / wc)
     phi = math.radians(pm) - math.pi - th_p - th_zoh - th_d - th_i
@@ -878,8 +878,12 @@ def design_controller(plant: Plant, crossover_multiple: float = 3.0, phase_margi
     else:
         Cd, dnum, dden = None, None, None
         disc = "analog (no discretisation)"
-    net = analog_lead_network(wz, wp, K / driver_transconductance_A_per_V, wi,
-                              driver_transconductance_A_per_V=driver_transconductance_A_per_V)
+    try:
+        net = analog_lead_network(wz, wp, K / driver_transconductance_A_per_V, wi,
+                                  driver_transconductance_A_per_V=driver_transconductance_A_per_V)
+    except (GeometryError, SolverError):
+        # no practical op-amp network for these numbers (e.g. a sensor signal not in volts)
+        net = None
     budget = {"plant": math.degrees(th_p), "zero_order_hold": math.degrees(th_zoh),
               "delay": math.degrees(th_d), "integral": math.degrees(th_i),
               "lead": math.degrees(phi)}
@@ -1208,6 +1212,14 @@ def loop_margins(plant: Plant, controller: ControllerDesign, *, sampled: bool | 
         tr = _root(lambda t: cont.value_at(t).imag, cont.tau[i], cont.tau[i + 1], im[i], im[i + 1])
         xs.append(cont.value_at(tr).real)
     xs.extend(cont.val.real[im == 0])
+    # the contour meets the real axis of L at the symmetric points (s = 0 and s = inf; z = +-1),
+    # where L is real; add them explicitly (one of them is the contour's start/end)
+    special = [0.0] if dt is None else [1.0, -1.0]
+    for sp in special:
+        if not np.any(np.abs(poles - sp) < 1e-9):
+            xs.append(float(evalf(np.array([sp])).real[0]))
+    if dt is None:
+        xs.append(float(D[0, 0]) if D.size else 0.0)
     big = float(np.max(np.abs(cont.val))) if cont.val.size else 1.0
     xs = np.sort(np.array([x for x in xs if x < -1e-12 * big]))
     neg = []
@@ -2120,7 +2132,8 @@ class HysteresisStudy:
     mean_joule_power_W : ndarray, shape (b,)
         ``R <I^2>`` over the second half (exact: integrated as a state).
     mean_supply_power_W : ndarray, shape (b,)
-        ``<V I>`` (voltage mode; equals ``R <I^2>`` plus stored-energy change for current mode).
+        ``<V I>``; for current mode ``V = R I + Fk v`` (the ``L dI/dt`` spikes of the switched
+        current are left out).
     duty : ndarray, shape (b,)
         Fraction of the second half with the coil on.
     peak_current_A : ndarray, shape (b,)

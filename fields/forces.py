@@ -30,7 +30,8 @@ from scipy.spatial.transform import Rotation
 
 from fields.errors import GeometryError
 from fields.model import Design, Floater, Magnet, rotation_matrix
-from fields.sources import CHUNK, _clip, core_models, fixed_field_basis, gauss_legendre
+from fields.sources import (CEL_CHUNK, CHUNK, _clip, axial_disc_flux_Wb, axial_sheets, core_models, fixed_field_basis,
+                            gauss_legendre)
 
 #: rule levels: coil layers, radial nodes, angular nodes, axial/edge nodes, triangle subdivisions
 LEVELS: dict[str, dict[str, int]] = {
@@ -44,6 +45,9 @@ _ORDER = list(LEVELS)
 
 #: poses whose clearance is at or below this are reported as contact (m)
 CONTACT_CLEARANCE_M = 0.0
+#: the exact clearance is computed where the bounding-box distance is below this (m); beyond it
+#: the box distance (a lower bound) already proves the floater is clear
+CLEARANCE_EXACT_WITHIN_M = 1e-3
 
 
 # --------------------------------------------------------------------------- surface rules
@@ -299,14 +303,14 @@ def _axis_xy(design: Design):
     for m in design.magnets:
         R = rotation_matrix(m.rotvec_rad)
         J = R @ np.asarray(m.polarization_T, dtype=float)
-        if m.shape not in ("cylinder", "ring") or abs(abs(R[2, 2]) - 1) > 1e-12 or np.hypot(J[0], J[1]) != 0.0:
+        if m.shape not in ("cylinder", "ring") or abs(abs(R[2, 2]) - 1) > 1e-12 or np.hypot(J[0], J[1]) > 1e-12 * abs(J[2]):
             return None
         xy.append(m.position_m[:2])
     fl = design.floater
     for m in fl.magnets:
         R = rotation_matrix(m.rotvec_rad)
         J = R @ np.asarray(m.polarization_T, dtype=float)
-        if m.shape not in ("cylinder", "ring") or abs(abs(R[2, 2]) - 1) > 1e-12 or np.hypot(J[0], J[1]) != 0.0:
+        if m.shape not in ("cylinder", "ring") or abs(abs(R[2, 2]) - 1) > 1e-12 or np.hypot(J[0], J[1]) > 1e-12 * abs(J[2]):
             return None
         if np.hypot(*m.position_m[:2]) != 0.0:
             return None
@@ -327,12 +331,69 @@ def _on_axis_mask(design: Design, P: np.ndarray, Rv: np.ndarray) -> np.ndarray:
     return (P[:, 0] == xy[0]) & (P[:, 1] == xy[1]) & np.all(Rv == 0.0, axis=1)
 
 
+def _own_box_corners(solid) -> np.ndarray:
+    """The 8 corners (8, 3) of a solid's own-frame bounding box."""
+    s = solid.size_m
+    if solid.shape == "mesh":
+        lo, hi = solid.vertices_m.min(axis=0), solid.vertices_m.max(axis=0)
+    else:
+        if solid.shape == "cylinder":
+            half = np.array([s[0], s[0], s[1] / 2])
+        elif solid.shape == "ring":
+            half = np.array([s[1], s[1], s[2] / 2])
+        elif solid.shape == "cuboid":
+            half = np.asarray(s, float) / 2
+        else:
+            half = np.array([s[0], s[0], s[0]])
+        lo, hi = -half, half
+    return np.array([[x, y, z] for x in (lo[0], hi[0]) for y in (lo[1], hi[1]) for z in (lo[2], hi[2])])
+
+
+def _box_lower_bound(design: Design, P: np.ndarray, Rv: np.ndarray) -> np.ndarray:
+    """A lower bound (n,) of the floater's clearance: the distance between world-axis-aligned
+    bounding boxes of the posed floater solids and of each fixed solid (exact for coaxial flat
+    faces seen along the axis; never above the true clearance)."""
+    from fields.bodies import design_solids
+
+    solids = design_solids(design)
+    fl = [s for s in solids if s.on_floater]
+    fx = [s for s in solids if not s.on_floater]
+    if not fx:
+        return np.full(P.shape[0], np.inf)
+    fixed_lo = []
+    fixed_hi = []
+    for s in fx:
+        c = _own_box_corners(s) @ s.rotation.T + s.position_m
+        fixed_lo.append(c.min(axis=0))
+        fixed_hi.append(c.max(axis=0))
+    fixed_lo = np.array(fixed_lo)
+    fixed_hi = np.array(fixed_hi)
+    R = Rotation.from_rotvec(Rv).as_matrix()  # (n,3,3)
+    lo = np.full(P.shape, np.inf)
+    hi = np.full(P.shape, -np.inf)
+    for s in fl:
+        c = _own_box_corners(s) @ s.rotation.T + s.position_m  # floater frame (8,3)
+        w = np.einsum("nij,cj->nci", R, c) + P[:, None, :]
+        lo = np.minimum(lo, w.min(axis=1))
+        hi = np.maximum(hi, w.max(axis=1))
+    gap = np.maximum(fixed_lo[None] - hi[:, None], lo[:, None] - fixed_hi[None])  # (n, f, 3)
+    d = np.sqrt(np.sum(np.maximum(gap, 0.0) ** 2, axis=2))
+    return d.min(axis=1)
+
+
 def _clearance(design: Design, P: np.ndarray, Rv: np.ndarray):
+    """Signed clearance (n,): exact (bodies.floater_clearance_m) where the bounding boxes of the
+    floater and a fixed body come closer than CLEARANCE_EXACT_WITHIN_M; elsewhere the box
+    distance, a lower bound that already proves there is no contact."""
     try:
         from fields.bodies import floater_clearance_m
     except ImportError:
         return np.full(P.shape[0], np.nan), ("contact not checked: fields.bodies is not available",)
-    c = np.asarray(floater_clearance_m(design, P, Rv), dtype=float).reshape(-1)
+    c = _box_lower_bound(design, P, Rv)
+    near = c <= CLEARANCE_EXACT_WITHIN_M
+    if np.any(near):
+        c = c.copy()
+        c[near] = np.asarray(floater_clearance_m(design, P[near], Rv[near]), dtype=float).reshape(-1)
     return c, ()
 
 
@@ -382,7 +443,84 @@ def _raw(design: Design, P, Rv, level: str, axisym: bool, currents_A=None):
     return F0, Fk, T0, Tk, Fc, Tc, sat, sat_box
 
 
-def _evaluate(design: Design, positions_m, rotvecs_rad, order: str, currents_A=None):
+def floater_cap_discs(floater: Floater) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Charged cap discs of an axisymmetric floater (axially polarized cylinders and rings on its z axis).
+
+    Returns
+    -------
+    radius_m : ndarray, shape (d,)
+        Disc radii (a ring's annulus is its outer disc minus its inner disc).
+    z_m : ndarray, shape (d,)
+        Disc planes, floater frame z (m).
+    charge_A_per_m : ndarray, shape (d,)
+        ``sigma = J . n / mu0`` (A/m) times the disc's sign (+1 outer, -1 inner), so that the
+        axial force is ``sum charge * Phi`` with ``Phi`` the fixed sources' flux through the disc
+        (normal +z).
+    """
+    from scipy.constants import mu_0
+
+    rad, zs, q = [], [], []
+    for m in floater.magnets:
+        R = rotation_matrix(m.rotvec_rad)
+        Jz = float((R @ np.asarray(m.polarization_T, dtype=float))[2])
+        d = m.dimensions_m
+        if m.shape not in ("cylinder", "ring") or abs(abs(R[2, 2]) - 1.0) > 1e-12:
+            raise GeometryError(f"floater magnet {m.name}", "shape", "a cylinder or ring with its axis along z", m.shape)
+        discs = ((d[0] / 2, 1.0),) if m.shape == "cylinder" else ((d[1] / 2, 1.0), (d[0] / 2, -1.0))
+        for sgn_n in (1.0, -1.0):  # top cap: normal +z; bottom cap: normal -z
+            for r, sgn_d in discs:
+                if r > 0.0 and Jz != 0.0:
+                    rad.append(r)
+                    zs.append(float(m.position_m[2]) + sgn_n * d[-1] / 2)
+                    q.append(sgn_n * sgn_d * Jz / mu_0)
+    return np.array(rad, dtype=float), np.array(zs, dtype=float), np.array(q, dtype=float)
+
+
+def _raw_axis(design: Design, P, levels: tuple[str, ...], currents_A=None):
+    """:func:`_raw` for on-axis, untilted poses of a core-free axisymmetric design, per level.
+
+    ``F_z = sum over charged cap discs of sigma * Phi`` with ``Phi`` the closed-form flux of the
+    sources' solenoid sheets through the disc (:func:`fields.sources.sheet_disc_flux_Wb`). The
+    cap integral is exact; only the coil layers depend on the level. One kernel call serves
+    all levels (the magnets' sheets are shared). Transverse force and torque are zero.
+    """
+    n = P.shape[0]
+    k = len(design.coils)
+    rad, zf, q = floater_cap_discs(design.floater)
+    parts = [axial_sheets(design, LEVELS[lv]["layers"], magnets=False) for lv in levels]
+    mags = axial_sheets(design, coils=False)
+    allsheets = parts + [mags]
+    cat = [np.concatenate([getattr(sh, f) for sh in allsheets]) for f in
+           ("radius_m", "half_height_m", "centre_z_m", "J_T", "coil_index")]
+    from fields.sources import AxialSheets
+
+    sheets = AxialSheets(*cat)
+    bounds = np.cumsum([0] + [sh.radius_m.size for sh in allsheets])
+    Fs = np.zeros((n, bounds[-1]))
+    per = max(1, CEL_CHUNK // max(1, 2 * rad.size * bounds[-1]))  # cache-sized blocks of poses
+    for a in range(0, n, per):
+        sl = slice(a, a + per)
+        Phi = axial_disc_flux_Wb(sheets, rad, P[sl, 2:3] + zf[None, :])  # (n, d, s)
+        Fs[sl] = np.einsum("d,nds->ns", q, Phi)
+    F0m = Fs[:, bounds[-2]:].sum(axis=1)
+    out = []
+    for i in range(len(levels)):
+        F0 = np.zeros((n, 3))
+        Fk = np.zeros((n, k, 3))
+        F0[:, 2] = F0m
+        idx = sheets.coil_index[bounds[i]:bounds[i + 1]]
+        Fl = Fs[:, bounds[i]:bounds[i + 1]]
+        for j in range(k):
+            Fk[:, j, 2] = Fl[:, idx == j].sum(axis=1)
+        Fc = np.zeros((n, 3))
+        if currents_A is not None:
+            Fc = F0 + np.einsum("k,nki->ni", np.asarray(currents_A, dtype=float), Fk)
+        z3 = np.zeros((n, 3))
+        out.append((F0, Fk, z3, np.zeros((n, k, 3)), Fc, z3.copy(), np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)))
+    return out
+
+
+def _evaluate(design: Design, positions_m, rotvecs_rad, order: str, currents_A=None, estimate_error: bool = True):
     if order not in LEVELS or order == "coarse":
         raise GeometryError("wrench", "order", f"one of {', '.join(_ORDER[1:])}", order)
     P, Rv = _poses(positions_m, rotvecs_rad)
@@ -404,8 +542,12 @@ def _evaluate(design: Design, positions_m, rotvecs_rad, order: str, currents_A=N
     for mask, axisym in ((axial, True), (general, False)):
         if not np.any(mask):
             continue
-        res = _raw(design, P[mask], Rv[mask], order, axisym, currents_A)
-        res_lo = _raw(design, P[mask], Rv[mask], lower, axisym, currents_A)
+        if axisym and not design.cores:  # closed-form cap flux (exact cap integral)
+            both = _raw_axis(design, P[mask], (order, lower) if estimate_error else (order,), currents_A)
+            res, res_lo = both[0], both[-1]
+        else:
+            res = _raw(design, P[mask], Rv[mask], order, axisym, currents_A)
+            res_lo = _raw(design, P[mask], Rv[mask], lower, axisym, currents_A) if estimate_error else res
         if axisym:  # exact symmetry: transverse force and all torque vanish
             for r in (res, res_lo):
                 r[0][:, :2] = 0.0
@@ -425,12 +567,15 @@ def _evaluate(design: Design, positions_m, rotvecs_rad, order: str, currents_A=N
         dF = (out[0] - low[0]) + np.einsum("k,nki->ni", Inom, out[1] - low[1])
         dT = (out[2] - low[2]) + np.einsum("k,nki->ni", Inom, out[3] - low[3])
     warns = list(warns)
+    if not estimate_error:
+        dF = dT = np.full((n, 3), np.nan)
     if np.any(contact):
         warns.append(f"{int(contact.sum())} of {n} poses are in contact: force and torque not evaluated there")
     return P, out, np.linalg.norm(dF, axis=1), np.linalg.norm(dT, axis=1), contact, clearance, warns
 
 
-def wrench_basis(design: Design, positions_m, rotvecs_rad, order: str = "standard") -> WrenchBasis:
+def wrench_basis(design: Design, positions_m, rotvecs_rad, order: str = "standard",
+                 estimate_error: bool = True) -> WrenchBasis:
     """Force and torque bases of the floater at n poses.
 
     Parameters
@@ -442,6 +587,10 @@ def wrench_basis(design: Design, positions_m, rotvecs_rad, order: str = "standar
         Floater orientations (rotation vectors, rad).
     order : str
         Rule level: ``"fast"``, ``"standard"``, ``"high"`` or ``"reference"`` (:data:`LEVELS`).
+    estimate_error : bool
+        Evaluate the next coarser level too and report the difference as the error estimate
+        (default). False halves the cost and reports NaN estimates (for inner loops whose
+        accuracy was established once, e.g. finite-difference stencils).
 
     Returns
     -------
@@ -455,7 +604,8 @@ def wrench_basis(design: Design, positions_m, rotvecs_rad, order: str = "standar
     parallel to z, axial polarizations, floater untilted) use the 1-D radial cap rule; the
     transverse force and the torque are then zero by symmetry.
     """
-    P, out, eF, eT, contact, clearance, warns = _evaluate(design, positions_m, rotvecs_rad, order)
+    P, out, eF, eT, contact, clearance, warns = _evaluate(design, positions_m, rotvecs_rad, order,
+                                                          estimate_error=estimate_error)
     sat = out[7]
     if np.any(sat):
         warns.append(f"{int(sat.sum())} poses can saturate a core within the rated currents: "

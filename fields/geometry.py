@@ -424,20 +424,24 @@ def _floater(t: _Table, base_dir: Path) -> Floater:
 
 
 def _sensor(t: _Table, i: int):
-    t.done(("type", "name", "height", "beam_height", "beam_width", "direction", "position", "axis", "range"))
+    t.done(("type", "name", "height", "beam_height", "beam_width", "direction", "position", "axis", "range",
+            "output_span", "sensitivity"))
     kind = t.string("type", choices=("beam", "hall"))
     name = t.string("name", f"sensor {i + 1}")
     if kind == "beam":
         s = BeamGate(name=name, height_m=t.quantity("height", "length"),
                      beam_height_m=t.quantity("beam_height", "length", positive=True),
                      beam_width_m=t.quantity("beam_width", "length", positive=True),
-                     direction=t.direction("direction", (1.0, 0.0, 0.0)))
+                     direction=t.direction("direction", (1.0, 0.0, 0.0)),
+                     output_span_V=t.quantity("output_span", "voltage", None, positive=True))
         if abs(s.direction[2]) > 1e-9:
             raise t.fail("direction", "horizontal (its z component zero), e.g. [1, 0, 0]", t.data["direction"])
     else:
         s = HallSensor(name=name, position_m=t.vector("position", "length"), axis=t.direction("axis", (0.0, 0.0, 1.0)),
-                       range_T=t.quantity("range", "flux_density", positive=True))
-    t.done(("type", "name", "height", "beam_height", "beam_width", "direction", "position", "axis", "range"))
+                       range_T=t.quantity("range", "flux_density", positive=True),
+                       sensitivity_V_per_T=t.quantity("sensitivity", "volt_per_tesla", None, positive=True))
+    t.done(("type", "name", "height", "beam_height", "beam_width", "direction", "position", "axis", "range",
+            "output_span", "sensitivity"))
     return s
 
 

@@ -212,7 +212,8 @@ class BeamGate:
     """An optical beam gate: a beam along ``direction`` whose centreline is at height ``height_m``.
 
     The beam has a rectangular cross-section ``beam_height_m`` (along the vertical) by
-    ``beam_width_m`` (across, horizontal). The floater blocks a fraction of it.
+    ``beam_width_m`` (across, horizontal). The floater blocks a fraction of it. With
+    ``output_span_V`` the receiver's signal is that voltage times the unblocked fraction.
     """
 
     name: str
@@ -220,17 +221,20 @@ class BeamGate:
     beam_height_m: float
     beam_width_m: float
     direction: Vec3 = (1.0, 0.0, 0.0)
+    output_span_V: float | None = None
     kind: str = "beam"
 
 
 @dataclass(frozen=True)
 class HallSensor:
-    """A Hall point sensor measuring B along ``axis`` at ``position_m`` with full scale ``range_T``."""
+    """A Hall point sensor measuring B along ``axis`` at ``position_m`` with full scale ``range_T``;
+    ``sensitivity_V_per_T`` (optional) turns the field into the sensor's output voltage."""
 
     name: str
     position_m: Vec3
     axis: Vec3
     range_T: float
+    sensitivity_V_per_T: float | None = None
     kind: str = "hall"
 
 

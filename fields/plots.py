@@ -179,3 +179,157 @@ def stiffness_vs_gap(gs, title: str = ""):
     a1.set_title(title or "stiffness versus gap at the hover current")
     fig.tight_layout()
     return fig
+
+
+def sensor_curves(design, beams, halls, placement=None):
+    """Beam-gate blocked fraction and Hall readings versus gap; placement panel when given."""
+    n = 1 + (1 if halls else 0) + (1 if placement is not None else 0)
+    fig, axes = plt.subplots(n, 1, figsize=(8, 3.2 * n + 0.6))
+    axes = np.atleast_1d(axes)
+    ax = axes[0]
+    gop = design.study.operating_gap_m * 1e3
+    for b in beams:
+        ax.plot(b.gaps_m * 1e3, b.blocked_fraction, lw=1.6, label=f"{b.name}: blocked fraction")
+        lo, hi = b.linear_range_m
+        ax.axvspan(lo * 1e3, hi * 1e3, color="#2e9e5b", alpha=0.15, label=f"{b.name}: linear range")
+        ax.text(0.01, 0.04, f"gain {b.gain_per_mm:.3g} per mm at the operating gap", transform=ax.transAxes, fontsize=8)
+    ax.axvline(gop, color="k", ls=":", lw=1, label="operating gap")
+    ax.set_ylabel("beam blocked (fraction)")
+    ax.set_xlabel("gap (mm)")
+    ax.grid(True, alpha=0.3)
+    ax.legend(fontsize=7.5)
+    if not beams:
+        ax.text(0.5, 0.5, "no optical beam gate in this design", ha="center", transform=ax.transAxes)
+    i = 1
+    if halls:
+        ax = axes[i]
+        i += 1
+        for h in halls:
+            ax.plot(h.gaps_m * 1e3, h.reading_zero_current_T * 1e3, lw=1.6, label=f"{h.name}: reading at 0 A")
+            for k, c in enumerate(design.coils):
+                ax.plot(h.gaps_m * 1e3, h.coil_T_per_A[:, k] * c.max_current_A * 1e3, ls="--", lw=1,
+                        label=f"{h.name}: {c.name} at max current (cross-talk)")
+            ax.axhline(h.range_T * 1e3, color="#b22222", ls=":", lw=1)
+            ax.axhline(-h.range_T * 1e3, color="#b22222", ls=":", lw=1, label=f"{h.name}: sensor range")
+        ax.axvline(gop, color="k", ls=":", lw=1)
+        ax.set_ylabel("field along sensing axis (mT)")
+        ax.set_xlabel("gap (mm)")
+        ax.grid(True, alpha=0.3)
+        ax.legend(fontsize=7)
+    if placement is not None:
+        ax = axes[i]
+        d = np.asarray(placement.positions_m) @ design.up * 1e3
+        ax.plot(d, placement.linear_half_width_m * 1e3, "o-", label="linear half-width (mm)")
+        ax2 = ax.twinx()
+        ax2.semilogy(d, np.maximum(placement.worst_crosstalk_gap_m_per_A * 1e3, 1e-6), "s--", color="#b22222",
+                     label="cross-talk (mm of gap per A)")
+        ax.axvline(d[placement.best_index], color="#2e9e5b", lw=2, alpha=0.5, label="chosen position")
+        ax.set_xlabel("candidate sensor height (mm)")
+        ax.set_ylabel("linear half-width (mm)")
+        ax2.set_ylabel("cross-talk (mm per A)")
+        h1, l1 = ax.get_legend_handles_labels()
+        h2, l2 = ax2.get_legend_handles_labels()
+        ax.legend(h1 + h2, l1 + l2, fontsize=7)
+        ax.grid(True, alpha=0.3)
+        ax.set_title("Hall sensor placement along the study's candidate line", fontsize=9)
+    fig.suptitle(f"{design.name}: sensors", fontsize=11)
+    fig.tight_layout()
+    return fig
+
+
+def _loop_response(margins, n: int = 2000):
+    """Frequencies (rad/s) and complex loop gain L(j w) of a margins result's loop."""
+    loop = margins.loop
+    dt = loop.dt if loop.dt not in (None, 0, True) else None
+    wc = float(np.max(margins.gain_crossovers_rad_per_s)) if len(margins.gain_crossovers_rad_per_s) else 100.0
+    w_hi = (np.pi / dt) * 0.999 if dt else wc * 1e3
+    w = np.logspace(np.log10(wc / 1e3), np.log10(w_hi), n)
+    resp = loop(np.exp(1j * w * dt)) if dt else loop(1j * w)
+    return w, np.asarray(resp).reshape(-1)
+
+
+def bode(margins, title: str = ""):
+    """Bode plot of the loop gain with crossover and phase margin marked."""
+    w, L = _loop_response(margins)
+    fig, (a1, a2) = plt.subplots(2, 1, figsize=(8, 6), sharex=True)
+    f = w / (2 * np.pi)
+    a1.semilogx(f, 20 * np.log10(np.abs(L)), color="#1f4e9c")
+    a1.axhline(0, color="k", lw=0.8)
+    a1.set_ylabel("loop gain |L| (dB)")
+    a1.grid(True, which="both", alpha=0.3)
+    ph = np.degrees(np.unwrap(np.angle(L)))
+    a2.semilogx(f, ph, color="#8e24aa")
+    a2.axhline(-180, color="k", lw=0.8)
+    a2.set_ylabel("phase (deg)")
+    a2.set_xlabel("frequency (Hz)")
+    a2.grid(True, which="both", alpha=0.3)
+    for wc in margins.gain_crossovers_rad_per_s:
+        for a in (a1, a2):
+            a.axvline(wc / (2 * np.pi), color="#2e9e5b", ls="--", lw=1)
+    lo, hi = margins.gain_interval
+    a1.set_title(title + f"\nphase margin {margins.phase_margin_deg:.3g} deg; stable for loop gain x "
+                 f"{lo:.3g} .. {hi:.3g} (open loop unstable: gain interval)", fontsize=9)
+    fig.tight_layout()
+    return fig
+
+
+def nyquist(margins, title: str = ""):
+    """Nyquist plot of the loop gain (positive and negative frequencies) with the -1 point."""
+    w, L = _loop_response(margins, 4000)
+    fig, ax = plt.subplots(figsize=(6.4, 6))
+    ax.plot(L.real, L.imag, color="#1f4e9c", lw=1.4, label="L(jw), w > 0")
+    ax.plot(L.real, -L.imag, color="#1f4e9c", lw=1.0, ls="--", label="w < 0")
+    ax.plot([-1], [0], "r+", ms=14, mew=2, label="-1")
+    t = np.linspace(0, 2 * np.pi, 200)
+    ax.plot(np.cos(t), np.sin(t), color="#999999", lw=0.8)
+    r = 3.0
+    ax.set_xlim(-r, r)
+    ax.set_ylim(-r, r)
+    ax.set_aspect("equal")
+    ax.grid(True, alpha=0.3)
+    ax.legend(fontsize=8, loc="lower right")
+    ax.set_title(title + f"\nencirclements of -1 (counter-clockwise): {margins.encirclements_ccw}; "
+                 f"unstable open-loop poles: {margins.open_loop_unstable_poles}; Ms {margins.peak_sensitivity:.3g}",
+                 fontsize=9)
+    ax.set_xlabel("Re L")
+    ax.set_ylabel("Im L")
+    fig.tight_layout()
+    return fig
+
+
+def time_responses(sims: dict, title: str = ""):
+    """Position and current versus time for each named simulation."""
+    fig, (a1, a2) = plt.subplots(2, 1, figsize=(8, 6.2), sharex=True)
+    for name, r in sims.items():
+        lab = name.replace("_", " ")
+        if r.events:
+            lab += f" ({r.events[0].kind} at {r.events[0].time_s * 1e3:.3g} ms)"
+        a1.plot(r.time_s * 1e3, r.s_m * 1e3, lw=1.3, label=lab)
+        a2.plot(r.time_s * 1e3, r.current_A, lw=1.1, label=name.replace("_", " "))
+    a1.set_ylabel("position s from equilibrium (mm)")
+    a2.set_ylabel("coil current (A)")
+    a2.set_xlabel("time (ms)")
+    for a in (a1, a2):
+        a.grid(True, alpha=0.3)
+        a.legend(fontsize=7.5)
+    a1.set_title(title, fontsize=10)
+    fig.tight_layout()
+    return fig
+
+
+def capture_map(cap, s0, v0, title: str = ""):
+    """Start positions and velocities from which the loop brings the floater to rest."""
+    from matplotlib.colors import ListedColormap
+
+    fig, ax = plt.subplots(figsize=(7.5, 4.8))
+    ax.pcolormesh(np.asarray(s0) * 1e3, np.asarray(v0) * 1e3, np.asarray(cap.captured, float).T,
+                  cmap=ListedColormap(["#f3a6a0", "#9fd8a4"]), vmin=0, vmax=1, shading="nearest")
+    lo, hi = cap.band_m
+    ax.axvline(lo * 1e3, color="k", ls="--", lw=1)
+    ax.axvline(hi * 1e3, color="k", ls="--", lw=1)
+    ax.set_xlabel("start position s0 from equilibrium (mm)")
+    ax.set_ylabel("start velocity (mm/s)")
+    ax.set_title(title + f"\ngreen: brought to rest; red: lost. At rest start: {lo * 1e3:.3g} .. {hi * 1e3:.3g} mm",
+                 fontsize=9)
+    fig.tight_layout()
+    return fig

@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 
 from . import analysis
-from .export import header_lines, write_csv, write_json, write_png
+from .export import header_lines, write_atomic, write_csv, write_json, write_png
 from .model import Design
 
 
@@ -21,35 +21,38 @@ def _files(out: Path, *names: str) -> list[str]:
 
 
 def operating_point(design: Design, curves=None) -> dict:
-    """The operating point: hover current at the operating gap (suspension) or the passive axial
-    equilibrium at zero current (repulsive designs); full six-axis equilibrium there."""
+    """The operating point the analyses linearise about.
+
+    Rule: an axially stable equilibrium at zero coil current (a passive, zero-power height, as in
+    repulsive bases) is preferred, the one nearest the operating gap; otherwise the floater is
+    held at the operating gap by its hover current (suspension levitators). The six-axis
+    equilibrium is then found there (free axes of the study).
+    """
+    from .errors import SolverError
+
     c = curves if curves is not None else analysis.axial_curves(design)
     d = c.pattern
     gop = design.study.operating_gap_m
-    # exact hover current at the operating gap
     one = analysis.axial_curves(design, gaps_m=[gop], currents_A=[0.0])
     ih = float(one.hover_current_A[0])
     limit = c.max_current_A
-    if np.isfinite(ih) and abs(ih) <= limit:
+    eqs = analysis.axial_equilibria(design, 0.0, c)
+    stable = [e for e in eqs if e.stable]
+    if stable:
+        pick = min(stable, key=lambda e: abs(e.gap_m - gop))
+        currents = np.zeros(len(design.coils))
+        start = pick.gap_m
+        how = (f"passive equilibrium at zero current, gap {pick.gap_m * 1e3:.4g} mm (axially stable; "
+               f"holding the operating gap {gop * 1e3:.4g} mm instead would take {ih:.4g} A)")
+    elif np.isfinite(ih) and abs(ih) <= limit:
         currents = ih * d
         start = gop
         how = f"hover current {ih:.4g} A at the operating gap {gop * 1e3:.4g} mm"
     else:
-        # look for a passive equilibrium at zero current that is axially stable
-        eqs = analysis.axial_equilibria(design, 0.0, c)
-        stable = [e for e in eqs if e.stable]
-        pick = min(stable or eqs, key=lambda e: abs(e.gap_m - gop)) if eqs else None
-        if pick is None:
-            from .errors import SolverError
-
-            raise SolverError(
-                f"operating point: the floater cannot hover at the operating gap {gop * 1e3:.4g} mm within "
-                f"+-{limit:g} A (needs {ih:.4g} A) and has no equilibrium at zero current in "
-                f"{design.study.gap_min_m * 1e3:.4g}..{design.study.gap_max_m * 1e3:.4g} mm")
-        currents = np.zeros(len(design.coils))
-        start = pick.gap_m
-        how = (f"passive equilibrium at zero current, gap {pick.gap_m * 1e3:.4g} mm "
-               f"(the operating gap {gop * 1e3:.4g} mm would need {ih:.4g} A)")
+        raise SolverError(
+            f"operating point: the floater cannot hover at the operating gap {gop * 1e3:.4g} mm within "
+            f"+-{limit:g} A (needs {ih:.4g} A) and has no stable height at zero current in "
+            f"{design.study.gap_min_m * 1e3:.4g}..{design.study.gap_max_m * 1e3:.4g} mm")
     eq = analysis.find_equilibrium(design, currents, start_gap_m=start)
     return {"equilibrium": eq, "currents_A": currents, "how": how, "hover_current_at_operating_gap_A": ih}
 
@@ -189,3 +192,484 @@ def _close(fig) -> None:
     import matplotlib.pyplot as plt
 
     plt.close(fig)
+
+
+def run_coil(design: Design, out: Path, curves=None, stability=None) -> dict:
+    """Coil datasheets (terminal table + coil.json), drive headroom at the operating point."""
+    from . import coil as coilmod
+
+    out = Path(out)
+    c = curves["_curves"] if curves is not None else analysis.axial_curves(design)
+    st = stability if stability is not None else run_stability(design, out, curves=c, with_maps=False)
+    S = st["_stiffness"]
+    ax = analysis.control_axis(design, S)
+    # only gaps where the floater can hover within the current limit carry a hover current
+    hover = np.where(c.hover_within_limit, c.hover_current_A, np.nan)
+    Lmat = coilmod.mutual_inductance_matrix(design) if design.coils else np.zeros((0, 0))
+    sheets = []
+    warnings: list[str] = []
+    for k, coil in enumerate(design.coils):
+        hk = hover * c.pattern[k]
+        cd = coilmod.coil_datasheet(design, k, hover_currents_A=hk, gaps_m=c.gaps_m)
+        d = cd.to_dict()
+        eqI = float(st["_equilibrium"].currents_A[k])
+        T_op, run_op = coilmod.steady_temperature_C([eqI], cd.resistance_20C_ohm,
+                                                    cd.convection_W_per_m2K * cd.surface_area_m2, cd.ambient_temperature_C)
+        R_op = float(cd.resistance_ohm(T_op[0])) if np.isfinite(T_op[0]) else float("inf")
+        d["at_operating_point"] = {"gap_m": float(st["_equilibrium"].gap_m), "current_A": eqI,
+                                   "power_W": eqI * eqI * R_op, "temperature_C": float(T_op[0]),
+                                   "temperature_rise_K": float(T_op[0] - cd.ambient_temperature_C),
+                                   "runaway": bool(run_op[0])}
+        bias = float(ax.bias_currents_A[k]) if len(ax.bias_currents_A) else 0.0
+        if ax.pattern[k] != 0 and ax.force_per_ampere_N_per_A != 0:
+            hr = coilmod.drive_headroom(cd, bias, ax.force_per_ampere_N_per_A, ax.stiffness_N_per_m,
+                                        design.floater.mass_kg, design.study.supply_voltage_V)
+            d["drive_headroom"] = hr.to_dict()
+            warnings += list(hr.warnings)
+        sheets.append(d)
+        warnings += [w if w.startswith("coil ") else f"coil {coil.name}: {w}" for w in cd.warnings]
+    summary = {"coils": sheets, "inductance_matrix_H": Lmat, "control_axis": ax.name,
+               "control_pattern": ax.pattern, "warnings": _unique(warnings),
+               "files": _files(out, "coil.json", "coil_heat.csv")}
+    rows = []
+    for i, g in enumerate(c.gaps_m):
+        row = [g]
+        for d in sheets:
+            row += [d["hover_currents_A"][i], d["power_W"][i], d["temperature_C"][i]]
+        rows.append(row)
+    cols = ["gap_m"]
+    for coil in design.coils:
+        cols += [f"{coil.name}_hover_current_A", f"{coil.name}_power_W", f"{coil.name}_temperature_C"]
+    write_csv(out / "coil_heat.csv", cols, rows, header_lines(design.name, "coil power and steady temperature at the hover current of each gap"))
+    write_json(out / "coil.json", summary)
+    return summary
+
+
+def _unique(items):
+    seen = []
+    for x in items:
+        if x not in seen:
+            seen.append(x)
+    return seen
+
+
+def run_sensors(design: Design, out: Path) -> dict:
+    """Sensor curves (sensors.csv, sensors.png), Hall decomposition, placement table."""
+    from . import plots, sensors
+
+    out = Path(out)
+    gaps = design.study.gaps()
+    res = {"sensors": [], "warnings": [], "files": []}
+    beams, halls = [], []
+    for s in design.sensors:
+        if s.kind == "beam":
+            r = sensors.beam_response(design, s, gaps)
+            beams.append(r)
+            res["sensors"].append({"name": s.name, "kind": "beam", **r.to_dict()})
+        else:
+            r = sensors.hall_response(design, s, gaps)
+            halls.append(r)
+            res["sensors"].append({"name": s.name, "kind": "hall", **r.to_dict()})
+        res["warnings"] += [f"{s.name}: {w}" for w in r.warnings]
+    cols = ["gap_m"]
+    data = [gaps]
+    for b in beams:
+        cols += [f"{b.name}_blocked_fraction", f"{b.name}_slope_per_m"]
+        data += [b.blocked_fraction, b.slope_per_m]
+    for h in halls:
+        cols += [f"{h.name}_reading_zero_current_T", f"{h.name}_floater_T", f"{h.name}_core_bias_T"]
+        data += [h.reading_zero_current_T, h.floater_T, h.core_bias_T]
+        for k, coil in enumerate(design.coils):
+            cols.append(f"{h.name}_{coil.name}_T_per_A")
+            data.append(h.coil_T_per_A[:, k])
+    if design.sensors:
+        write_csv(out / "sensors.csv", cols, np.column_stack(data),
+                  header_lines(design.name, "sensor outputs versus gap (zero coil current unless per A)"))
+        res["files"].append(str(out / "sensors.csv"))
+    line = design.study.sensor_line
+    placement = None
+    if line is not None:
+        a, b, n = line
+        cand = np.linspace(a, b, n)
+        axis = next((np.asarray(s.axis) for s in design.sensors if s.kind == "hall"), design.up)
+        placement = sensors.placement_table(design, cand, axis, gaps_m=gaps)
+        rows = placement.rows()
+        write_csv(out / "placement.csv", list(rows[0].keys()) + ["best"],
+                  [list(r.values()) + [i == placement.best_index] for i, r in enumerate(rows)],
+                  header_lines(design.name, "candidate Hall positions: sensitivity, cross-talk (m of apparent gap per A), linear range"))
+        res["placement"] = {"rows": rows, "best_index": placement.best_index,
+                            "best_position_m": placement.positions_m[placement.best_index]}
+        res["files"].append(str(out / "placement.csv"))
+    for h in halls:
+        try:
+            inv = sensors.hall_inverse_table(design, next(s for s in design.sensors if s.name == h.name), gaps)
+            write_csv(out / f"inverse_{_slug(h.name)}.csv", ["reading_T", "gap_m"], zip(inv.reading, inv.gap_m),
+                      header_lines(design.name, f"gap from the reading of {h.name} (zero coil current; compensate first)"))
+            res["files"].append(str(out / f"inverse_{_slug(h.name)}.csv"))
+        except Exception as e:  # noqa: BLE001 - non-monotone readings: report, keep going
+            from .errors import HoverfieldError
+
+            if not isinstance(e, HoverfieldError):
+                raise
+            res["warnings"].append(f"{h.name}: no inverse table: {e}")
+    if design.sensors:
+        fig = plots.sensor_curves(design, beams, halls, placement)
+        write_png(out / "sensors.png", fig)
+        _close(fig)
+        res["files"].append(str(out / "sensors.png"))
+    write_json(out / "sensors.json", res)
+    res["files"].append(str(out / "sensors.json"))
+    res["_beams"], res["_halls"], res["_placement"] = beams, halls, placement
+    return res
+
+
+def _slug(name: str) -> str:
+    return "".join(ch if ch.isalnum() else "_" for ch in name).strip("_").lower()
+
+
+# ---------------------------------------------------------------------------------------------
+# control model
+
+
+def _axis_tables(design: Design, eq, ax, grid_points: int = 81):
+    """Force table along the control axis and the positions grid (s measured along ax.direction)."""
+    from .dynamics import ForceTable
+
+    st = design.study
+    if ax.index == 2:
+        c = float(design.up @ np.asarray(st.gap_direction))  # d gap / d s
+        lo_gap, hi_gap = st.gap_min_m, st.gap_max_m
+        s_a = (lo_gap - eq.gap_m) / c
+        s_b = (hi_gap - eq.gap_m) / c
+        s_lo, s_hi = min(s_a, s_b), max(s_a, s_b)
+    else:
+        s_lo, s_hi = -st.lateral_span_m, st.lateral_span_m
+    s = np.linspace(s_lo, s_hi, grid_points)
+    dq = np.zeros((len(s), 6))
+    dq[:, :3] = s[:, None] * ax.direction[None, :]
+    P, Rv = analysis.displace(design, eq.position_m, eq.rotvec_rad, dq)
+    from .forces import wrench_basis
+
+    b = wrench_basis(design, P, Rv)
+    p = ax.pattern
+    I0 = float(ax.bias_currents_A @ p / (p @ p)) if np.any(p) else 0.0
+    Fb = b.force(ax.bias_currents_A) if len(p) else b.F0_N
+    Fk = (b.Fk_N_per_A @ ax.direction) @ p if len(p) else np.zeros(len(s))
+    F0 = Fb @ ax.direction - I0 * Fk
+    ok = ~b.contact
+    # keep the contiguous stretch around s = 0 that is clear of contact
+    i0 = int(np.argmin(np.abs(s)))
+    lo = i0
+    while lo > 0 and ok[lo - 1]:
+        lo -= 1
+    hi = i0
+    while hi < len(s) - 1 and ok[hi + 1]:
+        hi += 1
+    sl = slice(lo, hi + 1)
+    return ForceTable(s[sl], F0[sl], Fk[sl]), I0, (P[sl], Rv[sl]), s[sl]
+
+
+def _axis_sensor(design: Design, eq, ax, s_grid, poses, I0):
+    """(name, Sensor, gain per m, crosstalk per A, unit) for the control axis: the beam gate for a
+    vertical axis when there is one, else the first Hall sensor, else an ideal position sensor."""
+    from scipy.interpolate import CubicSpline
+
+    from . import sensors as sensmod
+    from .dynamics import Sensor
+    from .sources import fixed_field_basis, floater_field_T
+
+    st = design.study
+    beams = [s for s in design.sensors if s.kind == "beam"]
+    halls = [s for s in design.sensors if s.kind == "hall"]
+    P, Rv = poses
+    if ax.index == 2 and beams:
+        sen = beams[0]
+        gaps = np.asarray([(p - np.asarray(st.gap_origin_m)) @ np.asarray(st.gap_direction) for p in P])
+        y = sensmod.beam_blocked_fraction(design, sen, gaps)
+        if sen.output_span_V:
+            # receiver voltage: proportional to the light that gets through
+            y = sen.output_span_V * (1.0 - y)
+            unit, rng = "V", (0.0, sen.output_span_V)
+        else:
+            unit, rng = "fraction", (0.0, 1.0)
+        spl = CubicSpline(s_grid, y)
+        return sen.name, Sensor(lambda s, i: spl(s), rng, unit), float(spl(0.0, 1)), 0.0, unit
+    if halls:
+        sen = halls[0]
+        pt = np.asarray(sen.position_m, float)[None, :]
+        axis = np.asarray(sen.axis, float)
+        y = np.array([float(np.ravel(np.asarray(floater_field_T(design, pt, p[None, :], r[None, :])).reshape(-1, 3)[0] @ axis)[0])
+                      for p, r in zip(P, Rv)])
+        fb = fixed_field_basis(design, np.broadcast_to(pt, (len(P), 1, 3)).copy(), P, Rv)
+        y = y + fb.field_T(ax.bias_currents_A)[:, 0, :] @ axis if len(ax.pattern) else y + fb.B0_T[:, 0, :] @ axis
+        i0 = int(np.argmin(np.abs(s_grid)))
+        xt = float((fb.Bk_T_per_A[i0, :, 0, :] @ axis) @ ax.pattern) if len(ax.pattern) else 0.0
+        rng = (-sen.range_T, sen.range_T)
+        unit = "T"
+        if sen.sensitivity_V_per_T:
+            g = sen.sensitivity_V_per_T
+            y, xt, rng, unit = y * g, xt * g, (-sen.range_T * g, sen.range_T * g), "V"
+        spl = CubicSpline(s_grid, y)
+        return sen.name, Sensor(lambda s, i: spl(s) + xt * (np.asarray(i) - I0), rng, unit), float(spl(0.0, 1)), xt, unit
+    return "ideal position sensor", Sensor(lambda s, i: np.asarray(s, float), (-np.inf, np.inf), "m"), 1.0, 0.0, "m"
+
+
+def _nice_sample_time(min_rate_Hz: float) -> float:
+    for f in (500.0, 1e3, 2e3, 5e3, 1e4, 2e4, 5e4, 1e5):
+        if f >= 2.0 * min_rate_Hz:
+            return 1.0 / f
+    return 1.0 / 1e5
+
+
+def run_control(design: Design, out: Path, stability=None, coil=None) -> dict:
+    """Linear plant, controller starting point, margins, simulations, capture range and on/off
+    study along the axis that needs control; control.json, plant.json, CSVs and PNGs."""
+    from . import coil as coilmod
+    from . import dynamics as dyn
+    from . import plots
+
+    out = Path(out)
+    st = stability if stability is not None else run_stability(design, out, with_maps=False)
+    eq = st["_equilibrium"]
+    S = st["_stiffness"]
+    ax = analysis.control_axis(design, S)
+    if not design.coils or ax.force_per_ampere_N_per_A == 0:
+        from .errors import SolverError
+
+        raise SolverError(f"control: the coils exert no force along the {ax.name} axis at the equilibrium; "
+                          "there is nothing to build a plant from")
+    p = ax.pattern
+    active = np.flatnonzero(p)
+    sheets = [coilmod.coil_datasheet(design, int(k)) for k in active]
+    R = float(sum(p[k] ** 2 * sh.resistance_20C_ohm for k, sh in zip(active, sheets)))
+    Lm = coilmod.mutual_inductance_matrix(design)
+    L = float(p @ Lm @ p)
+    imax = float(min(design.coils[k].max_current_A / abs(p[k]) for k in active))
+    table, I0, poses, s_grid = _axis_tables(design, eq, ax)
+    sen_name, sensor, gs, gi, unit = _axis_sensor(design, eq, ax, s_grid, poses, I0)
+    common = dict(axis_name=ax.name, mass_kg=design.floater.mass_kg, stiffness_N_per_m=ax.stiffness_N_per_m,
+                  force_per_ampere_N_per_A=ax.force_per_ampere_N_per_A, resistance_ohm=R, inductance_H=L,
+                  hover_current_A=I0, max_current_A=imax, supply_voltage_V=design.study.supply_voltage_V,
+                  sensor_gain_per_m=gs, sensor_unit=unit,
+                  gravity_m_per_s2=design.gravity_magnitude if ax.index == 2 else 0.0)
+    # the plant as wired (the sensor sees the coil too) is exported; the controller is designed for
+    # the usual practice of subtracting the coil's share (c I) from the reading before the loop
+    raw_params = dyn.PlantParameters(sensor_crosstalk_per_A=gi, **common)
+    params = dyn.PlantParameters(sensor_crosstalk_per_A=0.0, **common)
+    raw_plant = dyn.linear_plant(raw_params, drive="voltage")
+    plant = dyn.linear_plant(params, drive="voltage")
+    if gi != 0.0:
+        sensor = dyn.Sensor(lambda s_, i_, f=sensor.function, c=gi: f(s_, i_) - c * (np.asarray(i_) - I0),
+                            sensor.range_signal, sensor.unit)
+    T = _nice_sample_time(plant.min_sample_rate_Hz)
+    pd = dyn.design_controller(plant, sample_time_s=T, kind="pd")
+    pid = dyn.design_controller(plant, sample_time_s=T, kind="pid")
+    m_pd = dyn.loop_margins(plant, pd)
+    m_pid = dyn.loop_margins(plant, pid)
+    prop = dyn.proportional_only(plant)
+    span = float(min(-s_grid[0], s_grid[-1]))
+    # a reference step well inside the sensor's useful range: 0.2 mm, or 5 % of the table span
+    step = float(min(0.2e-3, 0.05 * span))
+    sims = {
+        "step": dyn.simulate(params, table, pd, dyn.Scenario(t_end_s=0.4, reference_m=step, reference_step_time_s=0.05), sensor=sensor),
+        "disturbance": dyn.simulate(params, table, pd, dyn.Scenario(
+            t_end_s=0.4, force_impulse_N_s=0.2 * design.floater.mass_kg * step * plant.unstable_pole_rad_per_s,
+            force_impulse_time_s=0.05), sensor=sensor),
+        "payload_pd": dyn.simulate(params, table, pd, dyn.Scenario(t_end_s=0.6, payload_kg=0.1 * design.floater.mass_kg,
+                                                                   payload_time_s=0.05), sensor=sensor),
+        "payload_pid": dyn.simulate(params, table, pid, dyn.Scenario(t_end_s=0.6, payload_kg=0.1 * design.floater.mass_kg,
+                                                                     payload_time_s=0.05), sensor=sensor),
+    }
+    s0 = np.linspace(s_grid[0] * 0.95, s_grid[-1] * 0.95, 41)
+    vmax = 0.5 * span * plant.unstable_pole_rad_per_s
+    v0 = np.linspace(-vmax, vmax, 15)
+    cap = dyn.capture_range(params, table, pd, s0, v0, t_end_s=0.5, sensor=sensor)
+    bands = np.array([0.02, 0.05, 0.1, 0.2]) * span
+    hyst = dyn.hysteresis_study(params, table, pd, bands, mode="current", t_end_s=0.6)
+    # files
+    write_json(out / "plant.json", {"design": design.name, "axis": ax.name, "pattern": p, "sensor": sen_name,
+                                    "drive": "voltage", "as_wired": raw_plant.to_dict(),
+                                    "crosstalk_compensated": plant.to_dict(),
+                                    "note": "as_wired: the sensor reading includes the coil's own field (cross-talk); "
+                                            "crosstalk_compensated: the reading minus c I, which the controller assumes"})
+    summary = {
+        "axis": ax.name, "pattern": p, "sensor": sen_name, "sensor_gain_per_m": gs, "sensor_crosstalk_per_A": gi,
+        "crosstalk_note": ("the controller assumes the coil's share of the reading (c I) is subtracted first"
+                           if gi != 0.0 else "the sensor does not see the coil"),
+        "sensor_unit": unit, "resistance_ohm": R, "inductance_H": L, "bias_current_A": I0, "max_current_A": imax,
+        "unstable_pole_rad_per_s": plant.unstable_pole_rad_per_s, "unstable_time_constant_s": plant.unstable_time_constant_s,
+        "electrical_pole_rad_per_s": plant.electrical_pole_rad_per_s, "min_sample_rate_Hz": plant.min_sample_rate_Hz,
+        "max_loop_delay_s": plant.max_loop_delay_s, "rules": list(plant.rules), "sample_time_s": T,
+        "controller_pd": pd.to_dict(), "controller_pid": pid.to_dict(),
+        "margins_pd": m_pd.to_dict(), "margins_pid": m_pid.to_dict(), "proportional_only": prop.to_dict(),
+        "capture": {"band_m": cap.band_m, "band_resolution_m": cap.band_resolution_m,
+                    "captured_fraction": float(np.mean(cap.captured))},
+        "hysteresis": hyst.to_dict(),
+        "simulations": {k: {"events": [e.__dict__ for e in v.events], "final_s_m": float(v.s_m[-1]),
+                            "peak_current_A": float(np.max(np.abs(v.current_A)))} for k, v in sims.items()},
+    }
+    for k, v in sims.items():
+        rows = v.to_csv_rows()
+        write_csv(out / f"sim_{k}.csv", rows[0], rows[1:], header_lines(design.name, f"nonlinear simulation '{k}' along {ax.name}; s from the equilibrium"))
+    rows = []
+    for i, a in enumerate(s0):
+        for j, b in enumerate(v0):
+            rows.append([a, b, bool(cap.captured[i, j]), str(cap.fate[i, j])])
+    write_csv(out / "capture.csv", ["s0_m", "v0_m_per_s", "captured", "fate"], rows,
+              header_lines(design.name, f"capture map along {ax.name} with the PD starting controller"))
+    write_csv(out / "hysteresis.csv", ["band_m", "status", "amplitude_m", "frequency_Hz", "mean_joule_power_W", "duty"],
+              zip(hyst.band_widths_m, hyst.status, hyst.amplitude_m, hyst.frequency_Hz, hyst.mean_joule_power_W, hyst.duty),
+              header_lines(design.name, "on/off control with a hysteresis band; compare linear_amplitude in control.json"))
+    write_json(out / "control.json", summary)
+    for name, fig in (("control_bode.png", plots.bode(m_pd, title=f"{design.name}: loop with the PD starting design")),
+                      ("control_nyquist.png", plots.nyquist(m_pd, title=f"{design.name}: Nyquist plot (PD)")),
+                      ("control_step.png", plots.time_responses(sims, title=f"{design.name}: nonlinear responses along {ax.name}")),
+                      ("capture.png", plots.capture_map(cap, s0, v0, title=f"{design.name}: capture range (PD)"))):
+        write_png(out / name, fig)
+        _close(fig)
+    summary["files"] = _files(out, "control.json", "plant.json", "capture.csv", "hysteresis.csv",
+                              *[f"sim_{k}.csv" for k in sims], "control_bode.png", "control_nyquist.png",
+                              "control_step.png", "capture.png")
+    summary["_plant"], summary["_pd"], summary["_pid"], summary["_margins"] = plant, pd, pid, m_pd
+    summary["_raw_plant"] = raw_plant
+    summary["_table"], summary["_params"], summary["_sims"], summary["_capture"] = table, params, sims, cap
+    summary["_hyst"], summary["_prop"] = hyst, prop
+    return summary
+
+
+# ---------------------------------------------------------------------------------------------
+# exports for other tools
+
+
+def run_exports(design: Design, out: Path, curves_summary: dict, control_summary: dict | None) -> dict:
+    """Force/stiffness tables (CSV + C header), inverse table, SPICE subcircuit, meshes (STL, GLB)."""
+    import trimesh
+
+    from . import bodies, formats
+
+    out = Path(out)
+    exp = out / "exports"
+    c = curves_summary["_curves"]
+    files = []
+    imax = c.max_current_A
+    I = np.linspace(-imax, imax, 13)
+    ok = ~c.contact
+    g = c.gaps_m[ok]
+    F0, f = c.F0_N[ok], c.ki_N_per_A[ok]
+    kz0, dki = c.kz0_N_per_m[ok], c.dki_dh_N_per_A_m[ok]
+    Fz = F0[:, None] + f[:, None] * I[None, :]
+    kz = kz0[:, None] - dki[:, None] * I[None, :]
+    ki = np.repeat(f[:, None], len(I), axis=1)
+    W = design.weight_N
+    Fgrid = np.linspace(0.0, 3.0 * W, 13)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        Iinv = (Fgrid[None, :] - F0[:, None]) / f[:, None]
+    hdr = header_lines(design.name, "affine in current (iron-free or unsaturated core): F_up(g, I) = F0(g) + I ki(g); "
+                                    "k = -dF_up/dh; drive pattern " + str(c.pattern.tolist()))
+    def grid_csv(name, vals, what, colfmt, colvals):
+        cols = ["gap_m"] + [colfmt.format(v) for v in colvals]
+        write_csv(exp / name, cols, [[gi, *row] for gi, row in zip(g, vals)], hdr + [f"# {what}"])
+        files.append(str(exp / name))
+    grid_csv("table_Fz.csv", Fz, "upward magnetic force Fz_N at gap (rows) and current (columns)", "Fz_N_at_{:.6g}A", I)
+    grid_csv("table_kz.csv", kz, "axial stiffness kz_N_per_m", "kz_N_per_m_at_{:.6g}A", I)
+    grid_csv("table_ki.csv", ki, "force per ampere ki_N_per_A", "ki_N_per_A_at_{:.6g}A", I)
+    grid_csv("table_I_of_F.csv", Iinv, "current I_A that gives force F (columns) at each gap; beyond +-max current the "
+             "coil cannot do it", "I_A_at_{:.6g}N", Fgrid)
+    arrays = {"gap_m": g, "current_A": I, "force_N": Fgrid, "Fz_N": Fz, "kz_N_per_m": kz, "ki_N_per_A": ki,
+              "I_of_F_A": Iinv}
+    units = {"gap_m": "m", "current_A": "A", "force_N": "N (columns of I_of_F_A)", "Fz_N": "N, [gap][current]",
+             "kz_N_per_m": "N/m, [gap][current]", "ki_N_per_A": "N/A, [gap][current]", "I_of_F_A": "A, [gap][force]"}
+    notes = ["Interpolation: bilinear in (gap, current) on these grids is accurate to the grid spacing squared;",
+             "force is exactly affine in current here, so interpolate along current linearly without loss.",
+             f"Weight of the floater: {W!r} N; max current {imax!r} A."]
+    write_atomic(exp / "tables.h", formats.c_header(design.name, arrays, units, notes))
+    files.append(str(exp / "tables.h"))
+    if control_summary is not None:
+        t = control_summary["_table"]
+        prm = control_summary["_params"]
+        sp = formats.spice_subcircuit(design.name, "hf_plant", t.positions_m, t.F0_N, t.Fk_N_per_A,
+                                      prm.resistance_ohm, prm.inductance_H, prm.mass_kg,
+                                      prm.gravity_m_per_s2 or 0.0, prm.axis_name)
+        write_atomic(exp / "plant.sub", sp)
+        files.append(str(exp / "plant.sub"))
+    meshes = bodies.body_meshes(design)
+    scene = trimesh.Scene()
+    for name, m in meshes.items():
+        scene.add_geometry(m, node_name=name, geom_name=name)
+    whole = trimesh.util.concatenate(list(meshes.values()))
+    write_atomic(exp / "geometry.stl", whole.export(file_type="stl"))
+    write_atomic(exp / "geometry.glb", scene.export(file_type="glb"))
+    files += [str(exp / "geometry.stl"), str(exp / "geometry.glb")]
+    summary = {"files": files, "mesh_volume_m3": float(whole.volume), "mesh_watertight": bool(whole.is_watertight)}
+    write_json(exp / "exports.json", summary)
+    return summary
+
+
+# ---------------------------------------------------------------------------------------------
+# the whole job
+
+
+STAGES = ("check", "curves", "stability", "coil", "sensors", "control", "exports")
+
+
+def run_report(design: Design, out: Path, progress: bool = True, geometry_text: str | None = None) -> dict:
+    """Run every analysis, write every file, then the HTML report. A stage that fails is
+    recorded (and later stages that need it are skipped); the report says what failed."""
+    import json
+    import traceback
+
+    from tqdm import tqdm
+
+    from . import plots
+    from .errors import HoverfieldError
+    from .summary import design_summary
+
+    out = Path(out)
+    done: dict[str, dict] = {}
+    failed: dict[str, str] = {}
+    bar = tqdm(total=len(STAGES), desc=design.name, unit="stage", disable=not progress, leave=False)
+
+    def stage(name, func, needs=()):
+        bar.set_postfix_str(name)
+        missing = [n for n in needs if n not in done]
+        if missing:
+            failed[name] = f"skipped: needs {', '.join(missing)}, which failed"
+        else:
+            try:
+                done[name] = func()
+            except HoverfieldError as e:
+                failed[name] = str(e)
+            except Exception as e:  # noqa: BLE001 - a report keeps what it finished and says what failed
+                failed[name] = f"internal error {type(e).__name__}: {e} ({traceback.format_exc(limit=2).splitlines()[-1]})"
+        bar.update(1)
+
+    def check():
+        lines, data = design_summary(design)
+        fig = plots.design_picture(design)
+        write_png(out / "design.png", fig)
+        _close(fig)
+        write_json(out / "design.json", data)
+        return {"lines": lines}
+
+    stage("check", check)
+    stage("curves", lambda: run_curves(design, out))
+    stage("stability", lambda: run_stability(design, out, curves=done["curves"]["_curves"]), needs=("curves",))
+    stage("coil", lambda: run_coil(design, out, curves=done["curves"], stability=done["stability"]), needs=("curves", "stability"))
+    stage("sensors", lambda: run_sensors(design, out))
+    stage("control", lambda: run_control(design, out, stability=done["stability"]), needs=("stability",))
+    stage("exports", lambda: run_exports(design, out, done["curves"], done.get("control")), needs=("curves",))
+    bar.close()
+
+    def load(name):
+        p = out / name
+        return json.loads(p.read_text(encoding="utf-8")) if p.is_file() else None
+
+    from .report_builder import build_report
+
+    html_text = build_report(design, out, done, failed, load, geometry_text)
+    write_atomic(out / "report.html", html_text)
+    status = {"stages_done": [s for s in STAGES if s in done], "stages_failed": failed,
+              "report": str(out / "report.html")}
+    write_json(out / "run_status.json", status)
+    status["_done"] = done
+    return status

@@ -265,7 +265,7 @@ def test_datasheet_thermal_warnings_and_voltage_drive_drift():
     assert np.allclose(cd.power_W, 10.0 * S * cd.temperature_rise_K, rtol=1e-10)  # P = h A dT
     # a fixed voltage gives less current when hot: I_hot / I_cold = R20 / R(T)
     assert np.allclose(cd.current_hot_same_voltage_A / hover, 1 / (1 + 0.00393 * (cd.temperature_C - 20)), rtol=1e-12)
-    assert any("exceeds the insulation thermal class 105" in w for w in cd.warnings)
+    assert any("above its insulation thermal class 105" in w for w in cd.warnings)
     assert any("A/mm^2" in w for w in cd.warnings)
     assert np.all(cd.dL_dgap_H_per_m == 0) and "does not change L" in cd.dL_dgap_note
 

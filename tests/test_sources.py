@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 from scipy import integrate
 from scipy.constants import mu_0
+from scipy.spatial.transform import Rotation
 
 from fields.errors import GeometryError
 from fields.model import Coil, Core, Design, Floater, Magnet, Study
@@ -192,3 +193,131 @@ def test_core_response_follows_demag_model_and_clips():
 def test_unknown_shape_message():
     with pytest.raises(GeometryError, match="shape must be one of cylinder, ring, cuboid, sphere, mesh"):
         shape_field_own_T("cone", (1.0,), (0, 0, 1), np.zeros((1, 3)))
+
+
+# --------------------------------------------------------------------------- closed-form sheet flux (on-axis path)
+
+
+def maxwell_mutual_inductance(a, rho, dz):
+    """Mutual inductance of two coaxial circular loops (radii a, rho, axial distance dz):
+    M = mu0 sqrt(a rho) [(2/k - k) K(k) - (2/k) E(k)], k^2 = 4 a rho / ((a + rho)^2 + dz^2)
+    (Maxwell, A Treatise on Electricity and Magnetism, 1873, art. 701; Smythe, Static and Dynamic
+    Electricity, 3rd ed. 1968, sec. 8.02). scipy's ellipk/ellipe take the parameter m = k^2."""
+    from scipy import special
+
+    m = 4 * a * rho / ((a + rho) ** 2 + dz**2)
+    k = np.sqrt(m)
+    return mu_0 * np.sqrt(a * rho) * ((2 / k - k) * special.ellipk(m) - 2 / k * special.ellipe(m))
+
+
+#: (sheet radius a, half height b, disc radius rho, disc plane - sheet centre dz): inside, outside,
+#: rho = a (the limit of the Pi term), rho near a, the disc inside the sheet's height, far away
+SHEET_CASES = [(0.01, 0.015, 0.005, 0.03), (0.01, 0.015, 0.02, -0.04), (0.01, 0.015, 0.01, 0.02),
+               (0.01, 0.015, 0.0099, 0.0151), (0.01, 0.015, 0.006, 0.0), (0.01, 0.015, 0.012, 0.005),
+               (0.007, 0.015, 0.00635, -0.0182), (0.01, 0.002, 0.004, 0.3)]
+
+
+def test_sheet_flux_matches_maxwell_mutual_inductance_integrated_over_height():
+    """Flux of a sheet (K = J/mu0 A/m) through a disc = K int M(a, rho, dz - z') dz' (Maxwell's
+    loop-loop mutual inductance, reference above, integrated with scipy quad)."""
+    from fields.sources import sheet_disc_flux_Wb
+
+    J = 1.3
+    for a, b, rho, dz in SHEET_CASES:
+        ref = J / mu_0 * integrate.quad(lambda zp: maxwell_mutual_inductance(a, rho, dz - zp), -b, b,
+                                        points=(-0.99 * b, 0.99 * b), epsrel=1e-12, limit=400,
+                                        epsabs=1e-15 * 2 * b * maxwell_mutual_inductance(a, rho, dz))[0]
+        assert sheet_disc_flux_Wb(a, b, J, rho, dz) == pytest.approx(ref, rel=1e-12), (a, b, rho, dz)
+
+
+def test_sheet_flux_matches_magpylib_cylinder_field_integrated_over_disc():
+    """Phi = int_0^rho 2 pi r B_z(r) dr of magpylib's axially magnetized cylinder (magpylib
+    Cylinder.getB, a general-purpose reference library; its kernel follows Derby and Olbert 2010 for
+    B, not the vector potential used here), Gauss-Legendre in r split where the disc crosses the
+    magnet's side (B_z jumps there)."""
+    import magpylib as magpy
+
+    from fields.sources import sheet_disc_flux_Wb
+
+    J = 1.2
+    for a, b, rho, dz in SHEET_CASES[:-1]:
+        cyl = magpy.magnet.Cylinder(polarization=(0, 0, J), dimension=(2 * a, 2 * b))
+        cuts = [0.0, rho] if (rho <= a or abs(dz) >= b) else [0.0, a, rho]
+        ref = 0.0
+        for lo, hi in zip(cuts[:-1], cuts[1:]):
+            x, w = np.polynomial.legendre.leggauss(60)
+            r = lo + (hi - lo) * (x + 1) / 2
+            obs = np.column_stack((r, np.zeros_like(r), np.full_like(r, dz)))
+            ref += float(np.sum(w * (hi - lo) / 2 * 2 * np.pi * r * cyl.getB(obs)[:, 2]))
+        assert sheet_disc_flux_Wb(a, b, J, rho, dz) == pytest.approx(ref, rel=1e-12), (a, b, rho, dz)
+
+
+def test_sheet_flux_thin_and_long_limits():
+    from fields.sources import sheet_disc_flux_Wb
+
+    # thin sheet of height 2b carrying I = 2 b K: Phi -> M I (Maxwell, above); error O(b^2), removed
+    # by one Richardson step
+    a, rho, dz, I = 0.01, 0.007, 0.004, 1.0
+    phi = [sheet_disc_flux_Wb(a, b, mu_0 * I / (2 * b), rho, dz) for b in (2e-5, 1e-5)]
+    assert (4 * phi[1] - phi[0]) / 3 == pytest.approx(maxwell_mutual_inductance(a, rho, dz) * I, rel=1e-9)
+    # very long sheet: uniform field J inside, zero outside (infinite solenoid, Ampere's law), so
+    # Phi -> J pi min(a, rho)^2 at its middle; end corrections ~ (a/b)^2
+    for rho in (0.004, 0.015):
+        assert sheet_disc_flux_Wb(0.01, 100.0, 1.0, rho, 0.0) == pytest.approx(np.pi * min(0.01, rho) ** 2, rel=1e-7)
+    # odd symmetry of the antiderivative: the flux is even in dz
+    assert sheet_disc_flux_Wb(0.01, 0.01, 1.0, 0.006, 0.013) == pytest.approx(
+        sheet_disc_flux_Wb(0.01, 0.01, 1.0, 0.006, -0.013), rel=1e-14)
+
+
+def test_cel_pair_matches_scipy_legendre_and_carlson_forms():
+    """cel(kc,1,0,1) = (K - E)/m and cel(kc,p,0,p) = (1-n)/n (Pi(n,m) - K), p = 1 - n (Bulirsch 1969;
+    Carlson, Numer. Algorithms 10 (1995) 13: Pi(n, m) = R_F(0,1-m,1) + n/3 R_J(0,1-m,1,1-n)), with
+    scipy's ellipk/ellipe/elliprf/elliprj; blocks larger than the loop's chunk give the same values."""
+    from scipy import special
+
+    from fields.sources import CEL_CHUNK, _cel_pair
+
+    rng = np.random.default_rng(3)
+    q = CEL_CHUNK + 17
+    m = rng.uniform(0.05, 0.95, q)
+    n = rng.uniform(0.05, 0.9, q)
+    kc = np.sqrt(1 - m)
+    K, E = special.ellipk(m), special.ellipe(m)
+    Pi = special.elliprf(0, 1 - m, 1) + n / 3 * special.elliprj(0, 1 - m, 1, 1 - n)
+    ref = (K - E) / m - (1 - n) / n * (Pi - K)
+    np.testing.assert_allclose(_cel_pair(kc, np.sqrt(1 - n)), ref, rtol=1e-12)
+    np.testing.assert_allclose(_cel_pair(kc[:5], np.sqrt(1 - n[:5])), ref[:5], rtol=1e-12)
+    # P = 0 (disc radius equal to the sheet radius): the second integral's limit is 0
+    np.testing.assert_allclose(_cel_pair(kc[:3], np.zeros(3)), (K[:3] - E[:3]) / m[:3], rtol=1e-12)
+
+
+def test_axial_sheets_of_magnets_and_coils_give_their_flux():
+    """Rings (outer minus inner sheet), flipped magnets and coil layers, against magpylib's ring
+    (CylinderSegment) field integrated over the disc and Maxwell's M integrated over a winding."""
+    import magpylib as magpy
+
+    from fields.sources import axial_disc_flux_Wb, axial_sheets
+
+    ring = Magnet("r", "ring", (0.008, 0.02, 0.006), (0.0, 0.0, 1.1), (0.0, 0.0, 0.01), (np.pi, 0.0, 0.0))
+    coil = Coil("c", 0.007, 0.022, 0.03, 2100, (0, 0, -0.03), (0, 0, -1), 0.5, 1.0)
+    d = _design([coil], [ring])
+    rho, z = np.array([0.005, 0.011]), np.array([[0.02, 0.022], [-0.0051, 0.03]])
+    sh = axial_sheets(d, layers=16)
+    Phi = axial_disc_flux_Wb(sh, rho, z)  # (2, 2, s)
+    mag = Phi[..., sh.coil_index == -1].sum(axis=-1)
+    coil_f = Phi[..., sh.coil_index == 0].sum(axis=-1)
+    seg = magpy.magnet.CylinderSegment(polarization=(0, 0, 1.1), dimension=(0.004, 0.01, 0.006, 0, 360),
+                                       position=(0, 0, 0.01), orientation=Rotation.from_rotvec((np.pi, 0, 0)))
+    x, w = np.polynomial.legendre.leggauss(60)
+    j = coil.turns / ((coil.outer_radius_m - coil.inner_radius_m) * coil.height_m)
+    for i in range(2):
+        for jd in range(2):
+            r = rho[jd] * (x + 1) / 2
+            B = seg.getB(np.column_stack((r, np.zeros_like(r), np.full_like(r, z[i, jd]))))[:, 2]
+            assert mag[i, jd] == pytest.approx(float(np.sum(w * rho[jd] / 2 * 2 * np.pi * r * B)), rel=1e-11)
+            # winding current density j, flowing clockwise seen from +z (axis -z): dblquad of M
+            ref = -j * integrate.dblquad(lambda zc, rc: maxwell_mutual_inductance(rc, rho[jd], z[i, jd] - zc),
+                                         0.007, 0.022, -0.045, -0.015, epsabs=0, epsrel=1e-12)[0]
+            assert coil_f[i, jd] == pytest.approx(ref, rel=1e-10)
+    with pytest.raises(GeometryError, match="axial_sheets: design.cores must be empty"):
+        axial_sheets(_design([coil], [], [Core("k", "cylinder", (0.01, 0.02), (0, 0, 0), (0, 0, 1), 100.0, 1.5)]))

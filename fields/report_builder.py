@@ -1,0 +1,258 @@
+"""Assemble the HTML report from the JSON files a run wrote (see :mod:`fields.report`)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from . import __version__
+from .report import esc, img, num, page, table
+
+SAFETY_HTML = """<div class="safety"><h3>Safety</h3><ul>
+<li><b>Strong magnets</b> pinch skin and break fingers when they snap together, shatter into sharp chips, and
+fly towards iron tools. Keep them away from pacemakers and other implants, cards and magnetic media.</li>
+<li><b>Coils get hot.</b> The temperatures below are lumped estimates; the hot spot inside a winding is hotter.
+Check the real coil and respect the wire's insulation class.</li>
+<li><b>Supply currents.</b> Fuse every supply; an inductive coil switched off abruptly produces a high voltage,
+so use a flyback diode or a driver that handles it.</li>
+<li>These are design estimates, not a safety approval: follow local electrical codes and licensed practice.</li>
+</ul></div>"""
+
+
+def _mode_class(m: dict) -> str:
+    return "stable" if m.get("stable") else "unstable"
+
+
+def build_report(design, out: Path, done: dict, failed: dict, load, geometry_text: str | None) -> str:
+    out = Path(out)
+    S: list[str] = []
+    S.append(f"<h1>{esc(design.name)}: design report</h1>")
+    S.append(f'<p class="meta">hoverfield {__version__} &middot; input <code>{esc(design.source)}</code>'
+             + (" &middot; <b>invented example</b>: the numbers are made up for demonstration" if design.invented else "")
+             + "</p>")
+    if design.description:
+        S.append(f"<p>{esc(design.description)}</p>")
+    stab = load("stability.json")
+    curves = load("curves.json")
+    coil = load("coil.json")
+    sens = load("sensors.json")
+    ctrl = load("control.json")
+
+    # ---- verdict first
+    v = ['<div class="verdict"><h2 style="margin-top:0;border:0">Verdict</h2>']
+    if stab:
+        v.append(f"<p>Operating point: {esc(stab['operating_point'])}.</p><ul>")
+        for i, m in enumerate(stab["modes"]):
+            v.append(f'<li class="{_mode_class(m)}" id="mode-{i}">{esc(m["text"])}</li>')
+        v.append("</ul>")
+        v.append(f"<p><b>Axes needing active control: {num(stab['unstable_count'], 'stability.json', 'unstable_count', digits=3)}</b>"
+                 f" of {len(stab['equilibrium']['free_axes'])} free axes.</p>")
+    else:
+        v.append("<p>No stability verdict: the stability stage did not complete (see below).</p>")
+    v.append("</div>")
+    S.append("".join(v))
+    if failed:
+        S.append('<div class="fail"><h3>What failed</h3><ul>' + "".join(
+            f"<li><b>{esc(k)}</b>: {esc(msg)}</li>" for k, msg in failed.items()) + "</ul>"
+                 "<p>Everything else in this report and its files was completed.</p></div>")
+    warnings = []
+    for src in (curves, coil, sens):
+        if src:
+            warnings += src.get("warnings", [])
+    if stab:
+        warnings += stab.get("notes", [])
+    if ctrl and ctrl.get("sensor_crosstalk_per_A"):
+        warnings.append(f"control: {ctrl['crosstalk_note']}")
+    if warnings:
+        S.append('<div class="warn"><h3>Warnings</h3><ul>' + "".join(f"<li>{esc(w)}</li>" for w in dict.fromkeys(warnings))
+                 + "</ul></div>")
+    S.append(SAFETY_HTML)
+
+    # ---- key numbers
+    rows = []
+    if curves:
+        rows.append(["floater mass", num(curves["mass_kg"], "curves.json", "mass_kg", "g", scale=1e3)])
+        rows.append(["floater weight", num(curves["weight_N"], "curves.json", "weight_N", "N")])
+        op = curves["at_operating_gap"]
+        rows.append(["operating gap", num(op["gap_m"], "curves.json", "at_operating_gap.gap_m", "mm", scale=1e3)])
+        rows.append(["hover current at the operating gap", num(op["hover_current_A"], "curves.json", "at_operating_gap.hover_current_A", "A")])
+        rows.append(["force per ampere k_i there", num(op["ki_N_per_A"], "curves.json", "at_operating_gap.ki_N_per_A", "N/A")])
+        rows.append(["axial stiffness k_z there (k = -dF/dz)", num(op["kz_at_hover_N_per_m"], "curves.json", "at_operating_gap.kz_at_hover_N_per_m", "N/m")])
+    if stab:
+        rows.append(["equilibrium gap (six-axis)", num(stab["equilibrium"]["gap_m"], "stability.json", "equilibrium.gap_m", "mm", scale=1e3)])
+    if ctrl:
+        rows.append([f"unstable pole ({esc(ctrl['axis'])})", num(ctrl["unstable_pole_rad_per_s"], "control.json", "unstable_pole_rad_per_s", "rad/s")])
+        rows.append(["minimum sample rate", num(ctrl["min_sample_rate_Hz"], "control.json", "min_sample_rate_Hz", "Hz")])
+    if coil:
+        for i, c in enumerate(coil["coils"]):
+            op = c["at_operating_point"]
+            rows.append([f"{esc(c['name'])}: power at the operating point",
+                         num(op["power_W"], "coil.json", f"coils[{i}].at_operating_point.power_W", "W")])
+            rows.append([f"{esc(c['name'])}: winding temperature there",
+                         num(op["temperature_C"], "coil.json", f"coils[{i}].at_operating_point.temperature_C", "C", digits=3)])
+            if "drive_headroom" in c:
+                rows.append([f"{esc(c['name'])}: supply needed (R I + L dI/dt)",
+                             num(c["drive_headroom"]["voltage_required_V"], "coil.json", f"coils[{i}].drive_headroom.voltage_required_V", "V")])
+    S.append("<h2>Key numbers</h2>" + table(["quantity", "value"], rows))
+    S.append("<h2>The design</h2>" + img(out / "design.png", "design drawn to scale"))
+
+    # ---- curves
+    if curves:
+        S.append("<h2>Axial force versus gap</h2>" + img(out / "curves.png", "force versus gap"))
+        eq_rows = [[num(e["current_A"], "curves.json", f"equilibria[{i}].current_A", "A"),
+                    num(e["gap_m"], "curves.json", f"equilibria[{i}].gap_m", "mm", scale=1e3),
+                    num(e["kz_N_per_m"], "curves.json", f"equilibria[{i}].kz_N_per_m", "N/m"), esc(e["label"])]
+                   for i, e in enumerate(curves["equilibria"])]
+        if eq_rows:
+            S.append("<h3>Equilibria (force = weight)</h3>" + table(["current", "gap", "k_z", "kind"], eq_rows, left_cols=0))
+        S.append('<p>Data: <code>curves.csv</code>, <code>kz_table.csv</code>, <code>curves.json</code>. The payload '
+                 'envelope (heaviest and lightest floater that can hover within the current limit) is in '
+                 '<code>curves.csv</code> (max_payload_kg, min_payload_kg).</p>')
+
+    # ---- stability
+    if stab:
+        S.append("<h2>Stability at the operating point</h2>")
+        axes = ["x", "y", "z", "rx", "ry", "rz"]
+        K = stab["stiffness_matrix"]
+        E = stab["stiffness_error"]
+        krows = [[esc(a)] + [num(K[i][j], "stability.json", f"stiffness_matrix[{i}][{j}]", digits=4) +
+                             f' <small>&plusmn;{num(E[i][j], "stability.json", f"stiffness_error[{i}][{j}]", digits=1)}</small>'
+                             for j in range(6)] for i, a in enumerate(axes)]
+        S.append("<p>Stiffness matrix K = -d(F, T)/d(x, y, z, rx, ry, rz) about the centre of mass "
+                 "(N/m, N/rad, N m/m, N m/rad), with the Richardson error bar of each entry. "
+                 f"{esc(stab['step_rule'])}.</p>" + table(["row"] + axes, krows))
+        S.append(f"<p>Earnshaw check: trace of the translational block "
+                 f"{num(stab['earnshaw_trace_N_per_m'], 'stability.json', 'earnshaw_trace_N_per_m', 'N/m')} "
+                 f"({num(stab['earnshaw_residual'], 'stability.json', 'earnshaw_residual', digits=2)} of the largest diagonal entry); "
+                 f"{esc(stab['earnshaw_note'])}.</p>")
+        if "allocation" in stab:
+            S.append(f"<p>Coils to force/torque: {esc(stab['allocation']['text'])} (<code>allocation.csv</code>).</p>")
+        S.append(img(out / "maps.png", "sideways and tilt maps") + img(out / "stiffness_vs_gap.png", "stiffness versus gap"))
+
+    # ---- coil
+    if coil:
+        S.append("<h2>Coil datasheet</h2>")
+        spec = [("turns", "turns", "", 1), ("bare wire diameter", "wire_diameter_m", "mm", 1e3),
+                ("copper fill factor", "copper_fill_factor", "", 1), ("wire length", "wire_length_m", "m", 1),
+                ("copper mass", "copper_mass_kg", "g", 1e3), ("resistance at 20 C", "resistance_20C_ohm", "ohm", 1),
+                ("self-inductance", "inductance_H", "mH", 1e3), ("L/R at 20 C", "time_constant_20C_s", "ms", 1e3),
+                ("current density at max current", "current_density_max_A_per_mm2", "A/mm^2", 1),
+                ("cooling surface", "surface_area_m2", "cm^2", 1e4),
+                ("convection coefficient", "convection_W_per_m2K", "W/m^2K", 1)]
+        hdr = ["quantity"] + [esc(c["name"]) for c in coil["coils"]]
+        crow = []
+        for label, key, unit, sc in spec:
+            crow.append([label] + [num(c.get(key), "coil.json", f"coils[{i}].{key}", unit, scale=sc) for i, c in enumerate(coil["coils"])])
+        crow.append(["dL/dgap"] + [esc(c["dL_dgap_note"]) for c in coil["coils"]])
+        S.append(table(hdr, crow) + "<p>Power and steady temperature at the hover current of every gap: "
+                 "<code>coil_heat.csv</code>. Copper data: IEC 60028. Thermal classes: IEC 60085.</p>")
+
+    # ---- sensors
+    if sens and sens.get("sensors"):
+        S.append("<h2>Sensors</h2>" + img(out / "sensors.png", "sensor curves"))
+        srows = []
+        for i, s in enumerate(sens["sensors"]):
+            if s["kind"] == "beam":
+                srows.append([esc(s["name"]), "optical beam gate",
+                              "gain " + num(s["gain_per_mm"], "sensors.json", f"sensors[{i}].gain_per_mm", "per mm"),
+                              num(s["linear_range_m"][0], "sensors.json", f"sensors[{i}].linear_range_m[0]", "", scale=1e3) + " .. "
+                              + num(s["linear_range_m"][1], "sensors.json", f"sensors[{i}].linear_range_m[1]", "mm", scale=1e3)])
+            else:
+                srows.append([esc(s["name"]), "Hall sensor",
+                              "sensitivity " + num(s["sensitivity_at_operating_T_per_m"], "sensors.json",
+                                                   f"sensors[{i}].sensitivity_at_operating_T_per_m", "mT/mm", scale=1.0),
+                              num(s["linear_range_m"][0], "sensors.json", f"sensors[{i}].linear_range_m[0]", "", scale=1e3) + " .. "
+                              + num(s["linear_range_m"][1], "sensors.json", f"sensors[{i}].linear_range_m[1]", "mm", scale=1e3)])
+        S.append(table(["sensor", "kind", "at the operating gap", "linear range"], srows, left_cols=2))
+        if "placement" in sens:
+            p = sens["placement"]["best_position_m"]
+            S.append(f"<p>Hall placement: best candidate at ({num(p[0], 'sensors.json', 'placement.best_position_m[0]', '', scale=1e3)}, "
+                     f"{num(p[1], 'sensors.json', 'placement.best_position_m[1]', '', scale=1e3)}, "
+                     f"{num(p[2], 'sensors.json', 'placement.best_position_m[2]', 'mm', scale=1e3)}) by the stated rule "
+                     "(widest linear range, then least cross-talk); all candidates in <code>placement.csv</code>.</p>")
+
+    # ---- control
+    if ctrl:
+        u = ctrl["sensor_unit"]
+        pd = ctrl["controller_pd"]
+        pid = ctrl["controller_pid"]
+        m = ctrl["margins_pd"]
+        S.append(f"<h2>Control model along {esc(ctrl['axis'])}</h2>")
+        S.append(f"<p>Plant (voltage drive, states s, v, I; output the {esc(ctrl['sensor'])} signal in {esc(u)}): "
+                 f"unstable pole {num(ctrl['unstable_pole_rad_per_s'], 'control.json', 'unstable_pole_rad_per_s', 'rad/s')} "
+                 f"(time constant {num(ctrl['unstable_time_constant_s'], 'control.json', 'unstable_time_constant_s', 'ms', scale=1e3)}), "
+                 f"electrical pole R/L {num(ctrl['electrical_pole_rad_per_s'], 'control.json', 'electrical_pole_rad_per_s', 'rad/s')}; "
+                 f"sample at least {num(ctrl['min_sample_rate_Hz'], 'control.json', 'min_sample_rate_Hz', 'Hz')}, "
+                 f"loop delay at most {num(ctrl['max_loop_delay_s'], 'control.json', 'max_loop_delay_s', 'ms', scale=1e3)}. "
+                 "State-space matrices and transfer function: <code>plant.json</code>.</p>")
+        S.append("<ul>" + "".join(f"<li>{esc(r)}</li>" for r in ctrl["rules"]) + "</ul>")
+        g_rows = []
+        for name, c, key in (("PD (lead)", pd, "controller_pd"), ("PID", pid, "controller_pid")):
+            g_rows.append([name, num(c["crossover_rad_per_s"], "control.json", f"{key}.crossover_rad_per_s", "rad/s"),
+                           num(c[f"kp_A_per_{u}"], "control.json", f"{key}.kp_A_per_{u}", f"A/{u}"),
+                           num(c[f"kd_A_s_per_{u}"], "control.json", f"{key}.kd_A_s_per_{u}", f"A s/{u}"),
+                           num(c[f"ki_A_per_{u}_s"], "control.json", f"{key}.ki_A_per_{u}_s", f"A/({u} s)"),
+                           num(c["derivative_filter_tau_s"], "control.json", f"{key}.derivative_filter_tau_s", "ms", scale=1e3)])
+        S.append("<h3>Controller starting point</h3>" + table(["design", "crossover", "Kp", "Kd", "Ki", "derivative filter"], g_rows)
+                 + f"<p>Discrete form at T = {num(ctrl['sample_time_s'], 'control.json', 'sample_time_s', 'ms', scale=1e3)}: "
+                 f"{esc(pd['discretisation'])}; coefficients in <code>control.json</code>. Voltage drive uses an analog current "
+                 f"loop of gain {num(pd['current_loop_gain_V_per_A'], 'control.json', 'controller_pd.current_loop_gain_V_per_A', 'V/A')}.</p>")
+        an = pd.get("analog")
+        if an:
+            S.append("<p>Analog build (IEC 60063 series): "
+                     f"R1 {num(an['R1_ohm'], 'control.json', 'controller_pd.analog.R1_ohm', 'ohm')}, "
+                     f"C1 {num(an['C1_F'], 'control.json', 'controller_pd.analog.C1_F', 'nF', scale=1e9)}, "
+                     f"R3 {num(an['R3_ohm'], 'control.json', 'controller_pd.analog.R3_ohm', 'ohm')}, "
+                     f"R2 {num(an['R2_ohm'], 'control.json', 'controller_pd.analog.R2_ohm', 'ohm')}; "
+                     f"{esc(an['circuit'])}.</p>")
+        else:
+            S.append("<p>No practical single op-amp lead network fits these numbers; build it digitally.</p>")
+        lo, hi = m["gain_interval"]
+        S.append("<h3>Margins (PD)</h3><p>The open loop is unstable, so the loop is stable only for a band of gains: "
+                 f"{num(lo, 'control.json', 'margins_pd.gain_interval[0]', digits=3)} to "
+                 f"{num(hi, 'control.json', 'margins_pd.gain_interval[1]', digits=3)} times the design gain. Phase margin "
+                 f"{num(m['phase_margin_deg'], 'control.json', 'margins_pd.phase_margin_deg', 'deg', digits=3)}; "
+                 f"counter-clockwise encirclements of -1: {num(m['encirclements_ccw'], 'control.json', 'margins_pd.encirclements_ccw', digits=3)} "
+                 f"(unstable open-loop poles: {num(m['open_loop_unstable_poles'], 'control.json', 'margins_pd.open_loop_unstable_poles', digits=3)}); "
+                 f"peak sensitivity {num(m['peak_sensitivity'], 'control.json', 'margins_pd.peak_sensitivity', digits=3)}.</p>")
+        S.append(f"<p>Pure proportional feedback: {esc(ctrl['proportional_only']['explanation'])}</p>")
+        S.append(img(out / "control_bode.png", "Bode plot") + img(out / "control_nyquist.png", "Nyquist plot")
+                 + img(out / "control_step.png", "nonlinear responses") + img(out / "capture.png", "capture range"))
+        cb = ctrl["capture"]["band_m"]
+        S.append(f"<p>Capture band (starting at rest): {num(cb[0], 'control.json', 'capture.band_m[0]', '', scale=1e3)} to "
+                 f"{num(cb[1], 'control.json', 'capture.band_m[1]', 'mm', scale=1e3)} from the equilibrium.</p>")
+        h = ctrl["hysteresis"]
+        hrows = [[num(b, "control.json", f"hysteresis.band_widths_m[{i}]", "mm", scale=1e3), esc(h["status"][i]),
+                  num(h["amplitude_m"][i], "control.json", f"hysteresis.amplitude_m[{i}]", "mm", scale=1e3),
+                  num(h["frequency_Hz"][i], "control.json", f"hysteresis.frequency_Hz[{i}]", "Hz"),
+                  num(h["mean_joule_power_W"][i], "control.json", f"hysteresis.mean_joule_power_W[{i}]", "W")]
+                 for i, b in enumerate(h["band_widths_m"])]
+        S.append("<h3>On/off control with a hysteresis band</h3>" + table(["band", "outcome", "amplitude", "frequency", "coil power"], hrows, left_cols=0)
+                 + f"<p>The linear PD controller over the same run: amplitude "
+                 f"{num(h['linear_amplitude_m'], 'control.json', 'hysteresis.linear_amplitude_m', 'mm', scale=1e3)}, coil power "
+                 f"{num(h['linear_mean_joule_power_W'], 'control.json', 'hysteresis.linear_mean_joule_power_W', 'W')}.</p>")
+
+    # ---- accuracy
+    acc = []
+    if curves:
+        acc.append(["force quadrature (two rule orders), largest over the gaps",
+                    num(curves["max_force_error_N"], "curves.json", "max_force_error_N", "N", digits=2)])
+    if stab:
+        emax = max(max(r) for r in stab["stiffness_error"])
+        acc.append(["stiffness error bar, largest entry (Richardson)", f'<span class="num">{emax:.2g}</span>'])
+    if coil:
+        for i, c in enumerate(coil["coils"]):
+            acc.append([f"{esc(c['name'])}: inductance quadrature", num(c["inductance_error_H"], "coil.json", f"coils[{i}].inductance_error_H", "H", digits=2)])
+    if acc:
+        S.append("<h2>Numerical accuracy</h2>" + table(["estimate", "value"], acc)
+                 + "<p>Iron cores use an iron-free approximation (a uniformly magnetized equivalent body with the "
+                 "published demagnetizing factor of its shape): treat results with cores as estimates, especially at gaps "
+                 "small compared with the core diameter or near saturation.</p>")
+
+    # ---- files and inputs
+    files = sorted(p.relative_to(out).as_posix() for p in out.rglob("*") if p.is_file() and p.name != "report.html")
+    S.append("<h2>Files</h2><ul>" + "".join(f"<li><code>{esc(f)}</code></li>" for f in files) + "</ul>")
+    if "check" in done:
+        S.append("<h2>Inputs (as read, with units)</h2><pre>" + esc("\n".join(done["check"]["lines"])) + "</pre>")
+    if geometry_text:
+        S.append("<h3>Geometry file</h3><pre>" + esc(geometry_text) + "</pre>")
+    return page(f"{design.name}: hoverfield report", S)
