@@ -231,7 +231,15 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
+def _terminate(signum, frame):  # pragma: no cover - exercised through a subprocess test
+    raise KeyboardInterrupt
+
+
 def main(argv: list[str] | None = None) -> int:
+    import signal
+
+    if argv is None:  # a real process: SIGTERM ends it like Ctrl-C, so atomic writes clean up
+        signal.signal(signal.SIGTERM, _terminate)
     parser = build_parser()
     args = parser.parse_args(argv)
     if not getattr(args, "command", None):

@@ -48,7 +48,7 @@ def num(value: Any, src: str, path: str, unit: str = "", digits: int = 4, scale:
         raw = repr(v)
     u = f" {html.escape(unit)}" if unit else ""
     return (f'<span class="num" data-src="{html.escape(src)}" data-path="{html.escape(path)}" '
-            f'data-value="{raw}" data-scale="{scale!r}">{shown}</span>{u}')
+            f'data-value="{raw}" data-scale="{scale!r}" data-digits="{digits}">{shown}</span>{u}')
 
 
 def img(path: Path, alt: str) -> str:

@@ -122,7 +122,7 @@ def run_stability(design: Design, out: Path, curves=None, with_maps: bool = True
         "equilibrium": {"gap_m": eq.gap_m, "position_m": eq.position_m, "rotvec_rad": eq.rotvec_rad,
                         "currents_A": eq.currents_A, "residual_force_N": eq.residual_force_N,
                         "residual_torque_Nm": eq.residual_torque_Nm, "free_axes": eq.free_axes},
-        "stiffness_matrix": S.K, "stiffness_error": S.error,
+        "stiffness_matrix": S.K, "stiffness_error": S.error, "stiffness_error_max": float(np.max(S.error)),
         "step_rule": f"central differences, steps {S.step_length_m:g} m and {S.step_angle_rad:g} rad, "
                      "Richardson extrapolation with h and 2h; error bar |R - D_h|",
         "modes": [{"name": m.name, "stable": m.stable, "stiffness": m.stiffness, "unit": m.unit,
