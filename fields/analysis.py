@@ -315,15 +315,15 @@ class Stiffness:
         return t, (abs(t) / s if s > 0 else 0.0)
 
 
-def stiffness_matrix(design: Design, position_m, rotvec_rad, currents_A=None,
-                     step_length_m: float = STEP_LENGTH_M, step_angle_rad: float = STEP_ANGLE_RAD) -> Stiffness:
-    """The 6x6 stiffness at one pose and coil currents, by central differences of the exact
-    force with Richardson extrapolation (steps h and 2h; the error bar is |R - D_h|).
+def stiffness_stencil(design: Design, position_m, rotvec_rad, step_length_m: float = STEP_LENGTH_M,
+                      step_angle_rad: float = STEP_ANGLE_RAD):
+    """The 25 poses of the stiffness stencil (steps +-h and +-2h on each of the six axes, then the
+    pose itself) and a function that turns the basis evaluated there into a :class:`Stiffness`.
 
-    Step rule: h = 1e-6 m for translations and 1e-4 rad for rotations by default (balances the
-    O(h^2) truncation of the central difference against rounding of order eps |F| / h).
+    Returns
+    -------
+    positions_m (25, 3), rotvecs_rad (25, 3), finish : callable(basis, currents_A) -> Stiffness
     """
-    I = np.zeros(len(design.coils)) if currents_A is None else np.asarray(currents_A, float)
     steps = np.array([step_length_m] * 3 + [step_angle_rad] * 3)
     dq = []
     for s in (1.0, 2.0):
@@ -333,23 +333,37 @@ def stiffness_matrix(design: Design, position_m, rotvec_rad, currents_A=None,
             dq.append(e)
             dq.append(-e)
     dq.append(np.zeros(6))
-    dq = np.array(dq)
-    P, Rv = displace(design, position_m, rotvec_rad, dq)
-    b = _basis(design, P, Rv)
-    F = b.force(I) if len(I) else b.F0_N
-    T = b.torque(I) if len(I) else b.T0_Nm
-    W = np.concatenate([F, T], axis=1)  # (25, 6)
-    D = np.zeros((2, 6, 6))
-    for si in range(2):
-        for j in range(6):
-            wp = W[si * 12 + 2 * j]
-            wm = W[si * 12 + 2 * j + 1]
-            D[si, :, j] = -(wp - wm) / (2 * (si + 1) * steps[j])
-    R = (4 * D[0] - D[1]) / 3
-    err = np.abs(R - D[0])
-    return Stiffness(K=R, error=err, force_N=F[-1], torque_Nm=T[-1], position_m=np.asarray(position_m, float),
-                     rotvec_rad=np.asarray(rotvec_rad, float), currents_A=I, step_length_m=step_length_m,
-                     step_angle_rad=step_angle_rad)
+    P, Rv = displace(design, position_m, rotvec_rad, np.array(dq))
+
+    def finish(b, currents_A) -> Stiffness:
+        I = np.asarray(currents_A, float)
+        F = b.force(I) if len(I) else b.F0_N
+        T = b.torque(I) if len(I) else b.T0_Nm
+        W = np.concatenate([F, T], axis=1)  # (25, 6)
+        D = np.zeros((2, 6, 6))
+        for si in range(2):
+            for j in range(6):
+                D[si, :, j] = -(W[si * 12 + 2 * j] - W[si * 12 + 2 * j + 1]) / (2 * (si + 1) * steps[j])
+        R = (4 * D[0] - D[1]) / 3
+        return Stiffness(K=R, error=np.abs(R - D[0]), force_N=F[-1], torque_Nm=T[-1],
+                         position_m=np.asarray(position_m, float), rotvec_rad=np.asarray(rotvec_rad, float),
+                         currents_A=I, step_length_m=step_length_m, step_angle_rad=step_angle_rad)
+
+    return P, Rv, finish
+
+
+def stiffness_matrix(design: Design, position_m, rotvec_rad, currents_A=None,
+                     step_length_m: float = STEP_LENGTH_M, step_angle_rad: float = STEP_ANGLE_RAD) -> Stiffness:
+    """The 6x6 stiffness at one pose and coil currents, by central differences of the exact
+    force with Richardson extrapolation (steps h and 2h; the error bar is |R - D_h|).
+
+    Step rule: h = 1e-6 m for translations and 1e-4 rad for rotations by default (balances the
+    O(h^2) truncation of the central difference against rounding of order eps |F| / h).
+    All 25 poses go through one batched force evaluation.
+    """
+    I = np.zeros(len(design.coils)) if currents_A is None else np.asarray(currents_A, float)
+    P, Rv, finish = stiffness_stencil(design, position_m, rotvec_rad, step_length_m, step_angle_rad)
+    return finish(_basis(design, P, Rv), I)
 
 
 # ---------------------------------------------------------------------------------------------

@@ -203,6 +203,21 @@ def cmd_report(args) -> int:
     return 1 if s["stages_failed"] else 0
 
 
+def cmd_sweep(args) -> int:
+    from .sweep import sweep_command
+
+    out = Path(args.out) if args.out else None
+    if out is None:
+        from .geometry import load as _ld
+
+        out = Path("out") / _ld(args.file).name / "sweep"
+    s = sweep_command(args.file, args.sweep, out, workers=args.workers, scheduler_address=args.scheduler,
+                      progress=not args.quiet)
+    for ln in s["lines"]:
+        print(ln)
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="hoverfield",
@@ -226,6 +241,16 @@ def build_parser() -> argparse.ArgumentParser:
     sp = add("stability", cmd_stability, "equilibrium, 6x6 stiffness, stability verdict, sideways and tilt maps")
     sp.add_argument("--no-maps", action="store_true", help="skip the maps (faster)")
     add("coil", cmd_coil, "coil datasheet: winding, resistance, inductance, heat at the hover current, drive headroom")
+    sp = sub.add_parser("sweep", help="vary a design over a grid or sample, rank designs, find the trade-off front",
+                        description="vary a design over a grid or sample, rank designs, find the trade-off front; "
+                                    "resumable (finished chunks are kept in OUT/sweep_chunks)")
+    sp.add_argument("file", help="base geometry file (TOML)")
+    sp.add_argument("sweep", help="sweep description file (TOML)")
+    sp.add_argument("-o", "--out", help="output folder (default: out/<design-name>/sweep/)")
+    sp.add_argument("--workers", type=int, default=None, help="local worker processes (default: all cores)")
+    sp.add_argument("--scheduler", default=None, help="address of a Dask scheduler, e.g. tcp://127.0.0.1:8786")
+    sp.add_argument("-q", "--quiet", action="store_true", help="no progress bar")
+    sp.set_defaults(func=cmd_sweep)
     add("control", cmd_control, "linear plant, controller starting point, margins, simulations, capture range, on/off study")
     add("sensors", cmd_sensors, "beam-gate and Hall sensor curves, cross-talk, placement table, inverse tables")
     return p

@@ -51,6 +51,7 @@ away otherwise (reported, temperature ``inf``).
 
 from __future__ import annotations
 
+import math
 from dataclasses import asdict, dataclass, field
 
 import numpy as np
@@ -958,3 +959,31 @@ def drive_headroom(coil_data: CoilData, hover_current_A: float, force_per_ampere
         linear_driver_dissipation_W=float(diss), coil_power_W=R * I * I, resistance_ohm=R, inductance_H=L,
         correction_displacement_m=x0, rate_note=note, warnings=tuple(warnings),
     )
+
+
+def resistance_and_cooling(design: Design, coil_index: int) -> tuple[float, float]:
+    """Resistance at 20 C (ohm) and convective conductance h A (W/K) of one coil.
+
+    The same lumped model as :func:`coil_datasheet`, without its inductance work
+    (which costs most of its time and a sweep does not need): ``R20 = rho20 N pi (a + b) /
+    (pi d^2 / 4)`` with copper's resistivity from IEC 60028 (:mod:`fields.tables`), the bare wire
+    diameter ``d`` given or inferred from the turns at the copper fill; cooling over the outer
+    cylinder, both end annuli and the bore unless a core fills it.
+
+    Returns
+    -------
+    resistance_20C_ohm, conductance_W_per_K : float
+    """
+    c = design.coils[coil_index]
+    a, b, h, N = float(c.inner_radius_m), float(c.outer_radius_m), float(c.height_m), float(c.turns)
+    if c.wire_diameter_m is not None:
+        d = float(c.wire_diameter_m)
+    else:
+        fill = float(c.fill_factor) if c.fill_factor else DEFAULT_FILL_FACTOR
+        d = math.sqrt(4.0 * fill * (b - a) * h / (math.pi * N))
+    length = N * math.pi * (a + b)
+    R20 = tables.COPPER_RESISTIVITY_20C_OHM_M * length / (math.pi * d * d / 4.0)
+    S = 2.0 * math.pi * b * h + 2.0 * math.pi * (b * b - a * a)
+    if not any(_core_in_bore(c, core) for core in design.cores):
+        S += 2.0 * math.pi * a * h
+    return R20, float(design.study.convection_W_per_m2K) * S

@@ -36,8 +36,8 @@ from scipy.spatial.transform import Rotation
 
 from fields.errors import GeometryError
 from fields.model import Design, Floater, Magnet, rotation_matrix
-from fields.sources import (CEL_CHUNK, CHUNK, _clip, axial_disc_flux_Wb, axial_sheets, core_models, fixed_field_basis,
-                            gauss_legendre)
+from fields.sources import (CEL_CHUNK, CHUNK, AxialSheets, _clip, axial_disc_flux_Wb, axial_sheets, core_models,
+                            fixed_field_basis, gauss_legendre)
 
 #: rule levels: coil layers, radial nodes, angular nodes, axial/edge nodes, triangle subdivisions
 LEVELS: dict[str, dict[str, int]] = {
@@ -498,8 +498,6 @@ def _raw_axis(design: Design, P, levels: tuple[str, ...], currents_A=None):
     allsheets = parts + [mags]
     cat = [np.concatenate([getattr(sh, f) for sh in allsheets]) for f in
            ("radius_m", "half_height_m", "centre_z_m", "J_T", "coil_index")]
-    from fields.sources import AxialSheets
-
     sheets = AxialSheets(*cat)
     bounds = np.cumsum([0] + [sh.radius_m.size for sh in allsheets])
     Fs = np.zeros((n, bounds[-1]))

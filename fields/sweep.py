@@ -106,74 +106,18 @@ MAX_DESIGNS = 1_000_000
 # ============================================================================== one design
 
 
-def coil_resistance_and_cooling(design: Design, coil_index: int) -> tuple[float, float]:
-    """Resistance at 20 C (ohm) and convective conductance h A (W/K) of one coil.
-
-    The same lumped model as :func:`fields.coil.coil_datasheet`, without its inductance work
-    (which costs most of its time and a sweep does not need): ``R20 = rho20 N pi (a + b) /
-    (pi d^2 / 4)`` with copper's resistivity from IEC 60028 (:mod:`fields.tables`), the bare wire
-    diameter ``d`` given or inferred from the turns at the copper fill; cooling over the outer
-    cylinder, both end annuli and the bore unless a core fills it.
-
-    Returns
-    -------
-    resistance_20C_ohm, conductance_W_per_K : float
-    """
-    from . import coil as coilmod
-    from . import tables
-
-    c = design.coils[coil_index]
-    a, b, h, N = float(c.inner_radius_m), float(c.outer_radius_m), float(c.height_m), float(c.turns)
-    if c.wire_diameter_m is not None:
-        d = float(c.wire_diameter_m)
-    else:
-        fill = float(c.fill_factor) if c.fill_factor else coilmod.DEFAULT_FILL_FACTOR
-        d = math.sqrt(4.0 * fill * (b - a) * h / (math.pi * N))
-    length = N * math.pi * (a + b)
-    R20 = tables.COPPER_RESISTIVITY_20C_OHM_M * length / (math.pi * d * d / 4.0)
-    S = 2.0 * math.pi * b * h + 2.0 * math.pi * (b * b - a * a)
-    if not any(coilmod._core_in_bore(c, core) for core in design.cores):
-        S += 2.0 * math.pi * a * h
-    return R20, float(design.study.convection_W_per_m2K) * S
-
-
 def _stiffness_and_basis(design: Design, position_m, rotvec_rad):
-    """The 25 poses of :func:`fields.analysis.stiffness_matrix` in one force-basis call.
+    """The stiffness stencil of :func:`fields.analysis.stiffness_matrix` in one force-basis call.
 
     Returns the basis (whose last pose is the unperturbed one) and a function currents -> the
-    :class:`fields.analysis.Stiffness` exactly as ``stiffness_matrix`` computes it (same steps,
-    same Richardson rule), so one call serves the hover current, k_i and the 6x6 stiffness.
+    :class:`fields.analysis.Stiffness`, so one call serves the hover current, k_i and the 6x6.
     """
     from . import analysis
     from .forces import wrench_basis
 
-    steps = np.array([analysis.STEP_LENGTH_M] * 3 + [analysis.STEP_ANGLE_RAD] * 3)
-    dq = []
-    for s in (1.0, 2.0):
-        for j in range(6):
-            e = np.zeros(6)
-            e[j] = s * steps[j]
-            dq += [e, -e]
-    dq.append(np.zeros(6))
-    P, Rv = analysis.displace(design, position_m, rotvec_rad, np.array(dq))
+    P, Rv, finish = analysis.stiffness_stencil(design, position_m, rotvec_rad)
     b = wrench_basis(design, P, Rv)
-
-    def stiffness(currents_A):
-        I = np.asarray(currents_A, float)
-        F = b.force(I) if len(I) else b.F0_N
-        T = b.torque(I) if len(I) else b.T0_Nm
-        W = np.concatenate([F, T], axis=1)
-        D = np.zeros((2, 6, 6))
-        for si in range(2):
-            for j in range(6):
-                D[si, :, j] = -(W[si * 12 + 2 * j] - W[si * 12 + 2 * j + 1]) / (2 * (si + 1) * steps[j])
-        R = (4 * D[0] - D[1]) / 3
-        return analysis.Stiffness(K=R, error=np.abs(R - D[0]), force_N=F[-1], torque_Nm=T[-1],
-                                  position_m=np.asarray(position_m, float), rotvec_rad=np.asarray(rotvec_rad, float),
-                                  currents_A=I, step_length_m=analysis.STEP_LENGTH_M,
-                                  step_angle_rad=analysis.STEP_ANGLE_RAD)
-
-    return b, stiffness
+    return b, (lambda currents_A: finish(b, currents_A))
 
 
 def evaluate_design(design: Design) -> dict:
@@ -209,6 +153,7 @@ def evaluate_design(design: Design) -> dict:
       operating gap, as in :func:`fields.analysis.axial_curves`.
     """
     from . import analysis
+    from . import coil as coilmod
     from .coil import DEFAULT_INSULATION_CLASS_C, steady_temperature_C
     from .tables import COPPER_ALPHA_20C_PER_K
 
@@ -287,7 +232,7 @@ def evaluate_design(design: Design) -> dict:
     R_sum = P_sum = 0.0
     T_hot, rise, too_hot = -math.inf, -math.inf, False
     for i, c in enumerate(design.coils):
-        R20, G = coil_resistance_and_cooling(design, i)
+        R20, G = coilmod.resistance_and_cooling(design, i)
         Ii = I_drive * d[i] if math.isfinite(I_drive) else math.nan
         T, run = steady_temperature_C([Ii], R20, G, float(st.ambient_temperature_C))
         T = float(T[0])
@@ -1335,7 +1280,7 @@ def _finish(spec: SweepSpec, out: Path, full, table: list[dict], evaluated: int,
     files["front.csv"] = str(write_atomic(out / "front.csv", csv_text(cols, [row_vals(table[i]) for i in front], head + [
         "# Pareto front (non-dominated feasible designs) over " + ", ".join(spec.pareto)])))
     # plots
-    from . import plots_sweep
+    from . import plots as plots_sweep
 
     if len(fidx):
         pf = plots_sweep.front_scatter(V[fidx][:, [names.index(c) for c in spec.pareto]] if spec.pareto else V[fidx][:, :1],
