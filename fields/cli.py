@@ -218,6 +218,19 @@ def cmd_sweep(args) -> int:
     return 0
 
 
+def cmd_figures(args) -> int:
+    import tempfile
+
+    from .runs import make_figures
+
+    with tempfile.TemporaryDirectory() as tmp:
+        files = make_figures(Path(args.out), Path(tmp), progress=not args.quiet)
+    print("wrote " + ", ".join(files))
+    if not any(f.endswith("report_screenshot.png") for f in files):
+        print("note: no report screenshot (Chromium not found; install Debian's 'chromium')")
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="hoverfield",
@@ -251,6 +264,11 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--scheduler", default=None, help="address of a Dask scheduler, e.g. tcp://127.0.0.1:8786")
     sp.add_argument("-q", "--quiet", action="store_true", help="no progress bar")
     sp.set_defaults(func=cmd_sweep)
+    sp = sub.add_parser("figures", help="remake the README's pictures from the example designs",
+                        description="remake the README's pictures (figures/) from the example designs")
+    sp.add_argument("-o", "--out", default="figures", help="folder for the pictures (default: figures)")
+    sp.add_argument("-q", "--quiet", action="store_true", help="no progress bar")
+    sp.set_defaults(func=cmd_figures)
     add("control", cmd_control, "linear plant, controller starting point, margins, simulations, capture range, on/off study")
     add("sensors", cmd_sensors, "beam-gate and Hall sensor curves, cross-talk, placement table, inverse tables")
     return p

@@ -441,3 +441,27 @@ def objectives_vs_parameters(parameters: dict, objectives: dict, feasible, front
     fig.suptitle(title or "objectives versus parameters", fontsize=11)
     fig.tight_layout()
     return fig
+
+
+def offset_tilt_curves(lateral_map, tilt_map, gap_m: float, title: str = ""):
+    """1-D cuts of the maps at one gap: sideways force versus offset, tilt torque versus tilt."""
+    fig, (a1, a2) = plt.subplots(1, 2, figsize=(11, 4))
+    for ax, mp in ((a1, lateral_map), (a2, tilt_map)):
+        i = int(np.argmin(np.abs(mp.gaps_m - gap_m)))
+        ok = ~mp.contact[i]
+        if mp.kind == "lateral":
+            x, y = mp.coordinate * 1e3, mp.force_N[i, :, 0] * 1e3
+            ax.set_xlabel("sideways offset x (mm)")
+            ax.set_ylabel("sideways force F_x (mN)")
+        else:
+            x, y = np.degrees(mp.coordinate), mp.torque_Nm[i, :, 1] * 1e3
+            ax.set_xlabel("tilt about y (deg)")
+            ax.set_ylabel("tilt torque T_y about the centre of mass (mN m)")
+        ax.plot(x[ok], y[ok], "o-", ms=3, color="#1f4e9c")
+        ax.axhline(0, color="k", lw=0.8)
+        ax.axvline(0, color="k", lw=0.8)
+        ax.grid(True, alpha=0.3)
+        ax.set_title(f"at gap {mp.gaps_m[i] * 1e3:.3g} mm: a falling line restores", fontsize=9)
+    fig.suptitle(title or "sideways force and tilt torque", fontsize=11)
+    fig.tight_layout()
+    return fig

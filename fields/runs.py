@@ -162,9 +162,13 @@ def run_stability(design: Design, out: Path, curves=None, with_maps: bool = True
         fig = plots.stiffness_vs_gap(gs, title=f"{design.name}: stiffness versus gap at the hover current")
         write_png(out / "stiffness_vs_gap.png", fig)
         _close(fig)
+        fig = plots.offset_tilt_curves(lat, tilt, eq.gap_m, title=f"{design.name}: sideways and tilt cuts near the equilibrium gap")
+        write_png(out / "offset_tilt_curves.png", fig)
+        _close(fig)
         summary["passively_centred_fraction_lateral"] = float(lat.passively_centred.mean())
         summary["passively_centred_fraction_tilt"] = float(tilt.passively_centred.mean())
-        files += ["map_lateral.csv", "map_tilt.csv", "stiffness_vs_gap.csv", "maps.png", "stiffness_vs_gap.png"]
+        files += ["map_lateral.csv", "map_tilt.csv", "stiffness_vs_gap.csv", "maps.png", "stiffness_vs_gap.png",
+                  "offset_tilt_curves.png"]
         summary["_maps"] = (lat, tilt, gs)
     summary["files"] = _files(out, *files)
     write_json(out / "stability.json", {k: v for k, v in summary.items() if not k.startswith("_")})
@@ -414,6 +418,25 @@ def _axis_sensor(design: Design, eq, ax, s_grid, poses, I0):
     return "ideal position sensor", Sensor(lambda s, i: np.asarray(s, float), (-np.inf, np.inf), "m"), 1.0, 0.0, "m"
 
 
+def _write_plant_csv(path: Path, design: Design, raw_plant, plant) -> None:
+    """State-space matrices and transfer-function coefficients, one matrix entry per row."""
+    rows = []
+    for label, pl in (("as_wired", raw_plant), ("crosstalk_compensated", plant)):
+        A, B, C, D = (np.atleast_2d(np.asarray(m, float)) for m in (pl.ss.A, pl.ss.B, pl.ss.C, pl.ss.D))
+        for name, M in (("A", A), ("B", B), ("C", C), ("D", D)):
+            for i in range(M.shape[0]):
+                for j in range(M.shape[1]):
+                    rows.append([label, name, i, j, M[i, j]])
+        for k, v in enumerate(np.atleast_1d(pl.numerator)):
+            rows.append([label, "tf_numerator", k, 0, v])
+        for k, v in enumerate(np.atleast_1d(pl.denominator)):
+            rows.append([label, "tf_denominator", k, 0, v])
+    states = ", ".join(plant.state_names)
+    write_csv(path, ["variant", "matrix", "row", "col", "value_SI"], rows,
+              header_lines(design.name, f"linear plant, states ({states}) in SI units, input {plant.input_name}, "
+                                        f"output {plant.output_name}; tf coefficients in descending powers of s"))
+
+
 def _nice_sample_time(min_rate_Hz: float) -> float:
     for f in (500.0, 1e3, 2e3, 5e3, 1e4, 2e4, 5e4, 1e5):
         if f >= 2.0 * min_rate_Hz:
@@ -492,6 +515,7 @@ def run_control(design: Design, out: Path, stability=None, coil=None) -> dict:
                                     "crosstalk_compensated": plant.to_dict(),
                                     "note": "as_wired: the sensor reading includes the coil's own field (cross-talk); "
                                             "crosstalk_compensated: the reading minus c I, which the controller assumes"})
+    _write_plant_csv(out / "plant.csv", design, raw_plant, plant)
     summary = {
         "axis": ax.name, "pattern": p, "sensor": sen_name, "sensor_gain_per_m": gs, "sensor_crosstalk_per_A": gi,
         "crosstalk_note": ("the controller assumes the coil's share of the reading (c I) is subtracted first"
@@ -527,7 +551,7 @@ def run_control(design: Design, out: Path, stability=None, coil=None) -> dict:
                       ("capture.png", plots.capture_map(cap, s0, v0, title=f"{design.name}: capture range (PD)"))):
         write_png(out / name, fig)
         _close(fig)
-    summary["files"] = _files(out, "control.json", "plant.json", "capture.csv", "hysteresis.csv",
+    summary["files"] = _files(out, "control.json", "plant.json", "plant.csv", "capture.csv", "hysteresis.csv",
                               *[f"sim_{k}.csv" for k in sims], "control_bode.png", "control_nyquist.png",
                               "control_step.png", "capture.png")
     summary["_plant"], summary["_pd"], summary["_pid"], summary["_margins"] = plant, pd, pid, m_pd
@@ -673,3 +697,51 @@ def run_report(design: Design, out: Path, progress: bool = True, geometry_text: 
     write_json(out / "run_status.json", status)
     status["_done"] = done
     return status
+
+
+# ---------------------------------------------------------------------------------------------
+# the README's pictures
+
+
+def make_figures(out_dir: Path, work_dir: Path, progress: bool = False) -> list[str]:
+    """Run the report on both examples and collect the README's pictures into ``out_dir``:
+    the suspension example's drawing, curve family, maps and control pictures, the repulsive
+    base's maps, and a screenshot of the suspension report (needs Chromium; skipped with a note
+    when absent)."""
+    import shutil
+    import subprocess
+
+    from .geometry import load
+
+    root = Path(__file__).resolve().parent.parent
+    out_dir = Path(out_dir)
+    out_dir.mkdir(parents=True, exist_ok=True)
+    written = []
+    picks = {
+        "suspension.toml": [("design.png", "suspension_design.png"), ("curves.png", "suspension_curves.png"),
+                            ("maps.png", "suspension_maps.png"), ("control_step.png", "suspension_control_step.png"),
+                            ("capture.png", "suspension_capture.png")],
+        "repulsive_base.toml": [("design.png", "repulsive_design.png"), ("maps.png", "repulsive_maps.png"),
+                                ("curves.png", "repulsive_curves.png")],
+    }
+    for name, files in picks.items():
+        d = load(root / "geometries" / name)
+        o = Path(work_dir) / d.name
+        run_report(d, o, progress=progress, geometry_text=(root / "geometries" / name).read_text(encoding="utf-8"))
+        for src, dst in files:
+            if (o / src).is_file():
+                write_atomic(out_dir / dst, (o / src).read_bytes())
+                written.append(str(out_dir / dst))
+    browser = shutil.which("chromium") or shutil.which("chromium-browser")
+    if browser:
+        shot = Path(work_dir) / "report_screenshot.png"
+        report = Path(work_dir) / "suspension-demo" / "report.html"
+        subprocess.run([browser, "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+                        "--disable-background-networking", "--disable-component-update", "--disable-sync",
+                        f"--user-data-dir={Path(work_dir) / 'browser-profile'}", "--hide-scrollbars",
+                        "--window-size=1100,1500", f"--screenshot={shot}", report.as_uri()],
+                       capture_output=True, timeout=120, check=False)
+        if shot.is_file():
+            write_atomic(out_dir / "report_screenshot.png", shot.read_bytes())
+            written.append(str(out_dir / "report_screenshot.png"))
+    return written

@@ -51,9 +51,9 @@ def test_suspension_numbers():
     assert c.wire_diameter_m == pytest.approx(0.4049e-3, rel=1e-3)
     # turns from the copper fill factor: N = fill (b - a) h / (pi d^2 / 4)
     assert c.turns == round(0.6 * 0.015 * 0.030 / (math.pi * c.wire_diameter_m**2 / 4))
-    # payload 4 g at -8 mm, magnet 12.7 x 6.35 mm N42 at the origin: centre of mass by moments
+    # payload 30 g at -12 mm, magnet 12.7 x 6.35 mm N42 at the origin: centre of mass by moments
     m_mag = math.pi * 0.00635**2 * 0.00635 * 7500
-    assert d.floater.centre_of_mass_m[2] == pytest.approx(-0.008 * 0.004 / (m_mag + 0.004))
+    assert d.floater.centre_of_mass_m[2] == pytest.approx(-0.012 * 0.030 / (m_mag + 0.030))
 
 
 ERROR_CASES = [
