@@ -722,6 +722,9 @@ def stiffness_versus_gap(design: Design, gaps_m=None, currents_A=None, at_hover:
     kdiag = np.zeros((len(gaps), 5))
     for jj, j in enumerate(axes):
         kdiag[:, jj] = -(W[:, 2 * jj, j] - W[:, 2 * jj + 1, j]) / (2 * steps[j])
+    # gaps where any stencil pose touches a body have no stiffness
+    touching = np.asarray(b.contact).reshape(len(gaps), m).any(axis=1)
+    kdiag[touching] = np.nan
     return GapStiffness(gaps_m=gaps, currents_A=Ik, k_lateral_N_per_m=0.5 * (kdiag[:, 0] + kdiag[:, 1]),
                         k_vertical_N_per_m=kdiag[:, 2], k_tilt_Nm_per_rad=0.5 * (kdiag[:, 3] + kdiag[:, 4]))
 

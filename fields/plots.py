@@ -110,7 +110,8 @@ def curve_family(curves, equilibria=(), title: str = ""):
     ax2.legend(fontsize=7.5)
     fin = ih[np.isfinite(ih)]
     if fin.size:
-        m = max(np.max(np.abs(fin)), curves.max_current_A)
+        # show the current limit clearly: at most three times the limit
+        m = min(max(np.max(np.abs(fin)), curves.max_current_A), 3 * curves.max_current_A)
         ax2.set_ylim(-1.3 * m, 1.3 * m) if np.min(fin) < 0 else ax2.set_ylim(-0.1 * m, 1.3 * m)
     fig.tight_layout()
     return fig
@@ -183,23 +184,24 @@ def stiffness_vs_gap(gs, title: str = ""):
 
 def sensor_curves(design, beams, halls, placement=None):
     """Beam-gate blocked fraction and Hall readings versus gap; placement panel when given."""
-    n = 1 + (1 if halls else 0) + (1 if placement is not None else 0)
-    fig, axes = plt.subplots(n, 1, figsize=(8, 3.2 * n + 0.6))
-    axes = np.atleast_1d(axes)
-    ax = axes[0]
+    n = (1 if beams else 0) + (1 if halls else 0) + (1 if placement is not None else 0)
+    fig, axes = plt.subplots(max(n, 1), 1, figsize=(8, 3.2 * max(n, 1) + 0.6))
+    axes = list(np.atleast_1d(axes))
     gop = design.study.operating_gap_m * 1e3
+    if not beams:
+        axes.insert(0, None)
+    ax = axes[0]
     for b in beams:
         ax.plot(b.gaps_m * 1e3, b.blocked_fraction, lw=1.6, label=f"{b.name}: blocked fraction")
         lo, hi = b.linear_range_m
         ax.axvspan(lo * 1e3, hi * 1e3, color="#2e9e5b", alpha=0.15, label=f"{b.name}: linear range")
         ax.text(0.01, 0.04, f"gain {b.gain_per_mm:.3g} per mm at the operating gap", transform=ax.transAxes, fontsize=8)
-    ax.axvline(gop, color="k", ls=":", lw=1, label="operating gap")
-    ax.set_ylabel("beam blocked (fraction)")
-    ax.set_xlabel("gap (mm)")
-    ax.grid(True, alpha=0.3)
-    ax.legend(fontsize=7.5)
-    if not beams:
-        ax.text(0.5, 0.5, "no optical beam gate in this design", ha="center", transform=ax.transAxes)
+    if beams:
+        ax.axvline(gop, color="k", ls=":", lw=1, label="operating gap")
+        ax.set_ylabel("beam blocked (fraction)")
+        ax.set_xlabel("gap (mm)")
+        ax.grid(True, alpha=0.3)
+        ax.legend(fontsize=7.5)
     i = 1
     if halls:
         ax = axes[i]

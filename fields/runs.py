@@ -233,7 +233,7 @@ def run_coil(design: Design, out: Path, curves=None, stability=None) -> dict:
         sheets.append(d)
         warnings += [w if w.startswith("coil ") else f"coil {coil.name}: {w}" for w in cd.warnings]
     summary = {"coils": sheets, "inductance_matrix_H": Lmat, "control_axis": ax.name,
-               "control_pattern": ax.pattern, "warnings": _unique(warnings),
+               "control_pattern": ax.pattern, "warnings": _group_coil_warnings(_unique(warnings), design),
                "files": _files(out, "coil.json", "coil_heat.csv")}
     rows = []
     for i, g in enumerate(c.gaps_m):
@@ -247,6 +247,34 @@ def run_coil(design: Design, out: Path, curves=None, stability=None) -> dict:
     write_csv(out / "coil_heat.csv", cols, rows, header_lines(design.name, "coil power and steady temperature at the hover current of each gap"))
     write_json(out / "coil.json", summary)
     return summary
+
+
+def _group_coil_warnings(warnings: list[str], design: Design) -> list[str]:
+    """Merge warnings that differ only in the coil's name ("coils a, b: ...")."""
+    groups: dict[str, list[str]] = {}
+    order = []
+    for w in warnings:
+        key, who = w, None
+        for c in design.coils:
+            tag = f"coil {c.name}: "
+            if w.startswith(tag):
+                key, who = w[len(tag):].replace(f"coil {c.name}", "the coil"), c.name
+                break
+        if key not in groups:
+            groups[key] = []
+            order.append(key)
+        if who is not None:
+            groups[key].append(who)
+    out = []
+    for key in order:
+        names = groups[key]
+        if not names:
+            out.append(key)
+        elif len(names) == 1:
+            out.append(f"coil {names[0]}: {key}")
+        else:
+            out.append("coils " + ", ".join(f"'{n}'" for n in names) + f": {key}")
+    return out
 
 
 def _unique(items):

@@ -62,6 +62,26 @@ class UnitParseError(ValueError):
 
 
 def parse(value: object, kind: str) -> float:
+    """Parse a quantity string such as ``"12.7 mm"`` and return it in SI units (cached).
+
+    See :func:`_parse` for the rules.
+
+    Examples
+    --------
+    >>> parse("0.5 in", "length")
+    0.0127
+    """
+    if isinstance(value, str):
+        return _parse_cached(value, kind)
+    return _parse(value, kind)
+
+
+@functools.lru_cache(maxsize=4096)
+def _parse_cached(value: str, kind: str) -> float:
+    return _parse(value, kind)
+
+
+def _parse(value: object, kind: str) -> float:
     """Parse a quantity string such as ``"12.7 mm"`` and return it in SI units.
 
     Parameters
