@@ -14,7 +14,7 @@ Measured in the same run:
   extrapolated per design; and extrapolated again to the 25 poses the full 6x6 stiffness needs.
   It leaves out the iron core (magpylib has no soft iron), so it is optimistic for that route.
 
-Run: ``/tmp/hfenv/bin/python benchmarks/bench_sweep.py`` (about 2 minutes on 2 cores; add
+Run: ``python benchmarks/bench_sweep.py`` (about 2 minutes on 2 cores; add
 ``--quick`` to skip the 1000-design run). Prints a markdown table.
 """
 
@@ -147,7 +147,7 @@ def main(argv: list[str]) -> int:
           f"{1000 * t_kz:.0f} | {1 / t_kz:.2f} | - |")
     print(f"| naive magpylib route, full 6x6 (25 poses), extrapolated | 1 | 1000 (extrapolated) | "
           f"{1000 * t_full:.0f} | {1 / t_full:.2f} | - |")
-    print("\nReproduce: /tmp/hfenv/bin/python benchmarks/bench_sweep.py" + (" --quick" if quick else ""))
+    print("\nReproduce: python benchmarks/bench_sweep.py" + (" --quick" if quick else ""))
     return 0
 
 

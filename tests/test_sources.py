@@ -322,3 +322,26 @@ def test_axial_sheets_of_magnets_and_coils_give_their_flux():
             assert coil_f[i, jd] == pytest.approx(ref, rel=1e-10)
     with pytest.raises(GeometryError, match="axial_sheets: design.cores must be empty"):
         axial_sheets(_design([coil], [], [Core("k", "cylinder", (0.01, 0.02), (0, 0, 0), (0, 0, 1), 100.0, 1.5)]))
+
+
+def test_coil_layers_just_below_the_winding_face_match_montgomery():
+    """Observers 0.2 mm and 0.05 mm below a thin-bore winding's end face, on its axis: the
+    observer-graded layers (sinh transformation, Johnston and Elliott 2005) reach the closed form
+    (Montgomery 1969, above) with 10 layers, where plain Gauss layers need many more."""
+    a, b, h, N = 0.0005, 0.022, 0.03, 2100
+    coil = Coil("c", a, b, h, N, (0.0, 0.0, 0.0), (0.0, 0.0, 1.0), 0.5, 1.0)
+    z = -h / 2 - np.array([0.0002, 0.00005])
+    pts = np.column_stack((np.zeros(2), np.zeros(2), z))
+    ref = thick_coil_axis_Bz(a, b, h, N, z)
+    Bz = coil_field_per_ampere_T(coil, pts, layers=10)[:, 2]
+    np.testing.assert_allclose(Bz, ref, rtol=1e-9)
+    # the plain Gauss rule (an observer just outside the graded zone) is the slow one
+    import fields.sources as fs
+
+    old = fs.LAYER_GRADE_WITHIN
+    fs.LAYER_GRADE_WITHIN = 0.0
+    try:
+        plain = coil_field_per_ampere_T(coil, pts, layers=10)[:, 2]
+    finally:
+        fs.LAYER_GRADE_WITHIN = old
+    assert np.max(np.abs(plain - ref) / np.abs(ref)) > 1e3 * np.max(np.abs(Bz - ref) / np.abs(ref))
