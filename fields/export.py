@@ -28,7 +28,10 @@ def write_atomic(path: str | Path, data: bytes | str) -> Path:
     if isinstance(data, str):
         data = data.encode("utf-8")
     fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".part", dir=p.parent)
+    umask = os.umask(0)
+    os.umask(umask)
     try:
+        os.chmod(tmp, 0o666 & ~umask)  # ordinary file permissions, not mkstemp's private 0600
         with os.fdopen(fd, "wb") as f:
             f.write(data)
             f.flush()

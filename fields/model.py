@@ -25,6 +25,20 @@ MAGNET_SHAPES = ("cylinder", "ring", "cuboid", "sphere", "mesh")
 CORE_SHAPES = ("cylinder", "ring", "cuboid")
 
 
+def primitive_volume_m3(shape: str, dimensions_m) -> float:
+    """Volume (m^3) of a cylinder ``(d, h)``, ring ``(di, do, h)``, cuboid ``(x, y, z)`` or sphere ``(d,)``."""
+    d = dimensions_m
+    if shape == "cylinder":
+        return float(np.pi * d[0] ** 2 / 4 * d[1])
+    if shape == "ring":
+        return float(np.pi * (d[1] ** 2 - d[0] ** 2) / 4 * d[2])
+    if shape == "cuboid":
+        return float(d[0] * d[1] * d[2])
+    if shape == "sphere":
+        return float(np.pi * d[0] ** 3 / 6)
+    raise ValueError(f"primitive_volume_m3: shape must be cylinder, ring, cuboid or sphere; got {shape!r}")
+
+
 def rotation_matrix(rotvec_rad) -> np.ndarray:
     """3x3 rotation matrix of a rotation vector (axis x angle, rad)."""
     return Rotation.from_rotvec(np.asarray(rotvec_rad, dtype=float)).as_matrix()
@@ -68,15 +82,8 @@ class Magnet:
     @property
     def volume_m3(self) -> float:
         """Volume (m^3)."""
-        d = self.dimensions_m
-        if self.shape == "cylinder":
-            return np.pi * d[0] ** 2 / 4 * d[1]
-        if self.shape == "ring":
-            return np.pi * (d[1] ** 2 - d[0] ** 2) / 4 * d[2]
-        if self.shape == "cuboid":
-            return d[0] * d[1] * d[2]
-        if self.shape == "sphere":
-            return np.pi * d[0] ** 3 / 6
+        if self.shape != "mesh":
+            return primitive_volume_m3(self.shape, self.dimensions_m)
         v = self.mesh_vertices_m[self.mesh_faces]
         return float(np.einsum("ij,ij->i", v[:, 0], np.cross(v[:, 1], v[:, 2])).sum() / 6.0)
 
@@ -176,12 +183,7 @@ class Core:
 
     @property
     def volume_m3(self) -> float:
-        d = self.dimensions_m
-        if self.shape == "cylinder":
-            return np.pi * d[0] ** 2 / 4 * d[1]
-        if self.shape == "ring":
-            return np.pi * (d[1] ** 2 - d[0] ** 2) / 4 * d[2]
-        return d[0] * d[1] * d[2]
+        return primitive_volume_m3(self.shape, self.dimensions_m)
 
 
 @dataclass(frozen=True)

@@ -303,11 +303,11 @@ def time_responses(sims: dict, title: str = ""):
     """Position and current versus time for each named simulation."""
     fig, (a1, a2) = plt.subplots(2, 1, figsize=(8, 6.2), sharex=True)
     for name, r in sims.items():
-        lab = name.replace("_", " ")
+        lab = name
         if r.events:
             lab += f" ({r.events[0].kind} at {r.events[0].time_s * 1e3:.3g} ms)"
         a1.plot(r.time_s * 1e3, r.s_m * 1e3, lw=1.3, label=lab)
-        a2.plot(r.time_s * 1e3, r.current_A, lw=1.1, label=name.replace("_", " "))
+        a2.plot(r.time_s * 1e3, r.current_A, lw=1.1, label=name)
     a1.set_ylabel("position s from equilibrium (mm)")
     a2.set_ylabel("coil current (A)")
     a2.set_xlabel("time (ms)")

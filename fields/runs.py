@@ -302,7 +302,7 @@ def run_sensors(design: Design, out: Path) -> dict:
             r = sensors.hall_response(design, s, gaps)
             halls.append(r)
             res["sensors"].append({"name": s.name, "kind": "hall", **r.to_dict()})
-        res["warnings"] += [f"{s.name}: {w}" for w in r.warnings]
+        res["warnings"] += [w if w.startswith("sensor ") else f"sensor {s.name}: {w}" for w in r.warnings]
     cols = ["gap_m"]
     data = [gaps]
     for b in beams:
@@ -356,7 +356,9 @@ def run_sensors(design: Design, out: Path) -> dict:
 
 
 def _slug(name: str) -> str:
-    return "".join(ch if ch.isalnum() else "_" for ch in name).strip("_").lower()
+    import re
+
+    return re.sub(r"_+", "_", "".join(ch if ch.isalnum() else "_" for ch in name)).strip("_").lower()
 
 
 # ---------------------------------------------------------------------------------------------
@@ -522,13 +524,13 @@ def run_control(design: Design, out: Path, stability=None, coil=None) -> dict:
     # a reference step well inside the sensor's useful range: 0.2 mm, or 5 % of the table span
     step = float(min(0.2e-3, 0.05 * span))
     sims = {
-        "step": dyn.simulate(params, table, pd, dyn.Scenario(t_end_s=0.4, reference_m=step, reference_step_time_s=0.05), sensor=sensor),
-        "disturbance": dyn.simulate(params, table, pd, dyn.Scenario(
+        f"reference step {step * 1e3:+.2g} mm": dyn.simulate(params, table, pd, dyn.Scenario(t_end_s=0.4, reference_m=step, reference_step_time_s=0.05), sensor=sensor),
+        "force impulse": dyn.simulate(params, table, pd, dyn.Scenario(
             t_end_s=0.4, force_impulse_N_s=0.2 * design.floater.mass_kg * step * plant.unstable_pole_rad_per_s,
             force_impulse_time_s=0.05), sensor=sensor),
-        "payload_pd": dyn.simulate(params, table, pd, dyn.Scenario(t_end_s=0.6, payload_kg=0.1 * design.floater.mass_kg,
+        "payload +10 % (PD)": dyn.simulate(params, table, pd, dyn.Scenario(t_end_s=0.6, payload_kg=0.1 * design.floater.mass_kg,
                                                                    payload_time_s=0.05), sensor=sensor),
-        "payload_pid": dyn.simulate(params, table, pid, dyn.Scenario(t_end_s=0.6, payload_kg=0.1 * design.floater.mass_kg,
+        "payload +10 % (PID)": dyn.simulate(params, table, pid, dyn.Scenario(t_end_s=0.6, payload_kg=0.1 * design.floater.mass_kg,
                                                                      payload_time_s=0.05), sensor=sensor),
     }
     s0 = np.linspace(s_grid[0] * 0.95, s_grid[-1] * 0.95, 41)
@@ -560,9 +562,10 @@ def run_control(design: Design, out: Path, stability=None, coil=None) -> dict:
         "simulations": {k: {"events": [e.__dict__ for e in v.events], "final_s_m": float(v.s_m[-1]),
                             "peak_current_A": float(np.max(np.abs(v.current_A)))} for k, v in sims.items()},
     }
+    sim_files = {k: f"sim_{_slug(k)}.csv" for k in sims}
     for k, v in sims.items():
         rows = v.to_csv_rows()
-        write_csv(out / f"sim_{k}.csv", rows[0], rows[1:], header_lines(design.name, f"nonlinear simulation '{k}' along {ax.name}; s from the equilibrium"))
+        write_csv(out / sim_files[k], rows[0], rows[1:], header_lines(design.name, f"nonlinear simulation '{k}' along {ax.name}; s from the equilibrium"))
     rows = []
     for i, a in enumerate(s0):
         for j, b in enumerate(v0):
@@ -580,7 +583,7 @@ def run_control(design: Design, out: Path, stability=None, coil=None) -> dict:
         write_png(out / name, fig)
         _close(fig)
     summary["files"] = _files(out, "control.json", "plant.json", "plant.csv", "capture.csv", "hysteresis.csv",
-                              *[f"sim_{k}.csv" for k in sims], "control_bode.png", "control_nyquist.png",
+                              *sim_files.values(), "control_bode.png", "control_nyquist.png",
                               "control_step.png", "capture.png")
     summary["_plant"], summary["_pd"], summary["_pid"], summary["_margins"] = plant, pd, pid, m_pd
     summary["_raw_plant"] = raw_plant

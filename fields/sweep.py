@@ -400,12 +400,9 @@ def _err(file: str, path: str, rule: str, got: Any, what: str = "the value") -> 
 
 
 def _show(v: Any) -> str:
-    if isinstance(v, str):
-        return f'"{v}"'
-    if isinstance(v, dict):
-        return "a table"
-    s = repr(v)
-    return s if len(s) < 60 else s[:57] + "..."
+    from .geometry import _show as show
+
+    return show(v)
 
 
 def _check_keys(data: dict, allowed: tuple[str, ...], file: str, path: str) -> None:
