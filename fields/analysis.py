@@ -482,12 +482,15 @@ class Verdict:
     mass_matrix: np.ndarray
     free_axes: tuple[str, ...]
     notes: tuple[str, ...] = field(default_factory=tuple)
+    iron: bool = False
 
     def lines(self) -> list[str]:
         out = [m.text() for m in self.modes]
         out.append(f"axes needing active control: {self.unstable_count}")
+        why = ("not expected to vanish: the iron core's magnetization follows the floater" if self.iron
+               else "vanishes for rigid magnets in iron-free fields (Earnshaw)")
         out.append(f"Earnshaw check: trace of translational stiffness {self.earnshaw_trace_N_per_m:.3g} N/m "
-                   f"({self.earnshaw_residual:.2g} of the largest diagonal entry)")
+                   f"({self.earnshaw_residual:.2g} of the largest diagonal entry; {why})")
         return out
 
 
@@ -569,7 +572,7 @@ def stability_verdict(design: Design, stiff: Stiffness, free_axes=None) -> Verdi
     tr, rel = stiff.earnshaw_residual()
     return Verdict(modes=tuple(modes), unstable_count=unstable_axes, earnshaw_trace_N_per_m=tr, earnshaw_residual=rel,
                    stiffness=stiff, mass_matrix=mass_matrix(design, stiff.rotvec_rad), free_axes=free,
-                   notes=tuple(notes))
+                   notes=tuple(notes), iron=bool(design.cores))
 
 
 # ---------------------------------------------------------------------------------------------

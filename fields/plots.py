@@ -145,7 +145,7 @@ def pose_maps(lateral_map, tilt_map, title: str = ""):
         lim = np.nanpercentile(np.abs(v), 95) if np.any(np.isfinite(v)) else 1.0
         levels = np.linspace(-lim, lim, 13)
         cs = ax.contour(x, y, v, levels=levels, colors="k", linewidths=0.6)
-        ax.clabel(cs, fontsize=6.5, fmt="%.3g")
+        ax.clabel(cs, fontsize=6.5, fmt=lambda val, lim=lim: "0" if abs(val) < 1e-9 * lim else f"{val:.3g}")
         ax.set_xlabel(xl)
         ax.set_ylabel("gap (mm)")
         ax.set_title(f"contours: {lab}", fontsize=9)

@@ -123,3 +123,14 @@ def test_errors_name_the_rule():
         cylinder_demag_factors(-1.0, 1.0)
     with pytest.raises(GeometryError, match="shape must be one of cylinder, ring, cuboid"):
         core_demag_factors("sphere", (1.0,))
+
+
+def test_cylinder_gamma_one_against_chen_brug_goldfarb_value():
+    # Chen, Brug & Goldfarb (1991), IEEE Trans. Magn. 27(4), 3601, table of magnetometric factors
+    # for chi = 0: a cylinder of length = diameter has N_m = 0.3116 (value from memory; the
+    # independent Bessel-integral checks above carry the full precision)
+    from fields.demag import cylinder_demag_factors
+
+    n = cylinder_demag_factors(1.0, 1.0)
+    assert n[2] == pytest.approx(0.3116, abs=1e-4)
+    assert n[0] == pytest.approx((1 - 0.3116) / 2, abs=1e-4)
