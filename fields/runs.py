@@ -538,7 +538,13 @@ def run_control(design: Design, out: Path, stability=None, coil=None) -> dict:
     v0 = np.linspace(-vmax, vmax, 15)
     cap = dyn.capture_range(params, table, pd, s0, v0, t_end_s=0.5, sensor=sensor)
     bands = np.array([0.02, 0.05, 0.1, 0.2]) * span
-    hyst = dyn.hysteresis_study(params, table, pd, bands, mode="current", t_end_s=0.6)
+    if ax.index == 2:
+        # suspension-type vertical axis: the coil switches between full and zero current
+        hyst = dyn.hysteresis_study(params, table, pd, bands, mode="current", t_end_s=0.6)
+    else:
+        # a sideways axis with no bias current: bang-bang between +max and -max, starting off-centre
+        hyst = dyn.hysteresis_study(params, table, pd, bands, mode="current", t_end_s=0.6,
+                                    on_current_A=imax, off_current_A=-imax, s0_m=0.5 * bands[-1])
     # files
     write_json(out / "plant.json", {"design": design.name, "axis": ax.name, "pattern": p, "sensor": sen_name,
                                     "drive": "voltage", "as_wired": raw_plant.to_dict(),
