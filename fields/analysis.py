@@ -551,7 +551,7 @@ def stability_verdict(design: Design, stiff: Stiffness, free_axes=None) -> Verdi
         group = [a]
         for j in range(i + 1, len(raw)):
             b = raw[j]
-            if not used[j] and _MODE_CLASS[b[0]] == _MODE_CLASS[a] and abs(b[2] - lam_i) <= 1e-6 * max(abs(lam_i), 1e-30) + 1e-12:
+            if not used[j] and _MODE_CLASS[b[0]] == _MODE_CLASS[a] and abs(b[2] - lam_i) <= 1e-4 * max(abs(lam_i), 1e-30) + 1e-12:
                 used[j] = True
                 group.append(b[0])
         kind = _MODE_CLASS[a]
