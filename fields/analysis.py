@@ -156,8 +156,6 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
     cur = family_currents(design) if currents_A is None else np.asarray(currents_A, float)
     d = drive_pattern(design, pattern)
     up = design.up
-    gdir = np.asarray(design.study.gap_direction)
-    dh_dgap = float(up @ gdir)  # +1 when the gap grows upwards, -1 when it grows downwards
     pos, rot = pose_at_gap(design, gaps)
     h = STEP_LENGTH_M
     # central differences along up: one batched call for g, g+h, g-h
@@ -199,7 +197,6 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
     if np.any(contact):
         warnings.append(f"{int(contact.sum())} of {n} gaps put the floater in contact with a body; "
                         "they are marked contact and excluded from equilibria")
-    _ = dh_dgap
     return AxialCurves(
         gaps_m=gaps, heights_m=pos @ up, currents_A=cur, Fup_N=Fup, F0_N=F0c, ki_N_per_A=fc,
         kz_N_per_m=kz, kz0_N_per_m=kz0, dki_dh_N_per_A_m=dki, hover_current_A=ih,
@@ -425,13 +422,11 @@ def find_equilibrium(design: Design, currents_A=None, start_gap_m: float | None 
     dq = np.zeros(6)
     dq[idx] = sol.x * np.where(np.array(idx) < 3, size, 1.0)
     P, Rv = displace(design, p0, r0, dq)
-    up = design.up
     gdir = np.asarray(design.study.gap_direction)
     gap = float((P[0] - np.asarray(design.study.gap_origin_m)) @ gdir)
     b = _basis(design, P, Rv)
     F = (b.force(I) if len(I) else b.F0_N)[0] + gvec
     T = (b.torque(I) if len(I) else b.T0_Nm)[0]
-    _ = up
     return Equilibrium(position_m=P[0], rotvec_rad=Rv[0], currents_A=I, gap_m=gap, residual_force_N=F,
                        residual_torque_Nm=T, free_axes=free, iterations=calls[0])
 

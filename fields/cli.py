@@ -288,7 +288,6 @@ def main(argv: list[str] | None = None) -> int:
     if not getattr(args, "command", None):
         parser.print_help()
         return 1
-    t0 = time.perf_counter()
     try:
         rc = args.func(args)
     except HoverfieldError as e:
@@ -297,8 +296,6 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("hoverfield: interrupted; files already written are complete", file=sys.stderr)
         return 130
-    if getattr(args, "verbose", False):
-        print(f"done in {time.perf_counter() - t0:.2f} s")
     return rc
 
 

@@ -233,7 +233,7 @@ def run_coil(design: Design, out: Path, curves=None, stability=None) -> dict:
         sheets.append(d)
         warnings += [w if w.startswith("coil ") else f"coil {coil.name}: {w}" for w in cd.warnings]
     summary = {"coils": sheets, "inductance_matrix_H": Lmat, "control_axis": ax.name,
-               "control_pattern": ax.pattern, "warnings": _group_coil_warnings(_unique(warnings), design),
+               "control_pattern": ax.pattern, "warnings": _group_coil_warnings(list(dict.fromkeys(warnings)), design),
                "files": _files(out, "coil.json", "coil_heat.csv")}
     rows = []
     for i, g in enumerate(c.gaps_m):
@@ -275,14 +275,6 @@ def _group_coil_warnings(warnings: list[str], design: Design) -> list[str]:
         else:
             out.append("coils " + ", ".join(f"'{n}'" for n in names) + f": {key}")
     return out
-
-
-def _unique(items):
-    seen = []
-    for x in items:
-        if x not in seen:
-            seen.append(x)
-    return seen
 
 
 def run_sensors(design: Design, out: Path) -> dict:
@@ -476,7 +468,11 @@ def _nice_sample_time(min_rate_Hz: float) -> float:
 
 def run_control(design: Design, out: Path, stability=None, coil=None) -> dict:
     """Linear plant, controller starting point, margins, simulations, capture range and on/off
-    study along the axis that needs control; control.json, plant.json, CSVs and PNGs."""
+    study along the axis that needs control; control.json, plant.json, CSVs and PNGs.
+
+    ``stability`` and ``coil`` are the summaries of :func:`run_stability` and :func:`run_coil`
+    when the caller has them (the report does): their equilibrium and inductance matrix are
+    reused instead of computed again."""
     from . import coil as coilmod
     from . import dynamics as dyn
     from . import plots
@@ -493,9 +489,10 @@ def run_control(design: Design, out: Path, stability=None, coil=None) -> dict:
                           "there is nothing to build a plant from")
     p = ax.pattern
     active = np.flatnonzero(p)
-    sheets = [coilmod.coil_datasheet(design, int(k)) for k in active]
-    R = float(sum(p[k] ** 2 * sh.resistance_20C_ohm for k, sh in zip(active, sheets)))
-    Lm = coilmod.mutual_inductance_matrix(design)
+    # coils in the pattern carry i * p_k: series resistance sum p_k^2 R_k, inductance p^T L p
+    R = float(sum(p[k] ** 2 * coilmod.resistance_and_cooling(design, int(k))[0] for k in active))
+    Lm = (np.asarray(coil["inductance_matrix_H"], float) if coil is not None
+          else coilmod.mutual_inductance_matrix(design))
     L = float(p @ Lm @ p)
     imax = float(min(design.coils[k].max_current_A / abs(p[k]) for k in active))
     table, I0, poses, s_grid = _axis_tables(design, eq, ax)
@@ -717,7 +714,8 @@ def run_report(design: Design, out: Path, progress: bool = True, geometry_text: 
     stage("stability", lambda: run_stability(design, out, curves=done["curves"]["_curves"]), needs=("curves",))
     stage("coil", lambda: run_coil(design, out, curves=done["curves"], stability=done["stability"]), needs=("curves", "stability"))
     stage("sensors", lambda: run_sensors(design, out))
-    stage("control", lambda: run_control(design, out, stability=done["stability"]), needs=("stability",))
+    stage("control", lambda: run_control(design, out, stability=done["stability"], coil=done.get("coil")),
+          needs=("stability",))
     stage("exports", lambda: run_exports(design, out, done["curves"], done.get("control")), needs=("curves",))
     bar.close()
 
