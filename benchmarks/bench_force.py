@@ -1,4 +1,4 @@
-"""Benchmark: force on a levitated disc, fields.forces vs. the direct magpylib route.
+"""Benchmark: force on a levitated disc, fields.physics.forces vs. the direct magpylib route.
 
 Invented scenario (not a real product): a suspension levitator with one coil (inner radius
 7 mm, outer 22 mm, height 30 mm, 2100 turns, centred at z = 25 mm, axis +z, 0.5 A) and a disc
@@ -7,10 +7,10 @@ the coil's bottom face (z = 10 mm), 200 gaps.
 
 Compared in the same run:
 
-- ``fields.forces.wrench_basis`` at the "standard" level, timed with its two-level error estimate
+- ``fields.physics.forces.wrench_basis`` at the "standard" level, timed with its two-level error estimate
   (default) and without it (``estimate_error=False``); the minimum of several repeats is shown
   (the machine is shared; single timings are noisy). On the axis it uses the closed-form cap
-  flux of the coil layers (``fields.sources.sheet_disc_flux_Wb``); off the axis, Gauss layers
+  flux of the coil layers (``fields.physics.sources.sheet_disc_flux_Wb``); off the axis, Gauss layers
   and surface charges at 3-D cap nodes;
 - the direct route a user would write: the coil as a magpylib Collection of 300 circular loops
   and ``magpylib.getFT`` with meshing (8, 3, 3) (chunked over poses to stay below 1 GB);
@@ -29,8 +29,8 @@ import time
 
 import numpy as np
 
-from fields.forces import wrench_basis
-from fields.model import Coil, Design, Floater, Magnet, Study
+from fields.physics.forces import wrench_basis
+from fields.model.design import Coil, Design, Floater, Magnet, Study
 
 CURRENT_A = 0.5
 N_POSES = 200
@@ -104,7 +104,7 @@ def rel_err(F: np.ndarray, Fref: np.ndarray) -> float:
 
 
 def main() -> int:
-    from fields.forces import _raw
+    from fields.physics.forces import _raw
 
     d = build_design()
     I = np.array([CURRENT_A])

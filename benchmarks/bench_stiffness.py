@@ -28,9 +28,9 @@ sys.path.insert(0, str(Path(__file__).parent))
 
 from bench_force import direct_route  # noqa: E402  (same direct route as the force benchmark)
 
-from fields import analysis  # noqa: E402
-from fields.forces import wrench_basis  # noqa: E402
-from fields.geometry import load  # noqa: E402
+from fields.analysis import core as analysis  # noqa: E402
+from fields.physics.forces import wrench_basis  # noqa: E402
+from fields.input.geometry import load  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 

@@ -78,7 +78,7 @@ sense = "max"
 
 
 def run(text: str, workers: int, tmp: Path, tag: str):
-    from fields.sweep import run_sweep
+    from fields.studies.sweep import run_sweep
 
     sp = tmp / f"{tag}.toml"
     sp.write_text(text, encoding="utf-8")
@@ -94,8 +94,8 @@ def naive_seconds_per_design(n_designs: int = 3) -> tuple[float, float]:
     import magpylib as magpy
     from scipy.spatial.transform import Rotation
 
-    from fields import geometry
-    from fields.analysis import pose_at_gap
+    from fields.input import geometry
+    from fields.analysis.core import pose_at_gap
 
     d = geometry.load(BASE)
     c = d.coils[0]
@@ -133,9 +133,9 @@ def main(argv: list[str]) -> int:
         run(SAMPLE.format(n=4), 1, tmp, "warmup")  # imports, unit registry, file caches
         n = 96
         for w in (1, 2):
-            rows.append((f"fields.sweep, {n} designs (Sobol)", w, *run(SAMPLE.format(n=n), w, tmp, f"s{w}")))
+            rows.append((f"fields.studies.sweep, {n} designs (Sobol)", w, *run(SAMPLE.format(n=n), w, tmp, f"s{w}")))
         if not quick:
-            rows.append(("fields.sweep, 1000 designs (grid 40 x 25)", 2, *run(GRID, 2, tmp, "g1000")))
+            rows.append(("fields.studies.sweep, 1000 designs (grid 40 x 25)", 2, *run(GRID, 2, tmp, "g1000")))
     t_kz, t_full = naive_seconds_per_design()
     print("Invented suspension example (geometries/suspension.toml), designs with full stability data "
           "(hover current, k_i, 6x6 stiffness, verdict, coil heat, payload envelope).\n")

@@ -24,9 +24,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy import constants
 
-from fields import analysis
+from fields.analysis import core as analysis
 from fields.errors import SolverError
-from fields.geometry import load, loads
+from fields.input.geometry import load, loads
 
 from helpers import REPULSIVE, SUSPENSION
 

@@ -1,4 +1,4 @@
-"""Tests of fields.bodies: signed distances, clearance, overlaps, meshes, outlines.
+"""Tests of fields.model.solids: signed distances, clearance, overlaps, meshes, outlines.
 
 References are built independently of the code under test: closest points by clamping
 (Ericson, *Real-Time Collision Detection*, 2005, 5.1.3), elementary volumes (pi r^2 h,
@@ -16,9 +16,9 @@ from hypothesis import strategies as st
 from scipy.spatial import cKDTree
 from scipy.spatial.transform import Rotation
 
-from fields import bodies as B
+from fields.model import solids as B
 from fields.errors import GeometryError
-from fields.model import Coil, Core, Design, Floater, Magnet, Study
+from fields.model.design import Coil, Core, Design, Floater, Magnet, Study
 
 # Tolerances (named, with the reason)
 ROUND = 1e-12  # m; double rounding on millimetre geometry

@@ -1,4 +1,4 @@
-"""Tests of fields.coil against published formulas, standards and independent numerical integration.
+"""Tests of fields.devices.coil against published formulas, standards and independent numerical integration.
 
 Every reference value is built here with scipy / magpylib, not with the code under test.
 """
@@ -11,11 +11,11 @@ from scipy import integrate
 from scipy.constants import mu_0
 from scipy.special import ellipe, ellipk
 
-from fields import tables
-from fields.coil import (air_mutual_inductance_H, air_self_inductance_H, coil_datasheet, drive_headroom,
+from fields.input import tables
+from fields.devices.coil import (air_mutual_inductance_H, air_self_inductance_H, coil_datasheet, drive_headroom,
                          mutual_inductance_matrix, steady_temperature_C)
 from fields.errors import GeometryError
-from fields.model import Coil, Core, Design, Floater, Magnet, Study
+from fields.model.design import Coil, Core, Design, Floater, Magnet, Study
 
 INCH = 0.0254
 

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 from scipy import integrate, special
 
-from fields.demag import core_demag_factors, cuboid_demag_factors, cylinder_demag_factors, ring_demag_factors
+from fields.physics.demag import core_demag_factors, cuboid_demag_factors, cylinder_demag_factors, ring_demag_factors
 from fields.errors import GeometryError
 
 #: the independent Bessel integral below is converged to about 1e-10 (panelled quad)
@@ -22,7 +22,7 @@ def nz_cylinder_bessel(diameter: float, height: float) -> float:
     Hankel-transform form N_z = (2R/L) int_0^inf J1(x)^2 (1 - exp(-x L/R)) / x^2 dx
     (derived from the disc potential phi = (sigma R / 2) int J0(kr) J1(kR) e^{-k|z|} / k dk, e.g.
     Jackson, Classical Electrodynamics, 3rd ed., sec. 3.13; same route as Joseph, J. Appl. Phys. 37
-    (1966) 4639). Independent of fields.demag's elliptic closed form.
+    (1966) 4639). Independent of fields.physics.demag's elliptic closed form.
     """
     R, L = diameter / 2, height
 
@@ -129,7 +129,7 @@ def test_cylinder_gamma_one_against_chen_brug_goldfarb_value():
     # Chen, Brug & Goldfarb (1991), IEEE Trans. Magn. 27(4), 3601, table of magnetometric factors
     # for chi = 0: a cylinder of length = diameter has N_m = 0.3116 (value from memory; the
     # independent Bessel-integral checks above carry the full precision)
-    from fields.demag import cylinder_demag_factors
+    from fields.physics.demag import cylinder_demag_factors
 
     n = cylinder_demag_factors(1.0, 1.0)
     assert n[2] == pytest.approx(0.3116, abs=1e-4)

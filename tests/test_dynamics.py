@@ -1,4 +1,4 @@
-"""Tests of fields.dynamics (issue 6: control model of one axis).
+"""Tests of fields.control.dynamics (issue 6: control model of one axis).
 
 Invented test plant (not a real device): a floater of 11 g hanging under an air-core coil,
 force F(s, I) = I c / (d0 - s)^4 (dipole-like fall-off, no permanent-magnet force), hover
@@ -16,7 +16,7 @@ import control
 import numpy as np
 import pytest
 
-from fields.dynamics import (
+from fields.control.dynamics import (
     E_SERIES,
     ForceTable,
     PlantParameters,

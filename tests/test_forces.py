@@ -11,8 +11,8 @@ from scipy import integrate, special
 from scipy.constants import mu_0
 from scipy.spatial.transform import Rotation
 
-from fields.forces import LEVELS, wrench, wrench_basis
-from fields.model import Coil, Core, Design, Floater, Magnet, Study
+from fields.physics.forces import LEVELS, wrench, wrench_basis
+from fields.model.design import Coil, Core, Design, Floater, Magnet, Study
 
 #: the quadrature references below (Gauss-Legendre, quad) are converged to better than 1e-9
 REF_RTOL = 1e-7
@@ -284,7 +284,7 @@ def test_standard_level_within_1e6_of_converged_reference():
 def test_quadrature_error_decays_exponentially_with_layers():
     """Convergence rate: the coil-layer rule error falls geometrically (Gauss-Legendre on an analytic
     integrand, Trefethen, Approximation Theory and Approximation Practice, 2013, thm 19.3)."""
-    import fields.forces as ff
+    import fields.physics.forces as ff
 
     d = make_design([disc()], coils=[bench_coil()])
     P, Rv = general_poses(3)
@@ -330,7 +330,7 @@ def test_on_axis_closed_form_equals_general_path_with_converged_cap_rule():
     share the coil-layer model; with a converged cap rule the general route must give the same
     numbers. On the axis B_z on a cap depends on r only, so the angular trapezoid is exact and 24
     radial Gauss nodes converge the cap integral (Trefethen, ATAP 2013, thm 19.3)."""
-    import fields.forces as ff
+    import fields.physics.forces as ff
 
     for d, z in axis_designs():
         P = np.column_stack((np.zeros(z.size), np.zeros(z.size), z))
@@ -341,7 +341,7 @@ def test_on_axis_closed_form_equals_general_path_with_converged_cap_rule():
         ff.LEVELS["_cap"] = dict(ff.LEVELS["standard"], nr=24, na=4)
         # same coil-layer model as the closed form: plain Gauss layers (the general route grades
         # them per observer near a winding's end face, which the closed form does not)
-        import fields.sources as fs
+        import fields.physics.sources as fs
 
         within = fs.LAYER_GRADE_WITHIN
         fs.LAYER_GRADE_WITHIN = 0.0
@@ -454,7 +454,7 @@ def test_mixed_batch_uses_one_cap_rule_for_consistent_differences():
     """A call with on- and off-axis poses keeps the 1-D radial cap rule on the axis (it equals the
     general rule there), so stencil differences across the call use one discretisation; a call
     with on-axis poses only uses the closed form. Both agree to the standard level's accuracy."""
-    import fields.forces as ff
+    import fields.physics.forces as ff
 
     d = make_design([disc()], coils=[bench_coil()])
     z = 0.010 - 0.004 - 0.00635 / 2
@@ -540,7 +540,7 @@ def test_graded_cap_rule_converges_geometrically_with_nodes_per_panel():
     """Convergence rate of the graded cap rule (Gauss-Legendre on panels whose size follows the
     distance to the nearest edge: geometric convergence in the nodes per panel, Trefethen, ATAP
     2013, thm 19.3), against the Hankel reference, ring bearing 0.5 mm apart, 1 mm offset."""
-    import fields.forces as ff
+    import fields.physics.forces as ff
 
     d = ring_bearing()
     s0 = 1.2 / mu_0

@@ -13,8 +13,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from fields.errors import GeometryError, HoverfieldError
-from fields.geometry import load, loads
-from fields.sweep import toml_text
+from fields.input.geometry import load, loads
+from fields.studies.sweep import toml_text
 
 from helpers import EXAMPLES, MINIMAL, SUSPENSION
 

@@ -21,9 +21,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from fields import bodies, cli, formats
-from fields.export import read_csv
-from fields.geometry import load
+from fields.model import solids as bodies
+from fields import cli
+from fields.io import formats
+from fields.io.export import read_csv
+from fields.input.geometry import load
 
 from helpers import REPULSIVE, ROOT, SUSPENSION
 

@@ -1,4 +1,4 @@
-"""Tests of fields.sensors: beam-gate occlusion against exact plane geometry, Hall readings against
+"""Tests of fields.devices.sensors: beam-gate occlusion against exact plane geometry, Hall readings against
 closed-form coil fields and the general-purpose magpylib object interface."""
 
 from __future__ import annotations
@@ -9,8 +9,8 @@ from scipy import integrate
 from scipy.constants import mu_0
 
 from fields.errors import GeometryError, SolverError
-from fields.model import BeamGate, Coil, Design, Floater, HallSensor, Magnet, Study
-from fields.sensors import (beam_blocked_fraction, beam_response, circle_rectangle_area, hall_response,
+from fields.model.design import BeamGate, Coil, Design, Floater, HallSensor, Magnet, Study
+from fields.devices.sensors import (beam_blocked_fraction, beam_response, circle_rectangle_area, hall_response,
                             inverse_table, placement_table)
 
 

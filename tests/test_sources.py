@@ -9,8 +9,8 @@ from scipy.constants import mu_0
 from scipy.spatial.transform import Rotation
 
 from fields.errors import GeometryError
-from fields.model import Coil, Core, Design, Floater, Magnet, Study
-from fields.sources import (coil_field_per_ampere_T, fixed_field_T, fixed_field_basis, magnet_field_T,
+from fields.model.design import Coil, Core, Design, Floater, Magnet, Study
+from fields.physics.sources import (coil_field_per_ampere_T, fixed_field_T, fixed_field_basis, magnet_field_T,
                             shape_field_own_T)
 
 #: 8 Gauss layers outside the winding: ~1e-10 relative (METHODS.md sec. 1, measured); 12 layers: ~1e-13
@@ -169,7 +169,7 @@ def test_core_response_follows_demag_model_and_clips():
     x = np.array([[0.0, 0.0, 0.15]])
     pose = np.array([0.0, 0.0, 1.0])
     fb = fixed_field_basis(d, x[None], pose[None], np.zeros((1, 3)))
-    from fields.demag import cylinder_demag_factors
+    from fields.physics.demag import cylinder_demag_factors
 
     Nz = cylinder_demag_factors(0.001, 0.004)[2]
     chi = 1000.0
@@ -221,7 +221,7 @@ SHEET_CASES = [(0.01, 0.015, 0.005, 0.03), (0.01, 0.015, 0.02, -0.04), (0.01, 0.
 def test_sheet_flux_matches_maxwell_mutual_inductance_integrated_over_height():
     """Flux of a sheet (K = J/mu0 A/m) through a disc = K int M(a, rho, dz - z') dz' (Maxwell's
     loop-loop mutual inductance, reference above, integrated with scipy quad)."""
-    from fields.sources import sheet_disc_flux_Wb
+    from fields.physics.sources import sheet_disc_flux_Wb
 
     J = 1.3
     for a, b, rho, dz in SHEET_CASES:
@@ -238,7 +238,7 @@ def test_sheet_flux_matches_magpylib_cylinder_field_integrated_over_disc():
     magnet's side (B_z jumps there)."""
     import magpylib as magpy
 
-    from fields.sources import sheet_disc_flux_Wb
+    from fields.physics.sources import sheet_disc_flux_Wb
 
     J = 1.2
     for a, b, rho, dz in SHEET_CASES[:-1]:
@@ -254,7 +254,7 @@ def test_sheet_flux_matches_magpylib_cylinder_field_integrated_over_disc():
 
 
 def test_sheet_flux_thin_and_long_limits():
-    from fields.sources import sheet_disc_flux_Wb
+    from fields.physics.sources import sheet_disc_flux_Wb
 
     # thin sheet of height 2b carrying I = 2 b K: Phi -> M I (Maxwell, above); error O(b^2), removed
     # by one Richardson step
@@ -276,7 +276,7 @@ def test_cel_pair_matches_scipy_legendre_and_carlson_forms():
     scipy's ellipk/ellipe/elliprf/elliprj; blocks larger than the loop's chunk give the same values."""
     from scipy import special
 
-    from fields.sources import CEL_CHUNK, _cel_pair
+    from fields.physics.sources import CEL_CHUNK, _cel_pair
 
     rng = np.random.default_rng(3)
     q = CEL_CHUNK + 17
@@ -297,7 +297,7 @@ def test_axial_sheets_of_magnets_and_coils_give_their_flux():
     (CylinderSegment) field integrated over the disc and Maxwell's M integrated over a winding."""
     import magpylib as magpy
 
-    from fields.sources import axial_disc_flux_Wb, axial_sheets
+    from fields.physics.sources import axial_disc_flux_Wb, axial_sheets
 
     ring = Magnet("r", "ring", (0.008, 0.02, 0.006), (0.0, 0.0, 1.1), (0.0, 0.0, 0.01), (np.pi, 0.0, 0.0))
     coil = Coil("c", 0.007, 0.022, 0.03, 2100, (0, 0, -0.03), (0, 0, -1), 0.5, 1.0)
@@ -336,7 +336,7 @@ def test_coil_layers_just_below_the_winding_face_match_montgomery():
     Bz = coil_field_per_ampere_T(coil, pts, layers=10)[:, 2]
     np.testing.assert_allclose(Bz, ref, rtol=1e-9)
     # the plain Gauss rule (an observer just outside the graded zone) is the slow one
-    import fields.sources as fs
+    import fields.physics.sources as fs
 
     old = fs.LAYER_GRADE_WITHIN
     fs.LAYER_GRADE_WITHIN = 0.0

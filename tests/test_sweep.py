@@ -1,4 +1,4 @@
-"""Tests of fields.sweep: sweep files, expansion, evaluation, ranking, resumable execution.
+"""Tests of fields.studies.sweep: sweep files, expansion, evaluation, ranking, resumable execution.
 
 Small sweeps (4-12 designs of the invented suspension example) keep the file well under a
 minute on two shared cores. References outside the code under test are named beside each check.
@@ -20,7 +20,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from fields import analysis, coil, geometry, sweep
+from fields.analysis import core as analysis
+from fields.devices import coil
+from fields.input import geometry
+from fields.studies import sweep
 from fields.errors import GeometryError
 
 from helpers import REPULSIVE, ROOT, SUSPENSION
@@ -120,7 +123,7 @@ def test_example_sweep_file_expands_to_its_grid():
 
 
 def _mm(text: str) -> float:
-    from fields.units import parse
+    from fields.input.units import parse
 
     return parse(text, "length") * 1e3
 
@@ -185,7 +188,7 @@ def test_latin_hypercube_sample_has_one_point_per_stratum(tmp_path):
     spec = sweep.load_sweep(p, SUSPENSION)
     designs = sweep.expand(spec)
     assert len(designs) == n
-    from fields.units import parse
+    from fields.input.units import parse
 
     d = np.array([parse(o["floater.magnets[0].diameter"], "length") for _, o in designs])
     m = np.array([parse(o["floater.payload_mass"], "mass") for _, o in designs])
@@ -371,7 +374,7 @@ def test_interrupted_sweep_resumes_and_matches(tmp_path):
     sp = small_sweep(tmp_path, nd=4, heights=("5 mm", "6 mm", "7 mm"))  # 12 designs
     out = tmp_path / "run"
     code = (
-        "import time, fields.sweep as s\n"
+        "import time, fields.studies.sweep as s\n"
         "f = s.evaluate_design\n"
         "s.evaluate_design = lambda d: (time.sleep(0.4), f(d))[1]  # slow it down so we can interrupt\n"
         f"s.run_sweep({str(SUSPENSION)!r}, {str(sp)!r}, {str(out)!r}, workers=0, progress=False, chunk_size=1)\n"

@@ -2,7 +2,7 @@
 
 import pytest
 
-from fields import tables
+from fields.input import tables
 
 
 @pytest.mark.parametrize(

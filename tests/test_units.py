@@ -4,7 +4,7 @@ import math
 
 import pytest
 
-from fields.units import UnitParseError, parse
+from fields.input.units import UnitParseError, parse
 
 
 @pytest.mark.parametrize(

@@ -16,9 +16,9 @@ from typing import Any
 
 import numpy as np
 
-from . import tables
-from .errors import GeometryError
-from .model import (
+from fields.input import tables
+from fields.errors import GeometryError
+from fields.model.design import (
     CORE_SHAPES,
     MAGNET_SHAPES,
     BeamGate,
@@ -32,7 +32,7 @@ from .model import (
     axis_to_rotvec,
     rotation_matrix,
 )
-from .units import UnitParseError, parse
+from fields.input.units import UnitParseError, parse
 
 # --------------------------------------------------------------------------------------------
 # a small reader that knows where it is in the file
@@ -653,7 +653,7 @@ def loads(text: str, file: str = "<string>", base_dir: str | Path = ".", check_o
 
 def _check_overlaps(design: Design, file: str) -> None:
     try:
-        from . import bodies as _bodies
+        from fields.model import solids as _bodies
     except ImportError:  # pragma: no cover - bodies is part of the package
         return
     pairs = _bodies.overlapping_pairs(design)
@@ -669,7 +669,7 @@ def load(path: str | Path, check_overlaps: bool = True) -> Design:
     Examples
     --------
     >>> from pathlib import Path
-    >>> d = load(Path(__file__).parent.parent / "geometries" / "suspension.toml")
+    >>> d = load(Path(__file__).parents[2] / "geometries" / "suspension.toml")
     >>> d.floater.magnets[0].shape
     'cylinder'
     """

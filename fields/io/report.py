@@ -15,7 +15,7 @@ import math
 from pathlib import Path
 from typing import Any
 
-from . import __version__
+from fields import __version__
 
 CSS = """
 body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:0;background:#f6f7f9;color:#1d232b}

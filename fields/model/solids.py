@@ -27,7 +27,7 @@ from scipy.spatial import ConvexHull, cKDTree
 from scipy.spatial.transform import Rotation
 
 from fields.errors import GeometryError
-from fields.model import Design, rotation_matrix
+from fields.model.design import Design, rotation_matrix
 
 SOLID_KINDS = ("magnet", "coil", "core", "floater")
 """``kind`` of a :class:`Solid`: fixed magnet, coil winding, core, or floater magnet."""

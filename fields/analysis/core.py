@@ -1,6 +1,6 @@
 """Axial curves, equilibria, stiffness, stability verdict and maps of the floater.
 
-Everything here builds on :func:`fields.forces.wrench_basis`: for iron-free (and unsaturated
+Everything here builds on :func:`fields.physics.forces.wrench_basis`: for iron-free (and unsaturated
 linear-core) designs the force is affine in the coil currents, F(pose, I) = F0(pose) + sum_k I_k
 f_k(pose), so one basis evaluation serves every current.
 
@@ -26,8 +26,8 @@ import numpy as np
 from scipy import optimize
 from scipy.spatial.transform import Rotation
 
-from .errors import SolverError
-from .model import Design
+from fields.errors import SolverError
+from fields.model.design import Design
 
 AXES = ("x", "y", "z", "rx", "ry", "rz")
 #: central-difference steps for the stiffness (METHODS.md section 4: 1e-6 m and 1e-4 rad balance
@@ -75,7 +75,7 @@ def drive_pattern(design: Design, pattern=None) -> np.ndarray:
         return np.ones(k)
     d = np.asarray(pattern, float)
     if d.shape != (k,):
-        from .errors import GeometryError
+        from fields.errors import GeometryError
 
         raise GeometryError("drive pattern", "the pattern", f"{k} numbers, one per coil", list(d))
     return d
@@ -145,7 +145,7 @@ def family_currents(design: Design, extra=()) -> np.ndarray:
 
 
 def _basis(design, positions, rotvecs, order="standard", near_field=True):
-    from .forces import wrench_basis
+    from fields.physics.forces import wrench_basis
 
     return wrench_basis(design, positions, rotvecs, order=order, near_field=near_field)
 
@@ -208,7 +208,7 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
 
 def _saturated_family(design, pos, rot, cur, d, h, up, sat, Fup, kz):
     """Recompute the family at saturated gaps with the nonlinear (clipped) core model."""
-    from .forces import wrench
+    from fields.physics.forces import wrench
 
     idx = np.flatnonzero(sat)
     if idx.size == 0:

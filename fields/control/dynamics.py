@@ -43,7 +43,7 @@ from scipy.integrate import solve_ivp
 from scipy.interpolate import CubicSpline
 from scipy.optimize import brentq, minimize_scalar
 
-from .errors import ContactError, GeometryError, SolverError
+from fields.errors import ContactError, GeometryError, SolverError
 
 #: standard gravity (m/s^2), CGPM 1901; used when the axis is "vertical" and no value is given
 STANDARD_GRAVITY_M_PER_S2 = 9.80665

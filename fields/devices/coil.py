@@ -32,7 +32,7 @@ Mutual inductances between coils use the closed-form vector potential of a circu
 (``M = oint A . dl``, trapezoid rule in angle, spectrally accurate for a periodic integrand) and
 Gauss-Legendre over both cross-sections: any relative placement, windings must not overlap.
 
-A soft-iron core (iron-free approximation of :mod:`fields.sources`, uniform polarization
+A soft-iron core (iron-free approximation of :mod:`fields.physics.sources`, uniform polarization
 ``J = X <B_applied>``) adds, by reciprocity (the flux a magnetic dipole ``m`` links with coil
 ``i`` is ``m . b_i``, ``b_i`` the coil's field per ampere)::
 
@@ -58,9 +58,9 @@ import numpy as np
 from scipy import special
 from scipy.constants import mu_0
 
-from fields import tables
+from fields.input import tables
 from fields.errors import GeometryError
-from fields.model import Coil, Design
+from fields.model.design import Coil, Design
 
 #: copper-area fill factor assumed when a coil gives turns but no wire: random-wound enamelled
 #: round wire reaches about 0.5-0.6 (common practice, no source)
@@ -294,7 +294,7 @@ def air_self_inductance_H(coil: Coil, order: int = 20) -> tuple[float, float]:
 
     Examples
     --------
-    >>> from fields.model import Coil
+    >>> from fields.model.design import Coil
     >>> c = Coil("c", 0.01, 0.02, 0.01, 100, (0, 0, 0), (0, 0, 1), 1.0, 1.0)
     >>> L, err = air_self_inductance_H(c)
     >>> round(float(L) * 1e6, 2), bool(err < 1e-6 * L)
@@ -371,7 +371,7 @@ def _core_inductance_terms(design: Design, gaps_m, hover_currents_A, layers: int
         Incremental core inductance matrix at each gap and hover-current set.
     saturated : ndarray of bool, shape (g,)
     """
-    from fields import sources
+    from fields.physics import sources
 
     k = len(design.coils)
     gaps = np.atleast_1d(np.asarray(gaps_m, dtype=float))
@@ -966,7 +966,7 @@ def resistance_and_cooling(design: Design, coil_index: int) -> tuple[float, floa
 
     The same lumped model as :func:`coil_datasheet`, without its inductance work
     (which costs most of its time and a sweep does not need): ``R20 = rho20 N pi (a + b) /
-    (pi d^2 / 4)`` with copper's resistivity from IEC 60028 (:mod:`fields.tables`), the bare wire
+    (pi d^2 / 4)`` with copper's resistivity from IEC 60028 (:mod:`fields.input.tables`), the bare wire
     diameter ``d`` given or inferred from the turns at the copper fill; cooling over the outer
     cylinder, both end annuli and the bore unless a core fills it.
 

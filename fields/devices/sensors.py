@@ -18,7 +18,7 @@ Hall sensor
 -----------
 The reading is ``B . axis`` at the sensor: the floater's magnets at the floater's pose, the fixed
 magnets (a constant offset), each coil per ampere (cross-talk) and, with cores, the core response
-(iron-free approximation of :mod:`fields.sources`). Subtracting ``c_k I_k`` with ``c_k`` the
+(iron-free approximation of :mod:`fields.physics.sources`). Subtracting ``c_k I_k`` with ``c_k`` the
 coil's share per ampere leaves the floater's signal (exact in the linear model).
 
 Linear range
@@ -34,7 +34,7 @@ from dataclasses import asdict, dataclass
 import numpy as np
 
 from fields.errors import GeometryError, SolverError
-from fields.model import BeamGate, Design, HallSensor, rotation_matrix
+from fields.model.design import BeamGate, Design, HallSensor, rotation_matrix
 
 #: default linearity tolerance: slope within 10 % of its operating-gap value (a design choice)
 LINEARITY_TOLERANCE = 0.1
@@ -540,7 +540,7 @@ def _readings(design: Design, points_m: np.ndarray, axis: np.ndarray, gaps: np.n
 
     Returns floater (g, p), fixed0 (g, p), coils (g, k, p).
     """
-    from fields import sources
+    from fields.physics import sources
 
     st = design.study
     n = gaps.size
@@ -635,7 +635,7 @@ def hall_response(design: Design, sensor: HallSensor, gaps_m=None, operating_gap
     -------
     HallResponse
     """
-    from fields import sources
+    from fields.physics import sources
 
     ax = _unit(sensor.axis, f"sensor {sensor.name}")
     p = np.asarray(sensor.position_m, dtype=float).reshape(1, 3)

@@ -14,7 +14,7 @@ Coils (Amperian equivalence)
 Soft-iron cores (iron-free approximation)
     A core is replaced by a uniformly magnetized body of its own shape with
     ``M = chi_eff H_mean`` per own axis, ``chi_eff = chi / (1 + N chi)``, ``chi = mu_r - 1`` and
-    ``N`` the magnetometric demagnetizing factor (:mod:`fields.demag`). ``H_mean`` is the applied
+    ``N`` the magnetometric demagnetizing factor (:mod:`fields.physics.demag`). ``H_mean`` is the applied
     field (coils, fixed magnets and the floater at its pose) averaged over the core volume with a
     Gauss rule. Core-core coupling and the core's non-uniform self field are ignored (only the
     demagnetizing factor accounts for self interaction). The polarization is clipped at the
@@ -33,9 +33,9 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.constants import mu_0
 
-from fields.demag import core_demag_factors
+from fields.physics.demag import core_demag_factors
 from fields.errors import GeometryError
-from fields.model import Coil, Core, Design, Magnet, rotation_matrix
+from fields.model.design import Coil, Core, Design, Magnet, rotation_matrix
 
 #: number of kernel evaluations per magpylib call (bounds temporary memory to ~100 MB)
 CHUNK = 200_000
@@ -271,7 +271,7 @@ def coil_field_per_ampere_T(coil: Coil, points_m, layers: int = 8) -> np.ndarray
 
     Examples
     --------
-    >>> from fields.model import Coil
+    >>> from fields.model.design import Coil
     >>> c = Coil("c", 0.01, 0.02, 0.01, 100, (0, 0, 0), (0, 0, 1), 1.0, 1.0)
     >>> B = coil_field_per_ampere_T(c, np.array([[0.0, 0.0, 0.1]]))
     >>> bool(B[0, 2] > 0)

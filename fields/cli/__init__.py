@@ -12,8 +12,8 @@ import sys
 import time
 from pathlib import Path
 
-from . import __version__
-from .errors import HoverfieldError
+from fields import __version__
+from fields.errors import HoverfieldError
 
 SAFETY = (
     "Safety: strong magnets pinch fingers and shatter when they snap together, and fly towards iron; "
@@ -28,21 +28,21 @@ def _out_dir(args, design) -> Path:
 
 
 def _load(args):
-    from .geometry import load
+    from fields.input.geometry import load
 
     return load(args.file)
 
 
 def cmd_check(args) -> int:
-    from .export import write_json, write_png
-    from .summary import design_summary
+    from fields.io.export import write_json, write_png
+    from fields.io.summary import design_summary
 
     design = _load(args)
     lines, data = design_summary(design)
     out = _out_dir(args, design)
     for ln in lines:
         print(ln)
-    from . import plots
+    from fields.io import plots
 
     fig = plots.design_picture(design)
     png = write_png(out / "design.png", fig)
@@ -52,7 +52,7 @@ def cmd_check(args) -> int:
 
 
 def cmd_curves(args) -> int:
-    from .runs import run_curves
+    from fields.studies.stages import run_curves
 
     design = _load(args)
     out = _out_dir(args, design)
@@ -70,7 +70,7 @@ def cmd_curves(args) -> int:
 
 
 def cmd_stability(args) -> int:
-    from .runs import run_stability
+    from fields.studies.stages import run_stability
 
     design = _load(args)
     out = _out_dir(args, design)
@@ -87,7 +87,7 @@ def cmd_stability(args) -> int:
 
 
 def cmd_coil(args) -> int:
-    from .runs import run_coil, run_curves
+    from fields.studies.stages import run_coil, run_curves
 
     design = _load(args)
     out = _out_dir(args, design)
@@ -132,7 +132,7 @@ _COIL_ROWS = [
 
 
 def cmd_sensors(args) -> int:
-    from .runs import run_sensors
+    from fields.studies.stages import run_sensors
 
     design = _load(args)
     out = _out_dir(args, design)
@@ -156,7 +156,7 @@ def cmd_sensors(args) -> int:
 
 
 def cmd_control(args) -> int:
-    from .runs import run_control
+    from fields.studies.stages import run_control
 
     design = _load(args)
     out = _out_dir(args, design)
@@ -185,7 +185,7 @@ def cmd_control(args) -> int:
 def cmd_report(args) -> int:
     from pathlib import Path as _P
 
-    from .runs import run_report
+    from fields.studies.stages import run_report
 
     t0 = time.perf_counter()
     design = _load(args)
@@ -204,11 +204,11 @@ def cmd_report(args) -> int:
 
 
 def cmd_sweep(args) -> int:
-    from .sweep import sweep_command
+    from fields.studies.sweep import sweep_command
 
     out = Path(args.out) if args.out else None
     if out is None:
-        from .geometry import load as _ld
+        from fields.input.geometry import load as _ld
 
         out = Path("out") / _ld(args.file).name / "sweep"
     s = sweep_command(args.file, args.sweep, out, workers=args.workers, scheduler_address=args.scheduler,
@@ -221,7 +221,7 @@ def cmd_sweep(args) -> int:
 def cmd_figures(args) -> int:
     import tempfile
 
-    from .runs import make_figures
+    from fields.studies.stages import make_figures
 
     with tempfile.TemporaryDirectory() as tmp:
         files = make_figures(Path(args.out), Path(tmp), progress=not args.quiet)

@@ -5,8 +5,8 @@ Returns lines of text and a JSON-ready dict; printing is the CLI's business.
 
 from __future__ import annotations
 
-from . import tables
-from .model import Design, Magnet
+from fields.input import tables
+from fields.model.design import Design, Magnet
 
 
 def _mm(x: float) -> str:
@@ -40,7 +40,7 @@ def _grade_text(m: Magnet) -> str:
 
 def design_summary(design: Design) -> tuple[list[str], dict]:
     """Human-readable lines and a JSON-ready dict describing ``design``."""
-    from .coil import coil_datasheet  # electrical numbers of each winding
+    from fields.devices.coil import coil_datasheet  # electrical numbers of each winding
 
     lines: list[str] = []
     out: dict = {"name": design.name, "description": design.description, "source": design.source,

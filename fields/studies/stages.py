@@ -11,9 +11,9 @@ from pathlib import Path
 
 import numpy as np
 
-from . import analysis
-from .export import header_lines, write_atomic, write_csv, write_json, write_png
-from .model import Design
+from fields.analysis import core as analysis
+from fields.io.export import header_lines, write_atomic, write_csv, write_json, write_png
+from fields.model.design import Design
 
 
 def _files(out: Path, *names: str) -> list[str]:
@@ -28,7 +28,7 @@ def operating_point(design: Design, curves=None) -> dict:
     held at the operating gap by its hover current (suspension levitators). The six-axis
     equilibrium is then found there (free axes of the study).
     """
-    from .errors import SolverError
+    from fields.errors import SolverError
 
     c = curves if curves is not None else analysis.axial_curves(design)
     d = c.pattern
@@ -59,7 +59,7 @@ def operating_point(design: Design, curves=None) -> dict:
 
 def run_curves(design: Design, out: Path) -> dict:
     """Axial force-gap-current curves: curves.csv, curves.json, curves.png."""
-    from . import plots
+    from fields.io import plots
 
     c = analysis.axial_curves(design)
     eqs = []
@@ -106,7 +106,7 @@ def run_curves(design: Design, out: Path) -> dict:
 
 def run_stability(design: Design, out: Path, curves=None, with_maps: bool = True) -> dict:
     """Equilibrium, 6x6 stiffness, verdict, maps: stability.json, stiffness.csv, maps.csv, PNGs."""
-    from . import plots
+    from fields.io import plots
 
     out = Path(out)
     op = operating_point(design, curves)
@@ -200,7 +200,7 @@ def _close(fig) -> None:
 
 def run_coil(design: Design, out: Path, curves=None, stability=None) -> dict:
     """Coil datasheets (terminal table + coil.json), drive headroom at the operating point."""
-    from . import coil as coilmod
+    from fields.devices import coil as coilmod
 
     out = Path(out)
     c = curves["_curves"] if curves is not None else analysis.axial_curves(design)
@@ -279,7 +279,8 @@ def _group_coil_warnings(warnings: list[str], design: Design) -> list[str]:
 
 def run_sensors(design: Design, out: Path) -> dict:
     """Sensor curves (sensors.csv, sensors.png), Hall decomposition, placement table."""
-    from . import plots, sensors
+    from fields.io import plots
+    from fields.devices import sensors
 
     out = Path(out)
     gaps = design.study.gaps()
@@ -331,7 +332,7 @@ def run_sensors(design: Design, out: Path) -> dict:
                       header_lines(design.name, f"gap from the reading of {h.name} (zero coil current; compensate first)"))
             res["files"].append(str(out / f"inverse_{_slug(h.name)}.csv"))
         except Exception as e:  # noqa: BLE001 - non-monotone readings: report, keep going
-            from .errors import HoverfieldError
+            from fields.errors import HoverfieldError
 
             if not isinstance(e, HoverfieldError):
                 raise
@@ -359,7 +360,7 @@ def _slug(name: str) -> str:
 
 def _axis_tables(design: Design, eq, ax, grid_points: int = 81):
     """Force table along the control axis and the positions grid (s measured along ax.direction)."""
-    from .dynamics import ForceTable
+    from fields.control.dynamics import ForceTable
 
     st = design.study
     if ax.index == 2:
@@ -374,7 +375,7 @@ def _axis_tables(design: Design, eq, ax, grid_points: int = 81):
     dq = np.zeros((len(s), 6))
     dq[:, :3] = s[:, None] * ax.direction[None, :]
     P, Rv = analysis.displace(design, eq.position_m, eq.rotvec_rad, dq)
-    from .forces import wrench_basis
+    from fields.physics.forces import wrench_basis
 
     b = wrench_basis(design, P, Rv)
     p = ax.pattern
@@ -400,9 +401,9 @@ def _axis_sensor(design: Design, eq, ax, s_grid, poses, I0):
     vertical axis when there is one, else the first Hall sensor, else an ideal position sensor."""
     from scipy.interpolate import CubicSpline
 
-    from . import sensors as sensmod
-    from .dynamics import Sensor
-    from .sources import fixed_field_basis, floater_field_T
+    from fields.devices import sensors as sensmod
+    from fields.control.dynamics import Sensor
+    from fields.physics.sources import fixed_field_basis, floater_field_T
 
     st = design.study
     beams = [s for s in design.sensors if s.kind == "beam"]
@@ -473,9 +474,9 @@ def run_control(design: Design, out: Path, stability=None, coil=None) -> dict:
     ``stability`` and ``coil`` are the summaries of :func:`run_stability` and :func:`run_coil`
     when the caller has them (the report does): their equilibrium and inductance matrix are
     reused instead of computed again."""
-    from . import coil as coilmod
-    from . import dynamics as dyn
-    from . import plots
+    from fields.devices import coil as coilmod
+    from fields.control import dynamics as dyn
+    from fields.io import plots
 
     out = Path(out)
     st = stability if stability is not None else run_stability(design, out, with_maps=False)
@@ -483,7 +484,7 @@ def run_control(design: Design, out: Path, stability=None, coil=None) -> dict:
     S = st["_stiffness"]
     ax = analysis.control_axis(design, S)
     if not design.coils or ax.force_per_ampere_N_per_A == 0:
-        from .errors import SolverError
+        from fields.errors import SolverError
 
         raise SolverError(f"control: the coils exert no force along the {ax.name} axis at the equilibrium; "
                           "there is nothing to build a plant from")
@@ -603,7 +604,8 @@ def run_exports(design: Design, out: Path, curves_summary: dict, control_summary
     """Force/stiffness tables (CSV + C header), inverse table, SPICE subcircuit, meshes (STL, GLB)."""
     import trimesh
 
-    from . import bodies, formats
+    from fields.model import solids as bodies
+    from fields.io import formats
 
     out = Path(out)
     exp = out / "exports"
@@ -678,9 +680,9 @@ def run_report(design: Design, out: Path, progress: bool = True, geometry_text: 
 
     from tqdm import tqdm
 
-    from . import plots
-    from .errors import HoverfieldError
-    from .summary import design_summary
+    from fields.io import plots
+    from fields.errors import HoverfieldError
+    from fields.io.summary import design_summary
 
     out = Path(out)
     done: dict[str, dict] = {}
@@ -723,7 +725,7 @@ def run_report(design: Design, out: Path, progress: bool = True, geometry_text: 
         p = out / name
         return json.loads(p.read_text(encoding="utf-8")) if p.is_file() else None
 
-    from .report_builder import build_report
+    from fields.io.report_builder import build_report
 
     html_text = build_report(design, out, done, failed, load, geometry_text)
     write_atomic(out / "report.html", html_text)
@@ -746,9 +748,9 @@ def make_figures(out_dir: Path, work_dir: Path, progress: bool = False) -> list[
     import shutil
     import subprocess
 
-    from .geometry import load
+    from fields.input.geometry import load
 
-    root = Path(__file__).resolve().parent.parent
+    root = Path(__file__).resolve().parents[2]
     out_dir = Path(out_dir)
     out_dir.mkdir(parents=True, exist_ok=True)
     written = []

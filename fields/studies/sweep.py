@@ -10,7 +10,7 @@ file reference").
 
 Every design is made by editing the *parsed* base geometry file (a dict; the file is never
 touched), writing it back to TOML text and running the normal loader
-(:func:`fields.geometry.loads`), so every design is validated exactly like a user's file. A
+(:func:`fields.input.geometry.loads`), so every design is validated exactly like a user's file. A
 design that fails (any :class:`fields.errors.HoverfieldError`) keeps its one-line reason in the
 ``failure`` column; it never stops the sweep.
 
@@ -54,9 +54,9 @@ from typing import Any
 
 import numpy as np
 
-from . import __version__
-from .errors import GeometryError, HoverfieldError
-from .model import Design
+from fields import __version__
+from fields.errors import GeometryError, HoverfieldError
+from fields.model.design import Design
 
 # ============================================================================== result columns
 
@@ -112,8 +112,8 @@ def _stiffness_and_basis(design: Design, position_m, rotvec_rad):
     Returns the basis (whose last pose is the unperturbed one) and a function currents -> the
     :class:`fields.analysis.Stiffness`, so one call serves the hover current, k_i and the 6x6.
     """
-    from . import analysis
-    from .forces import wrench_basis
+    from fields.analysis import core as analysis
+    from fields.physics.forces import wrench_basis
 
     P, Rv, finish = analysis.stiffness_stencil(design, position_m, rotvec_rad)
     b = wrench_basis(design, P, Rv)
@@ -152,10 +152,10 @@ def evaluate_design(design: Design) -> dict:
     - Payload envelope: masses whose weight the force ``F0 +- |k_i| I_max`` can hold at the
       operating gap, as in :func:`fields.analysis.axial_curves`.
     """
-    from . import analysis
-    from . import coil as coilmod
-    from .coil import DEFAULT_INSULATION_CLASS_C, steady_temperature_C
-    from .tables import COPPER_ALPHA_20C_PER_K
+    from fields.analysis import core as analysis
+    from fields.devices import coil as coilmod
+    from fields.devices.coil import DEFAULT_INSULATION_CLASS_C, steady_temperature_C
+    from fields.input.tables import COPPER_ALPHA_20C_PER_K
 
     st = design.study
     up = design.up
@@ -307,7 +307,7 @@ class Parameter:
             return float(x), float(x)
         text = f"{x:.12g} {self.unit_text}"
         if self.unit_kind == "temperature":
-            from .units import parse
+            from fields.input.units import parse
 
             return text, parse(text, "temperature")
         return text, x * self.unit_factor
@@ -400,7 +400,7 @@ def _err(file: str, path: str, rule: str, got: Any, what: str = "the value") -> 
 
 
 def _show(v: Any) -> str:
-    from .geometry import _show as show
+    from fields.input.geometry import _show as show
 
     return show(v)
 
@@ -464,7 +464,7 @@ def _set(data: dict, path: str, value: Any) -> None:
 
 
 def _quantity_kind(value: str) -> str | None:
-    from .units import KINDS, UnitParseError, parse
+    from fields.input.units import KINDS, UnitParseError, parse
 
     for kind in KINDS:
         try:
@@ -482,7 +482,7 @@ _SI_SUFFIX = {"length": "m", "mass": "kg", "current": "A", "flux_density": "T", 
 
 
 def _parameter(t: dict, i: int, base: dict, base_name: str, file: str, mode: str) -> Parameter:
-    from .units import UnitParseError, parse
+    from fields.input.units import UnitParseError, parse
 
     where = f"parameters[{i}]"
     if not isinstance(t, dict):
@@ -568,7 +568,7 @@ def _parameter(t: dict, i: int, base: dict, base_name: str, file: str, mode: str
             raise _err(file, f"{where}.start", "a number followed by a unit", t["start"])
         x0 = float(m.group(1))
         # the stop value in the start's unit (ranges are spaced in the unit the user wrote)
-        from .units import registry
+        from fields.input.units import registry
 
         ureg = registry()
         x1 = float(ureg.Quantity(t["stop"].replace("^", "**")).to(ureg.Quantity(1, unit_text).units).magnitude) \
@@ -616,12 +616,12 @@ def load_sweep(path: str | Path, base_path: str | Path | None = None) -> SweepSp
     Examples
     --------
     >>> from pathlib import Path
-    >>> root = Path(__file__).parent.parent / "geometries"
+    >>> root = Path(__file__).parents[2] / "geometries"
     >>> spec = load_sweep(root / "sweeps" / "suspension_magnet.toml", root / "suspension.toml")
     >>> spec.mode, spec.n_designs, [p.column for p in spec.parameters]
     ('grid', 64, ['floater.magnets[0].diameter_m', 'floater.magnets[0].height_m'])
     """
-    from . import geometry
+    from fields.input import geometry
 
     p = Path(path)
     file = str(path)
@@ -765,7 +765,7 @@ def _limit_value(v: Any, col: str, file: str, where: str) -> float:
         if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
             raise _err(file, where, f"a plain number ({col} has no unit)", v)
         return float(v)
-    from .units import registry
+    from fields.input.units import registry
 
     ureg = registry()
     if not isinstance(v, str):
@@ -894,7 +894,7 @@ def design_text(base_text: str, overrides: dict, comments: tuple[str, ...] = ())
 
 def _run_chunk(task: tuple) -> list[dict]:
     """Evaluate a chunk of designs (runs in a worker process or on a Dask worker)."""
-    from . import geometry
+    from fields.input import geometry
 
     base_text, label, base_dir, items = task
     base = tomllib.loads(base_text)
@@ -924,7 +924,7 @@ def _chunk_name(spec: SweepSpec, first: int, last: int) -> str:
 
 
 def _write_chunk(path: Path, spec: SweepSpec, rows: list[dict], si: dict[int, tuple]) -> None:
-    from .export import csv_text, write_atomic
+    from fields.io.export import csv_text, write_atomic
 
     cols = _columns(spec)
     body = []
@@ -1226,7 +1226,7 @@ def run_sweep(base_path, sweep_path, out_dir, workers: int | None = None, schedu
         done = _done_rows(chunk_dir, spec)
     missing = [i for i, _, _ in full if i not in done]
     if missing:
-        from .errors import SolverError
+        from fields.errors import SolverError
 
         raise SolverError(f"sweep: designs {missing[:5]} have no result after the run; run it again to resume")
     table = [_convert_row(spec, done[i]) for i, _, _ in full]
@@ -1234,8 +1234,8 @@ def run_sweep(base_path, sweep_path, out_dir, workers: int | None = None, schedu
 
 
 def _finish(spec: SweepSpec, out: Path, full, table: list[dict], evaluated: int, reused: int, t0: float) -> SweepResult:
-    from . import geometry
-    from .export import csv_text, write_atomic, write_json, write_png
+    from fields.input import geometry
+    from fields.io.export import csv_text, write_atomic, write_json, write_png
 
     cols = _columns(spec)
     n = len(table)
@@ -1277,7 +1277,7 @@ def _finish(spec: SweepSpec, out: Path, full, table: list[dict], evaluated: int,
     files["front.csv"] = str(write_atomic(out / "front.csv", csv_text(cols, [row_vals(table[i]) for i in front], head + [
         "# Pareto front (non-dominated feasible designs) over " + ", ".join(spec.pareto)])))
     # plots
-    from . import plots as plots_sweep
+    from fields.io import plots as plots_sweep
 
     if len(fidx):
         pf = plots_sweep.front_scatter(V[fidx][:, [names.index(c) for c in spec.pareto]] if spec.pareto else V[fidx][:, :1],

@@ -10,7 +10,7 @@ import re
 
 import numpy as np
 
-from . import __version__
+from fields import __version__
 
 
 def _c_ident(name: str) -> str:

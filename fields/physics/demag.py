@@ -2,7 +2,7 @@
 
 The magnetometric (volume-averaged) factor ``N`` relates the mean demagnetizing field of a
 uniformly magnetized body to its magnetization, ``<H_d> = -N M``. The three factors along a body's
-own axes always sum to one. They are used by :mod:`fields.sources` for the iron-free core
+own axes always sum to one. They are used by :mod:`fields.physics.sources` for the iron-free core
 approximation ``M = chi / (1 + N chi) H_mean``.
 
 All functions return factors along the body's own ``(x, y, z)`` axes (z = cylinder axis).

@@ -1,11 +1,11 @@
-"""Assemble the HTML report from the JSON files a run wrote (see :mod:`fields.report`)."""
+"""Assemble the HTML report from the JSON files a run wrote (see :mod:`fields.io.report`)."""
 
 from __future__ import annotations
 
 from pathlib import Path
 
-from . import __version__
-from .report import esc, img, num, page, table
+from fields import __version__
+from fields.io.report import esc, img, num, page, table
 
 SAFETY_HTML = """<div class="safety"><h3>Safety</h3><ul>
 <li><b>Strong magnets</b> pinch skin and break fingers when they snap together, shatter into sharp chips, and

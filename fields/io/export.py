@@ -18,7 +18,7 @@ from typing import Any, Iterable, Sequence
 
 import numpy as np
 
-from . import __version__
+from fields import __version__
 
 
 def write_atomic(path: str | Path, data: bytes | str) -> Path:

@@ -18,7 +18,7 @@ it, ``F = oint sigma B_ext dA`` with ``sigma = M . n = J . n / mu0``, and the to
 On the symmetry axis of a core-free axisymmetric design (untilted floater) the cap integral is
 done in closed form: ``F_z = sum over charged cap discs of sigma * Phi``, ``Phi`` the flux of the
 sources' solenoid sheets (coil layers, the side currents of axially polarized fixed cylinders and
-rings) through the disc, :func:`fields.sources.sheet_disc_flux_Wb`. Only the coil-layer rule is
+rings) through the disc, :func:`fields.physics.sources.sheet_disc_flux_Wb`. Only the coil-layer rule is
 then left, and the error estimate compares two layer counts.
 
 Near field (issue 3): where a charged cap comes close to a source edge (cylinder, ring and coil
@@ -30,7 +30,7 @@ along each ray, radial Gauss panels bisected until ``GRADE_RATIO`` times their h
 within the edge distance at their centre. The rule is built once per group of poses within
 ``GROUP_TOL_M``/``GROUP_TOL_RAD`` of each other (a stiffness stencil shares one discretisation);
 far poses keep the plain rule. Coil layers are graded per observer near a winding's end face
-(:func:`fields.sources._layer_rule`); on-axis poses of coil designs that need grading leave the
+(:func:`fields.physics.sources._layer_rule`); on-axis poses of coil designs that need grading leave the
 closed-form route for the graded one.
 
 Only the fixed sources' field is used (coils, fixed magnets, cores), never the floater's own.
@@ -47,8 +47,8 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 
 from fields.errors import GeometryError
-from fields.model import Design, Floater, Magnet, rotation_matrix
-from fields.sources import (CEL_CHUNK, CHUNK, AxialSheets, _clip, _leggauss, axial_disc_flux_Wb, axial_sheets,
+from fields.model.design import Design, Floater, Magnet, rotation_matrix
+from fields.physics.sources import (CEL_CHUNK, CHUNK, AxialSheets, _clip, _leggauss, axial_disc_flux_Wb, axial_sheets,
                             core_models, fixed_field_basis, gauss_legendre)
 
 #: rule levels: coil layers, radial nodes, angular nodes, axial/edge nodes, triangle subdivisions,
@@ -259,7 +259,7 @@ class SourceEdges:
 
 def source_edges(design: Design) -> SourceEdges:
     """The rims and straight edges of every fixed solid (magnets, coil windings, cores)."""
-    from fields.bodies import design_solids
+    from fields.model.solids import design_solids
 
     cc, cn, cr, cf, sa, sb = [], [], [], [], [], []
     for s in design_solids(design):
@@ -679,7 +679,7 @@ def _box_lower_bound(design: Design, P: np.ndarray, Rv: np.ndarray) -> np.ndarra
     """A lower bound (n,) of the floater's clearance: the distance between world-axis-aligned
     bounding boxes of the posed floater solids and of each fixed solid (exact for coaxial flat
     faces seen along the axis; never above the true clearance)."""
-    from fields.bodies import design_solids
+    from fields.model.solids import design_solids
 
     solids = design_solids(design)
     fl = [s for s in solids if s.on_floater]
@@ -712,9 +712,9 @@ def _clearance(design: Design, P: np.ndarray, Rv: np.ndarray):
     floater and a fixed body come closer than CLEARANCE_EXACT_WITHIN_M; elsewhere the box
     distance, a lower bound that already proves there is no contact."""
     try:
-        from fields.bodies import floater_clearance_m
+        from fields.model.solids import floater_clearance_m
     except ImportError:
-        return np.full(P.shape[0], np.nan), ("contact not checked: fields.bodies is not available",)
+        return np.full(P.shape[0], np.nan), ("contact not checked: fields.model.solids is not available",)
     c = _box_lower_bound(design, P, Rv)
     near = c <= CLEARANCE_EXACT_WITHIN_M
     if np.any(near):
@@ -807,7 +807,7 @@ def _raw_axis(design: Design, P, levels: tuple[str, ...], currents_A=None):
     """:func:`_raw` for on-axis, untilted poses of a core-free axisymmetric design, per level.
 
     ``F_z = sum over charged cap discs of sigma * Phi`` with ``Phi`` the closed-form flux of the
-    sources' solenoid sheets through the disc (:func:`fields.sources.sheet_disc_flux_Wb`). The
+    sources' solenoid sheets through the disc (:func:`fields.physics.sources.sheet_disc_flux_Wb`). The
     cap integral is exact; only the coil layers depend on the level. One kernel call serves
     all levels (the magnets' sheets are shared). Transverse force and torque are zero.
     """

@@ -1,0 +1,4 @@
+"""`python -m fields.cli`."""
+from fields.cli import main
+
+raise SystemExit(main())
