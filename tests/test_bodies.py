@@ -1,4 +1,4 @@
-"""Tests of fields.model.solids: signed distances, clearance, overlaps, meshes, outlines.
+"""Tests of the solid model (fields.model.sdf, solids, clearance, meshes, outlines).
 
 References are built independently of the code under test: closest points by clamping
 (Ericson, *Real-Time Collision Detection*, 2005, 5.1.3), elementary volumes (pi r^2 h,
@@ -16,8 +16,12 @@ from hypothesis import strategies as st
 from scipy.spatial import cKDTree
 from scipy.spatial.transform import Rotation
 
+from fields.errors import GeometryError, InputError
+from fields.model import clearance as C
+from fields.model import meshes as M
+from fields.model import outlines as O
+from fields.model import sdf as S
 from fields.model import solids as B
-from fields.errors import GeometryError
 from fields.model.design import Coil, Core, Design, Floater, Magnet, Study
 
 # Tolerances (named, with the reason)
@@ -91,10 +95,10 @@ def ref_cuboid(p, a):
 def test_primitive_sdfs_equal_clamped_closest_point_distances(p):
     # Reference: closest point by clamping (Ericson 2005, 5.1.3) in 3-D or in the meridian plane.
     p = np.asarray(p)
-    assert B.sdf_cylinder(p, 0.01, 0.012) == pytest.approx(ref_ring(p, 0.0, 0.01, 0.012), abs=ROUND)
-    assert B.sdf_ring(p, 0.004, 0.015, 0.01) == pytest.approx(ref_ring(p, 0.004, 0.015, 0.01), abs=ROUND)
-    assert B.sdf_cuboid(p, (0.02, 0.01, 0.006)) == pytest.approx(ref_cuboid(p, (0.02, 0.01, 0.006)), abs=ROUND)
-    assert B.sdf_sphere(p, 0.007) == pytest.approx(np.linalg.norm(p) - 0.007, abs=ROUND)
+    assert S.sdf_cylinder(p, 0.01, 0.012) == pytest.approx(ref_ring(p, 0.0, 0.01, 0.012), abs=ROUND)
+    assert S.sdf_ring(p, 0.004, 0.015, 0.01) == pytest.approx(ref_ring(p, 0.004, 0.015, 0.01), abs=ROUND)
+    assert S.sdf_cuboid(p, (0.02, 0.01, 0.006)) == pytest.approx(ref_cuboid(p, (0.02, 0.01, 0.006)), abs=ROUND)
+    assert S.sdf_sphere(p, 0.007) == pytest.approx(np.linalg.norm(p) - 0.007, abs=ROUND)
 
 
 @settings(max_examples=200, deadline=None)
@@ -103,8 +107,8 @@ def test_sdfs_are_1_lipschitz(p, q):
     # A Euclidean distance function is 1-Lipschitz (triangle inequality).
     p, q = np.asarray(p), np.asarray(q)
     dist = np.linalg.norm(p - q)
-    for f in (lambda x: B.sdf_cylinder(x, 0.01, 0.012), lambda x: B.sdf_ring(x, 0.004, 0.015, 0.01),
-              lambda x: B.sdf_cuboid(x, (0.02, 0.01, 0.006)), lambda x: B.sdf_sphere(x, 0.007)):
+    for f in (lambda x: S.sdf_cylinder(x, 0.01, 0.012), lambda x: S.sdf_ring(x, 0.004, 0.015, 0.01),
+              lambda x: S.sdf_cuboid(x, (0.02, 0.01, 0.006)), lambda x: S.sdf_sphere(x, 0.007)):
         assert abs(f(p) - f(q)) <= dist + LIPSCHITZ_SLACK
 
 
@@ -115,11 +119,11 @@ def test_sdf_sign_matches_independent_inside_test(p):
     x, y, z = p
     r = np.hypot(x, y)
     p = np.asarray(p)
-    d = B.sdf_ring(p, 0.004, 0.015, 0.01)
+    d = S.sdf_ring(p, 0.004, 0.015, 0.01)
     inside = (0.004 < r < 0.015) and abs(z) < 0.005
     if abs(d) > ROUND:
         assert (d < 0) == inside
-    d = B.sdf_cuboid(p, (0.02, 0.01, 0.006))
+    d = S.sdf_cuboid(p, (0.02, 0.01, 0.006))
     inside = abs(x) < 0.01 and abs(y) < 0.005 and abs(z) < 0.003
     if abs(d) > ROUND:
         assert (d < 0) == inside
@@ -142,7 +146,7 @@ def test_ring_sdf_against_dense_surface_cloud():
     rng = np.random.default_rng(0)
     q = rng.uniform(-0.025, 0.025, size=(300, 3))
     kd = cKDTree(cloud).query(q)[0]
-    d = B.sdf_ring(q, ri, ro, h)
+    d = S.sdf_ring(q, ri, ro, h)
     assert np.all(np.abs(np.abs(d) - kd) <= spacing)
 
 
@@ -160,12 +164,12 @@ def test_winding_number_inside_test_on_meshed_sphere_and_box():
     q = rng.uniform(-0.015, 0.015, size=(400, 3))
     r = np.linalg.norm(q, axis=1)
     far = np.abs(r - 0.01) > 5e-4
-    w = B.winding_number(q[far], sphere.vertices, sphere.faces)
+    w = S.winding_number(q[far], sphere.vertices, sphere.faces)
     assert np.all((w > 0.5) == (r[far] < 0.01))
     assert np.all(np.abs(w - np.round(w)) < 1e-9)  # closed mesh: integer winding numbers
     box = trimesh.creation.box(extents=(0.02, 0.01, 0.006))
     inside = np.all(np.abs(q) < [0.01, 0.005, 0.003], axis=1)
-    w = B.winding_number(q, box.vertices, box.faces)
+    w = S.winding_number(q, box.vertices, box.faces)
     assert np.all((w > 0.5) == inside)
 
 
@@ -174,7 +178,7 @@ def test_mesh_sdf_of_a_box_mesh_equals_the_analytic_box_distance():
     rng = np.random.default_rng(2)
     box = trimesh.creation.box(extents=(0.02, 0.01, 0.006))
     q = rng.uniform(-0.02, 0.02, size=(300, 3))
-    d = B.sdf_mesh(q, box.vertices, box.faces)
+    d = S.sdf_mesh(q, box.vertices, box.faces)
     np.testing.assert_allclose(d, ref_cuboid(q, (0.02, 0.01, 0.006)), atol=ROUND)
 
 
@@ -185,7 +189,7 @@ def test_point_triangle_distance_regions():
     f = np.array([[0, 1, 2]])
     q = np.array([[0.2, 0.2, 0.5], [0.5, -1.0, 0.0], [-1.0, -1.0, 1.0], [1.0, 1.0, 0.0]])
     expected = [0.5, 1.0, np.sqrt(3.0), np.sqrt(0.5)]
-    np.testing.assert_allclose(B.triangle_distance_m(q, v, f), expected, rtol=1e-14)
+    np.testing.assert_allclose(S.triangle_distance_m(q, v, f), expected, rtol=1e-14)
 
 
 # ----------------------------------------------------------------------------------------------
@@ -202,11 +206,11 @@ def test_clearance_of_coaxial_discs_is_the_face_gap(spin):
     gaps = np.linspace(1e-4, 0.02, 50)
     pos = np.column_stack([np.zeros(50), np.zeros(50), gaps])
     rv = np.tile([0.0, 0.0, spin], (50, 1))
-    np.testing.assert_allclose(B.floater_clearance_m(d, pos, rv), gaps, rtol=0, atol=ROUND)
+    np.testing.assert_allclose(C.floater_clearance_m(d, pos, rv), gaps, rtol=0, atol=ROUND)
     # floater wider than the fixed disc, and a ring over a disc, stay exact
     d2 = make_design([disc("base", 0.01, 0.01, -0.005)],
                      [Magnet("fr", "ring", (0.006, 0.03, 0.004), (0, 0, 1.2), position_m=(0, 0, 0.002))])
-    np.testing.assert_allclose(B.floater_clearance_m(d2, pos, rv), gaps, rtol=0, atol=ROUND)
+    np.testing.assert_allclose(C.floater_clearance_m(d2, pos, rv), gaps, rtol=0, atol=ROUND)
 
 
 def test_clearance_of_sphere_floater_equals_centre_distance_minus_radius():
@@ -227,7 +231,7 @@ def test_clearance_of_sphere_floater_equals_centre_distance_minus_radius():
     to_block = Rotation.from_rotvec([0.0, 0.0, 0.4]).inv().apply(centres - [0.06, 0, -0.005])
     exact = np.minimum(ref_ring(centres - [0, 0, -0.005], 0.005, 0.015, 0.01),
                        ref_cuboid(to_block, (0.03, 0.02, 0.01))) - 0.004
-    det = B.clearance_detail(d, pos, rv)
+    det = C.clearance_detail(d, pos, rv)
     apart = exact > 0
     assert 50 < apart.sum() < n  # both cases are exercised
     err = det.clearance_m[apart] - exact[apart]
@@ -247,10 +251,12 @@ def test_clearance_of_sphere_floater_equals_centre_distance_minus_radius():
 def test_clearance_negative_when_overlapping_and_rejects_bad_shapes():
     base = disc("base", 0.03, 0.01, -0.005)
     d = make_design([base], [disc("fm", 0.02, 0.005, 0.0025)])
-    c = B.floater_clearance_m(d, [[0, 0, -0.001]], [[0, 0, 0]])
+    c = C.floater_clearance_m(d, [[0, 0, -0.001]], [[0, 0, 0]])
     assert c[0] == pytest.approx(-0.001, abs=ROUND)  # 1 mm interpenetration of coaxial faces
-    with pytest.raises(GeometryError, match="positions_m must be an array of shape"):
-        B.floater_clearance_m(d, np.zeros((4, 2)), np.zeros((4, 2)))
+    with pytest.raises(InputError, match=r"clearance_detail: positions_m must be an array of shape \(n, 3\)"):
+        C.floater_clearance_m(d, np.zeros((4, 2)), np.zeros((4, 2)))
+    with pytest.raises(InputError, match="clearance_detail: positions_m and rotvecs_rad must be finite"):
+        C.floater_clearance_m(d, [[0, 0, np.nan]], [[0, 0, 0]])
 
 
 # ----------------------------------------------------------------------------------------------
@@ -263,12 +269,12 @@ def test_overlapping_pairs_names_the_pair():
     touching = Core("core", "cylinder", (0.012, 0.01), (0, 0, -0.005), (0, 0, 1), 1000.0, 1.5)
     fat = Core("core", "cylinder", (0.014, 0.01), (0, 0, -0.005), (0, 0, 1), 1000.0, 1.5)
     fm = disc("fm", 0.02, 0.005, 0.0025)
-    assert B.overlapping_pairs(make_design([], [fm], [coil], [touching])) == []
-    pairs = B.overlapping_pairs(make_design([], [fm], [coil], [fat]))
+    assert C.overlapping_pairs(make_design([], [fm], [coil], [touching])) == []
+    pairs = C.overlapping_pairs(make_design([], [fm], [coil], [fat]))
     assert [(a, b) for a, b, _ in pairs] == [("coil", "core")]
     assert pairs[0][2] == pytest.approx(-0.001, abs=1e-9)  # radial overlap 7 mm - 6 mm
     # floater pushed into the coil by a negative operating gap
-    pairs = B.overlapping_pairs(make_design([], [fm], [coil], [touching], gap_m=-0.002))
+    pairs = C.overlapping_pairs(make_design([], [fm], [coil], [touching], gap_m=-0.002))
     assert {(a, b) for a, b, _ in pairs} == {("coil", "fm"), ("core", "fm")}
 
 
@@ -293,7 +299,7 @@ def test_body_meshes_are_watertight_with_the_exact_volumes():
         "ball": 4 / 3 * np.pi * 0.004**3,
         "fm": np.pi * 0.01**2 * 0.005,
     }
-    meshes = B.body_meshes(d)
+    meshes = M.body_meshes(d)
     assert set(meshes) == set(expected)
     for name, mesh in meshes.items():
         assert mesh.is_watertight, name
@@ -305,7 +311,7 @@ def test_body_meshes_are_watertight_with_the_exact_volumes():
 def test_polygon_radius_gives_the_circle_area():
     # Regular N-gon area (N/2) r^2 sin(2 pi / N) (elementary geometry) equals pi r^2.
     for n in (6, 24, 96):
-        rp = B.polygon_radius_m(0.01, n)
+        rp = M.polygon_radius_m(0.01, n)
         assert n / 2 * rp**2 * np.sin(2 * np.pi / n) == pytest.approx(np.pi * 0.01**2, rel=1e-14)
 
 
@@ -321,7 +327,7 @@ def polygon_area(p):
 def test_side_section_of_coaxial_stack_is_exact_rectangles():
     base = Magnet("base", "ring", (0.01, 0.03, 0.01), (0, 0, 1.2), position_m=(0, 0, -0.005))
     fm = disc("fm", 0.02, 0.005, 0.0025)
-    out = B.section_outlines(make_design([base], [fm]), "xz")
+    out = O.section_outlines(make_design([base], [fm]), "xz")
     by = {}
     for name, kind, poly in out:
         by.setdefault(name, []).append((kind, poly))
@@ -342,7 +348,7 @@ def test_top_view_of_ring_has_a_clockwise_hole_and_tilted_ring_bore_shrinks():
     n = 96
     ring = Magnet("ring", "ring", (0.01, 0.03, 0.004), (0, 0, 1.2), position_m=(0, 0, -0.002))
     fm = disc("fm", 0.02, 0.005, 0.0025)
-    out = [(k, p) for name, k, p in B.section_outlines(make_design([ring], [fm]), "xy") if name == "ring"]
+    out = [(k, p) for name, k, p in O.section_outlines(make_design([ring], [fm]), "xy") if name == "ring"]
     areas = sorted(polygon_area(p) for _, p in out)
     poly_area = lambda r: n / 2 * r**2 * np.sin(2 * np.pi / n)  # noqa: E731
     assert areas[0] == pytest.approx(-poly_area(0.005), rel=1e-9)  # hole, clockwise
@@ -351,15 +357,15 @@ def test_top_view_of_ring_has_a_clockwise_hole_and_tilted_ring_bore_shrinks():
     # pi ri^2 cos(0.3), offset by h sin(0.3); so it is smaller than pi ri^2 cos(0.3).
     tilted = Magnet("ring", "ring", (0.01, 0.03, 0.004), (0, 0, 1.2), position_m=(0, 0, -0.002),
                     rotvec_rad=(0.3, 0.0, 0.0))
-    out = [p for name, _, p in B.section_outlines(make_design([tilted], [fm]), "xy") if name == "ring"]
+    out = [p for name, _, p in O.section_outlines(make_design([tilted], [fm]), "xy") if name == "ring"]
     hole = [-polygon_area(p) for p in out if polygon_area(p) < 0]
     assert len(hole) == 1 and 0 < hole[0] < np.pi * 0.005**2 * np.cos(0.3)
 
 
 def test_section_outlines_rejects_unknown_plane():
     d = make_design([], [disc("fm", 0.02, 0.005, 0.0025)])
-    with pytest.raises(GeometryError, match='section_outlines: plane must be "xz" or "xy"; got yz.'):
-        B.section_outlines(d, "yz")
+    with pytest.raises(InputError, match='section_outlines: plane must be "xz" or "xy"; got \'yz\'.'):
+        O.section_outlines(d, "yz")
 
 
 def test_duplicate_names_are_rejected():

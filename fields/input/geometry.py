@@ -17,7 +17,7 @@ from typing import Any
 import numpy as np
 
 from fields.input import tables
-from fields.errors import GeometryError
+from fields.errors import GeometryError, SolverError
 from fields.model.design import (
     CORE_SHAPES,
     MAGNET_SHAPES,
@@ -33,6 +33,9 @@ from fields.model.design import (
     rotation_matrix,
 )
 from fields.input.units import UnitParseError, parse
+from fields.model.clearance import overlapping_pairs
+from fields.model.gap import gap_axis, nearest_reference
+from fields.model.solids import Solid, coil_solid, core_solid, magnet_solid
 
 # --------------------------------------------------------------------------------------------
 # a small reader that knows where it is in the file
@@ -446,53 +449,9 @@ def _sensor(t: _Table, i: int):
 
 
 # --------------------------------------------------------------------------------------------
-# solids' vertical extents, for the gap definition
 
 
-def _extent_along(vertices: np.ndarray, up: np.ndarray) -> tuple[float, float]:
-    h = vertices @ up
-    return float(h.min()), float(h.max())
-
-
-def _primitive_points(shape: str, dims: tuple[float, ...], n: int = 64) -> np.ndarray:
-    """Points on the boundary of a primitive in its own frame, enough for exact vertical extents."""
-    t = np.linspace(0, 2 * np.pi, n, endpoint=False)
-    if shape in ("cylinder", "ring", "coil"):
-        r = dims[-2] / 2 if shape != "coil" else dims[1]
-        h = dims[-1]
-        c = np.stack([r * np.cos(t), r * np.sin(t)], axis=1)
-        return np.concatenate([np.c_[c, np.full(n, -h / 2)], np.c_[c, np.full(n, h / 2)]])
-    if shape == "cuboid":
-        a, b, c = (d / 2 for d in dims)
-        return np.array([[x, y, z] for x in (-a, a) for y in (-b, b) for z in (-c, c)])
-    if shape == "sphere":
-        r = dims[0] / 2
-        p, q = np.meshgrid(np.linspace(0, np.pi, 33), t)
-        return r * np.stack([np.sin(p) * np.cos(q), np.sin(p) * np.sin(q), np.cos(p)], axis=-1).reshape(-1, 3)
-    raise ValueError(shape)
-
-
-def solid_points(kind: str, obj, parent_pos=None, parent_rot=None) -> np.ndarray:
-    """Boundary points (p, 3) of a solid in world coordinates (used for extents and gap definition)."""
-    if kind == "coil":
-        own = _primitive_points("coil", (obj.inner_radius_m, obj.outer_radius_m, obj.height_m))
-        rot, pos = rotation_matrix(obj.rotvec_rad), np.asarray(obj.position_m)
-    elif kind == "core":
-        own = _primitive_points(obj.shape, obj.dimensions_m)
-        rot, pos = rotation_matrix(obj.rotvec_rad), np.asarray(obj.position_m)
-    else:
-        own = obj.mesh_vertices_m if obj.shape == "mesh" else _primitive_points(obj.shape, obj.dimensions_m)
-        rot, pos = rotation_matrix(obj.rotvec_rad), np.asarray(obj.position_m)
-    pts = own @ rot.T + pos
-    if parent_rot is not None:
-        pts = pts @ rotation_matrix(parent_rot).T + np.asarray(parent_pos)
-    return pts
-
-
-# --------------------------------------------------------------------------------------------
-
-
-def _study(t: _Table, design_bodies: dict[str, np.ndarray], floater: Floater, file: str) -> Study:
+def _study(t: _Table, fixed: tuple[Solid, ...], floater: Floater, file: str) -> Study:
     t.done(("gap_min", "gap_max", "gap_points", "operating_gap", "gap_reference", "gap_side", "currents",
             "lateral_span", "lateral_points", "tilt_span", "tilt_points", "gravity", "gravity_direction",
             "supply_voltage", "floater_tilt_axis", "floater_tilt_angle", "floater_lateral_position",
@@ -515,41 +474,31 @@ def _study(t: _Table, design_bodies: dict[str, np.ndarray], floater: Floater, fi
         ax = t.direction("floater_tilt_axis")
         ang = t.quantity("floater_tilt_angle", "angle")
         tilt_rot = tuple(float(a * ang) for a in ax)
-    # floater's extent along "up" in its own frame (nominal orientation), lateral position x, y
-    fpts = np.concatenate([solid_points("magnet", m, (0, 0, 0), tilt_rot) for m in floater.magnets])
-    f_lo, f_hi = _extent_along(fpts, up)
     lateral = t.vector("floater_lateral_position", "length", (0.0, 0.0, 0.0))
-    if not design_bodies:
+    if not fixed:
         raise GeometryError(f"{file}: study.gap_reference", "a design", "given at least one fixed body (coil, core or magnet) to measure the gap from", "none")
-    names = list(design_bodies)
+    names = [s.name for s in fixed]
+    floater_solids = [magnet_solid(m, True) for m in floater.magnets]
     if t.has("gap_reference"):
         ref = t.string("gap_reference")
-        if ref not in design_bodies:
+        if ref not in names:
             near = difflib.get_close_matches(ref, names, n=1)
             hint = f" (did you mean \"{near[0]}\"?)" if near else ""
             raise t.fail("gap_reference", "the name of a coil, core or magnet: " + ", ".join(f'"{n}"' for n in names) + hint, ref)
         side = t.string("gap_side", "auto", choices=("auto", "above", "below"))
     else:
         side = t.string("gap_side", "above", choices=("auto", "above", "below"))
-        # nearest body on that side: the lowest underside above the floater or the highest top below
-        ref = None
-    ext = {n: _extent_along(p, up) for n, p in design_bodies.items()}
-    if ref is None:
-        # the body whose underside is lowest is the ceiling (suspension designs); the body whose
-        # top is highest is the floor (repulsive bases)
-        ref = min(ext, key=lambda n: ext[n][0]) if side == "above" else max(ext, key=lambda n: ext[n][1])
-    lo, hi = ext[ref]
+        # the body over (under) the floater whose underside is lowest is the ceiling (suspension
+        # designs); the one whose top is highest is the floor (repulsive bases)
+        ref = nearest_reference(fixed, floater_solids, up, side if side != "auto" else "above", lateral, tilt_rot)
     if side == "auto":
         side = "above"
-    up_v = up
-    lat = np.asarray(lateral) - (np.asarray(lateral) @ up_v) * up_v
-    if side == "above":
-        # floater top at (ref underside - gap): origin height = lo - gap - f_hi
-        origin = lat + (lo - f_hi) * up_v
-        direction = -up_v
-    else:
-        origin = lat + (hi - f_lo) * up_v
-        direction = up_v
+    try:
+        axis = gap_axis(fixed, floater_solids, ref, side, up, lateral, tilt_rot, op)
+    except SolverError as e:
+        raise GeometryError(f"{file}: study.operating_gap", "the floater", f"able to reach the operating gap from "
+                            f"gap_reference \"{ref}\" moving along gravity ({e})", t.data.get("operating_gap", "default")) from None
+    origin, direction = axis.origin_m, axis.direction
     currents = ()
     if t.has("currents"):
         v = t.raw("currents")
@@ -633,16 +582,12 @@ def loads(text: str, file: str = "<string>", base_dir: str | Path = ".", check_o
             if o.name in seen:
                 raise GeometryError(f"{file}: {kind}[{i}].name", "each body name", f"unique (also used by {seen[o.name]})", f'"{o.name}"')
             seen[o.name] = f"{kind}[{i}]"
-    bodies: dict[str, np.ndarray] = {}
-    for c in coils:
-        bodies[c.name] = solid_points("coil", c)
-    for c in cores:
-        bodies[c.name] = solid_points("core", c)
-    for m in magnets:
-        bodies[m.name] = solid_points("magnet", m)
+    # the gap is placed by the solid model (the clearance the contact checks use)
+    fixed = tuple(coil_solid(c) for c in coils) + tuple(core_solid(c) for c in cores) + tuple(
+        magnet_solid(m, False) for m in magnets)
     if "study" not in data:
         raise GeometryError(f"{file}: study", "a design", "given a [study] section (gap_min, gap_max, supply_voltage, ...)", "none")
-    study = _study(root.sub("study"), bodies, floater, file)
+    study = _study(root.sub("study"), fixed, floater, file)
     root.done(TOP_KEYS)
     design = Design(name=name, description=description, source=file, coils=coils, cores=cores,
                     magnets=magnets, floater=floater, sensors=sensors, study=study, invented=invented)
@@ -652,11 +597,7 @@ def loads(text: str, file: str = "<string>", base_dir: str | Path = ".", check_o
 
 
 def _check_overlaps(design: Design, file: str) -> None:
-    try:
-        from fields.model import solids as _bodies
-    except ImportError:  # pragma: no cover - bodies is part of the package
-        return
-    pairs = _bodies.overlapping_pairs(design)
+    pairs = overlapping_pairs(design)
     if pairs:
         a, b, depth = pairs[0]
         raise GeometryError(f"{file}: {a} / {b}", "solids at the operating gap", "apart (they overlap)",

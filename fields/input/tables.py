@@ -11,6 +11,8 @@ from dataclasses import dataclass
 
 from scipy import constants
 
+from fields.errors import InputError
+
 
 @dataclass(frozen=True)
 class Grade:
@@ -108,9 +110,12 @@ def parse_gauge(text: str) -> int:
     zeros = {"0": 0, "1/0": 0, "00": -1, "2/0": -1, "000": -2, "3/0": -2, "0000": -3, "4/0": -3}
     if t in zeros:
         return zeros[t]
-    n = int(t)
+    try:
+        n = int(t)
+    except ValueError:
+        raise InputError(f"parse_gauge: the gauge must be an AWG size such as \"AWG 26\"; got {text!r}.") from None
     if not 0 <= n <= 56:
-        raise ValueError(text)
+        raise InputError(f"parse_gauge: the gauge must be between AWG 0000 and AWG 56; got {text!r}.")
     return n
 
 

@@ -12,6 +12,8 @@ import functools
 import math
 import re
 
+from fields.errors import HoverfieldError, InputError
+
 #: the SI unit each kind of quantity is converted to, with the pint dimensionality it must have
 KINDS: dict[str, tuple[str, str]] = {
     "length": ("m", "[length]"),
@@ -52,8 +54,11 @@ def registry():
     return ureg
 
 
-class UnitParseError(ValueError):
-    """Raised by :func:`parse`; the loader turns it into a GeometryError with the key path."""
+class UnitParseError(HoverfieldError, ValueError):
+    """Raised by :func:`parse`; the loader turns it into a GeometryError with the key path.
+
+    ``rule`` says what the value must be (e.g. ``a length (e.g. "5 mm")``), ``got`` is the value.
+    """
 
     def __init__(self, rule: str, got: object) -> None:
         self.rule = rule
@@ -103,6 +108,8 @@ def _parse(value: object, kind: str) -> float:
     >>> round(parse("5 deg", "angle"), 6)
     0.087266
     """
+    if kind not in KINDS:
+        raise InputError(f"parse: kind must be one of {', '.join(sorted(KINDS))}; got {kind!r}.")
     si_unit, dim = KINDS[kind]
     if isinstance(value, bool) or not isinstance(value, str):
         if isinstance(value, (int, float)):

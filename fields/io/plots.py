@@ -25,7 +25,7 @@ def design_picture(design, gap_m: float | None = None):
     -------
     matplotlib.figure.Figure
     """
-    from fields.model.solids import section_outlines
+    from fields.model.outlines import section_outlines
 
     gap = design.study.operating_gap_m if gap_m is None else gap_m
     fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(11, 5.2), gridspec_kw={"width_ratios": [1.15, 1]})

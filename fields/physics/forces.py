@@ -712,7 +712,7 @@ def _clearance(design: Design, P: np.ndarray, Rv: np.ndarray):
     floater and a fixed body come closer than CLEARANCE_EXACT_WITHIN_M; elsewhere the box
     distance, a lower bound that already proves there is no contact."""
     try:
-        from fields.model.solids import floater_clearance_m
+        from fields.model.clearance import floater_clearance_m
     except ImportError:
         return np.full(P.shape[0], np.nan), ("contact not checked: fields.model.solids is not available",)
     c = _box_lower_bound(design, P, Rv)

@@ -604,7 +604,7 @@ def run_exports(design: Design, out: Path, curves_summary: dict, control_summary
     """Force/stiffness tables (CSV + C header), inverse table, SPICE subcircuit, meshes (STL, GLB)."""
     import trimesh
 
-    from fields.model import solids as bodies
+    from fields.model import meshes as bodies
     from fields.io import formats
 
     out = Path(out)
