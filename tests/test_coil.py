@@ -1,4 +1,4 @@
-"""Tests of fields.devices.coil against published formulas, standards and independent numerical integration.
+"""Tests of the coil modules (fields.devices.coil, winding, inductance, drive) against published formulas, standards and independent numerical integration.
 
 Every reference value is built here with scipy / magpylib, not with the code under test.
 """
@@ -12,9 +12,11 @@ from scipy.constants import mu_0
 from scipy.special import ellipe, ellipk
 
 from fields.input import tables
-from fields.devices.coil import (air_mutual_inductance_H, air_self_inductance_H, coil_datasheet, drive_headroom,
-                         mutual_inductance_matrix, steady_temperature_C)
-from fields.errors import GeometryError
+from fields.devices.coil import coil_datasheet
+from fields.devices.drive import drive_headroom
+from fields.devices.inductance import air_mutual_inductance_H, air_self_inductance_H, mutual_inductance_matrix
+from fields.devices.winding import resistance_and_cooling, steady_temperature_C
+from fields.errors import InputError
 from fields.model.design import Coil, Core, Design, Floater, Magnet, Study
 
 INCH = 0.0254
@@ -233,7 +235,7 @@ def test_copper_constants_and_resistance_vs_iec_60028():
 
 def test_fill_factor_beyond_hexagonal_packing_is_an_error():
     c = coil(0.01, 0.011, 0.001, 100, wire_diameter_m=1e-4 * 1.2)  # copper 1.13 of the window
-    with pytest.raises(GeometryError, match=r"coil c: copper fill factor .* must be at most 0\.9069"):
+    with pytest.raises(InputError, match=r"coil c: the copper fill factor .* must be at most 0\.9069"):
         coil_datasheet(make_design((c,)), 0)
 
 
@@ -265,9 +267,18 @@ def test_datasheet_thermal_warnings_and_voltage_drive_drift():
     assert np.allclose(cd.power_W, 10.0 * S * cd.temperature_rise_K, rtol=1e-10)  # P = h A dT
     # a fixed voltage gives less current when hot: I_hot / I_cold = R20 / R(T)
     assert np.allclose(cd.current_hot_same_voltage_A / hover, 1 / (1 + 0.00393 * (cd.temperature_C - 20)), rtol=1e-12)
-    assert any("above its insulation thermal class 105" in w for w in cd.warnings)
-    assert any("A/mm^2" in w for w in cd.warnings)
-    assert np.all(cd.dL_dgap_H_per_m == 0) and "does not change L" in cd.dL_dgap_note
+    codes = {n.code: n.values for n in cd.notices}
+    # the hottest gap exceeds the 105 C class (IEC 60085 class A)
+    assert codes["above_thermal_class"]["class_C"] == 105.0
+    assert codes["above_thermal_class"]["count"] == int(np.sum(cd.temperature_C > 105.0))
+    # AWG 26 at 1 A: 1 A / (pi/4 (0.0159 in)^2) = 7.8 A/mm^2, above the 3.5 A/mm^2 band
+    assert codes["current_density_high"]["max_A_per_mm2"] == pytest.approx(
+        1.0 / (np.pi / 4 * (0.0159 * INCH * 1e3) ** 2), rel=1e-12)
+    assert np.all(cd.dL_dgap_H_per_m == 0) and cd.inductance_model == "air"
+    # the sweep's cheap resistance and cooling are the data sheet's numbers
+    R20, G = resistance_and_cooling(d, 0)
+    assert R20 == pytest.approx(cd.resistance_20C_ohm, rel=1e-14)
+    assert G == pytest.approx(10.0 * S, rel=1e-12)
 
 
 def test_core_adds_inductance_and_saturation_removes_it():
@@ -280,8 +291,9 @@ def test_core_adds_inductance_and_saturation_removes_it():
     assert lin.inductance_H > 1.2 * air
     assert np.all(lin.dL_dgap_H_per_m == 0)
     assert sat.inductance_core_H < 0.05 * lin.inductance_core_H  # clip model: saturated core is not incremental
-    assert any("saturates" in w for w in sat.warnings)
-    assert "bore filled by a core" in lin.surface_note
+    assert sat.inductance_model == "saturating_core" and "core_saturates" in {n.code for n in sat.notices}
+    assert lin.inductance_model == "linear_core"
+    assert not lin.bore_cooled  # the core fills the bore: not a cooling surface
 
 
 # -------------------------------------------------------------------------------- headroom
@@ -296,8 +308,10 @@ def test_drive_headroom_rule_and_warnings():
     assert r.rate_per_s == pytest.approx(p)
     assert r.voltage_required_V == pytest.approx(R * (I + -k * x0 / ki) + L * (-k) * x0 * p / ki)
     assert r.linear_driver_dissipation_W == pytest.approx((12.0 - R * I) * I)
-    assert r.headroom_V > 0 and not r.warnings
+    assert r.headroom_V > 0 and not r.notices and r.unstable
     low = drive_headroom(cd, I, ki, k, m, 1.0, x0)
-    assert low.headroom_V < 0 and any("short of" in w for w in low.warnings)
-    with pytest.raises(GeometryError, match="drive_headroom: force_per_ampere_N_per_A must be finite and nonzero"):
+    assert low.headroom_V < 0
+    short = [n for n in low.notices if n.code == "supply_short"]
+    assert len(short) == 1 and short[0].values["required_V"] == pytest.approx(low.voltage_required_V)
+    with pytest.raises(InputError, match="drive_headroom: force_per_ampere_N_per_A must be finite and nonzero"):
         drive_headroom(cd, I, 0.0, k, m, 12.0)

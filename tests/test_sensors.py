@@ -1,4 +1,4 @@
-"""Tests of fields.devices.sensors: beam-gate occlusion against exact plane geometry, Hall readings against
+"""Tests of the sensor modules (fields.devices.beam, hall, placement, linearity): beam-gate occlusion against exact plane geometry, Hall readings against
 closed-form coil fields and the general-purpose magpylib object interface."""
 
 from __future__ import annotations
@@ -8,10 +8,13 @@ import pytest
 from scipy import integrate
 from scipy.constants import mu_0
 
-from fields.errors import GeometryError, SolverError
+from fields.devices.beam import beam_blocked_fraction, beam_response
+from fields.devices.hall import hall_response
+from fields.devices.linearity import inverse_table
+from fields.devices.placement import placement_table
+from fields.errors import InputError, SolverError
 from fields.model.design import BeamGate, Coil, Design, Floater, HallSensor, Magnet, Study
-from fields.devices.sensors import (beam_blocked_fraction, beam_response, circle_rectangle_area, hall_response,
-                            inverse_table, placement_table)
+from fields.model.polygon import circle_rectangle_area
 
 
 def make_design(floater_magnets, coils=(), magnets=(), gap_origin=(0.0, 0.0, 0.0), op=0.01):
@@ -105,7 +108,7 @@ def test_vertical_disc_is_a_rectangle_with_linear_output():
 
 def test_beam_direction_must_be_horizontal():
     d = make_design([Magnet("s", "sphere", (0.01,), (0, 0, 1.2))])
-    with pytest.raises(GeometryError, match=r"sensor b: direction must be horizontal"):
+    with pytest.raises(InputError, match=r"sensor b: direction must be horizontal"):
         beam_blocked_fraction(d, BeamGate("b", 0.0, 0.01, 0.01, direction=(1.0, 0.0, 0.5)), [0.01])
 
 
@@ -158,7 +161,9 @@ def test_hall_saturation_and_compensation():
     d = make_design([Magnet("disc", "cylinder", (0.02, 0.005), (0, 0, 1.3))], coils=(c,))
     s = HallSensor("h", (0.0, 0.0, 0.0), (0.0, 0.0, 1.0), 0.02)
     r = hall_response(d, s)
-    assert r.saturates and any("beyond the 20 mT range" in w for w in r.warnings)
+    sat = [n for n in r.notices if n.code == "hall_saturates"]
+    assert r.saturates and len(sat) == 1 and sat[0].values["range_T"] == 0.02
+    assert sat[0].values["worst_T"] == r.worst_case_T
     assert r.worst_case_T == pytest.approx(np.max(np.abs(r.reading_zero_current_T) + 2.0 * np.abs(r.coil_T_per_A[:, 0])))
     I = np.array([0.7])
     assert np.allclose(r.compensated_T(r.reading_T(I), I), r.reading_zero_current_T, rtol=1e-12)
@@ -193,7 +198,7 @@ def test_inverse_table_roundtrip_and_non_monotone_error():
     t = inverse_table(gaps, reading)
     gq = np.array([0.0061, 0.0123, 0.019])
     assert np.allclose(t(0.1 / (1 + (gq / 0.01) ** 3)), gq, atol=2e-6)  # PCHIP on a 0.5 mm grid
-    with pytest.raises(GeometryError, match="InverseTable: reading must be within"):
+    with pytest.raises(InputError, match="InverseTable: reading must be within"):
         t(1.0)
     with pytest.raises(SolverError, match="must be strictly monotone in the gap"):
         inverse_table(gaps, np.cos(gaps / 0.003))

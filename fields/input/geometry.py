@@ -29,7 +29,6 @@ from fields.model.design import (
     HallSensor,
     Magnet,
     Study,
-    axis_to_rotvec,
     rotation_matrix,
 )
 from fields.input.units import UnitParseError, parse
