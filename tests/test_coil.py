@@ -315,3 +315,21 @@ def test_drive_headroom_rule_and_warnings():
     assert len(short) == 1 and short[0].values["required_V"] == pytest.approx(low.voltage_required_V)
     with pytest.raises(InputError, match="drive_headroom: force_per_ampere_N_per_A must be finite and nonzero"):
         drive_headroom(cd, I, 0.0, k, m, 12.0)
+
+
+# ---------------------------------------------------------------------------------- quadrature
+
+@pytest.mark.parametrize("n", [1, 3, 8])
+def test_gauss_legendre_is_exact_to_degree_2n_minus_1(n):
+    # Abramowitz & Stegun (1964), eq. 25.4.29: the n-point rule integrates x^k exactly for
+    # k <= 2n - 1; on [a, b] the integral of x^k is (b^(k+1) - a^(k+1)) / (k + 1).
+    from fields.physics.quadrature import gauss_legendre
+
+    a, b = -0.3, 1.7
+    x, w = gauss_legendre(n, a, b)
+    for k in range(2 * n):
+        assert w @ x**k == pytest.approx((b ** (k + 1) - a ** (k + 1)) / (k + 1), rel=1e-13, abs=1e-14)
+    # degree 2n is not integrated exactly (the rule's error term is nonzero)
+    assert abs(w @ x ** (2 * n) - (b ** (2 * n + 1) - a ** (2 * n + 1)) / (2 * n + 1)) > 1e-6
+    with pytest.raises(InputError, match="gauss_legendre: n must be a positive integer; got 0"):
+        gauss_legendre(0)

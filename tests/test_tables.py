@@ -62,3 +62,13 @@ def test_grade_ranges_are_ordered_and_plausible():
 def test_lookup_is_case_insensitive():
     assert tables.lookup_grade("n42").name == "N42"
     assert tables.lookup_grade("N99") is None
+
+
+def test_parse_gauge_rejects_sizes_outside_the_awg_series():
+    # AWG runs from 0000 to 56 in the ASTM B258 series (common practice, no source for the 56 end)
+    from fields.errors import InputError
+
+    with pytest.raises(InputError, match="parse_gauge: the gauge must be between AWG 0000 and AWG 56"):
+        tables.parse_gauge("AWG 60")
+    with pytest.raises(InputError, match="parse_gauge: the gauge must be an AWG size"):
+        tables.parse_gauge("thick")

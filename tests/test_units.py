@@ -45,3 +45,14 @@ def test_bad_lengths_rejected(value):
 def test_bare_number_message_names_unit():
     with pytest.raises(UnitParseError, match="unit"):
         parse(5, "length")
+
+
+def test_error_types_sit_under_the_base_error():
+    # one exception tree: unit errors and API misuse are both the tool's errors and ValueErrors
+    from fields.errors import HoverfieldError, InputError
+
+    with pytest.raises(UnitParseError) as e:
+        parse("5 kg", "length")
+    assert isinstance(e.value, HoverfieldError) and isinstance(e.value, ValueError)
+    with pytest.raises(InputError, match="parse: kind must be one of .*; got 'lenght'"):
+        parse("5 mm", "lenght")
