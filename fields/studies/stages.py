@@ -401,7 +401,7 @@ def _axis_sensor(design: Design, eq, ax, s_grid, poses, I0):
     vertical axis when there is one, else the first Hall sensor, else an ideal position sensor."""
     from scipy.interpolate import CubicSpline
 
-    from fields.devices import sensors as sensmod
+    from fields.devices import beam as sensmod
     from fields.control.dynamics import Sensor
     from fields.physics.sources import fixed_field_basis, floater_field_T
 

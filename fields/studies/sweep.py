@@ -153,8 +153,8 @@ def evaluate_design(design: Design) -> dict:
       operating gap, as in :func:`fields.analysis.axial_curves`.
     """
     from fields.analysis import core as analysis
-    from fields.devices import coil as coilmod
-    from fields.devices.coil import DEFAULT_INSULATION_CLASS_C, steady_temperature_C
+    from fields.devices import winding as coilmod
+    from fields.devices.winding import DEFAULT_INSULATION_CLASS_C, steady_temperature_C
     from fields.input.tables import COPPER_ALPHA_20C_PER_K
 
     st = design.study
