@@ -271,8 +271,10 @@ class Study:
 
     The floater's frame origin sits at ``gap_origin_m + gap * gap_direction`` for a gap ``gap``
     (m), with its nominal orientation ``floater_rotvec_rad``; the loader derives ``gap_origin_m``
-    and ``gap_direction`` from the body named in ``gap_reference`` so that ``gap`` is the clear
-    vertical distance between that body's face and the floater's facing surface.
+    and ``gap_direction`` from the body named in ``gap_reference`` (:func:`fields.model.gap.gap_axis`)
+    so that at the operating gap ``gap`` is the floater's clearance to that body, as
+    :func:`fields.model.clearance.floater_clearance_m` measures it (at every gap when flat faces face
+    each other).
     """
 
     gap_min_m: float
