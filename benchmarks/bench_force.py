@@ -29,7 +29,7 @@ import time
 
 import numpy as np
 
-from fields.physics.forces import wrench_basis
+from fields.physics.wrench import wrench_basis
 from fields.model.design import Coil, Design, Floater, Magnet, Study
 
 CURRENT_A = 0.5

@@ -26,6 +26,13 @@ class GeometryError(HoverfieldError, ValueError):
         super().__init__(msg + ".")
 
 
+class InputError(HoverfieldError, ValueError):
+    """An argument passed through the Python API is invalid (misuse, not an input-file problem).
+
+    Messages follow the same pattern: ``<function>: <what> must be <rule>; got <value>.``
+    """
+
+
 class SolverError(HoverfieldError, RuntimeError):
     """A numerical search (equilibrium, root) failed; the message names what was tried."""
 

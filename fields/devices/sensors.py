@@ -540,7 +540,7 @@ def _readings(design: Design, points_m: np.ndarray, axis: np.ndarray, gaps: np.n
 
     Returns floater (g, p), fixed0 (g, p), coils (g, k, p).
     """
-    from fields.physics import sources
+    from fields.physics import field_basis as sources
 
     st = design.study
     n = gaps.size
@@ -635,7 +635,7 @@ def hall_response(design: Design, sensor: HallSensor, gaps_m=None, operating_gap
     -------
     HallResponse
     """
-    from fields.physics import sources
+    from fields.physics import field_basis as sources
 
     ax = _unit(sensor.axis, f"sensor {sensor.name}")
     p = np.asarray(sensor.position_m, dtype=float).reshape(1, 3)
