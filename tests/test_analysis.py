@@ -20,16 +20,15 @@ import math
 
 import numpy as np
 import pytest
+from helpers import REPULSIVE, SUSPENSION
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy import constants
 
-import fields.analysis as analysis
+from fields import analysis
 from fields.errors import InputError, SolverError
 from fields.input.geometry import load, loads
 from fields.physics.wrench import wrench_basis
-
-from helpers import REPULSIVE, SUSPENSION
 
 MU0 = constants.mu_0
 

@@ -6,8 +6,13 @@ import numpy as np
 import pytest
 from scipy import integrate, special
 
-from fields.physics.demag import core_demag_factors, cuboid_demag_factors, cylinder_demag_factors, ring_demag_factors
 from fields.errors import InputError
+from fields.physics.demag import (
+    core_demag_factors,
+    cuboid_demag_factors,
+    cylinder_demag_factors,
+    ring_demag_factors,
+)
 
 #: the independent Bessel integral below is converged to about 1e-10 (panelled quad)
 BESSEL_RTOL = 1e-8

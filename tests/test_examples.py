@@ -14,7 +14,7 @@ import math
 import numpy as np
 import pytest
 
-import fields.analysis as analysis
+from fields import analysis
 from fields.studies import stages as runs
 from fields.input.geometry import load
 

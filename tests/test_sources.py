@@ -10,9 +10,15 @@ from scipy.spatial.transform import Rotation
 
 from fields.errors import InputError
 from fields.model.design import Coil, Core, Design, Floater, Magnet, Study
-from fields.physics.axial import CEL_CHUNK, axial_disc_flux_Wb, axial_sheets, cel_difference, sheet_disc_flux_Wb
+from fields.physics.axial import (
+    CEL_CHUNK,
+    axial_disc_flux_Wb,
+    axial_sheets,
+    cel_difference,
+    sheet_disc_flux_Wb,
+)
 from fields.physics.coils import coil_field_per_ampere_T
-from fields.physics.field_basis import fixed_field_T, fixed_field_basis
+from fields.physics.field_basis import fixed_field_basis, fixed_field_T
 from fields.physics.kernels import shape_field_own_T
 from fields.physics.magnets import magnet_field_T
 

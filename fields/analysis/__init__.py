@@ -14,7 +14,13 @@ from fields.analysis.equilibrium import Equilibrium, Equilibrium1D, axial_equili
 from fields.analysis.maps import MAP_KINDS, PoseMap, pose_map
 from fields.analysis.poses import AXES, com_world, displace, drive_pattern, floater_size_m, pose_at_gap
 from fields.analysis.stencil import STEP_ANGLE_RAD, STEP_LENGTH_M
-from fields.analysis.stiffness import GapStiffness, Stiffness, stiffness_matrix, stiffness_stencil, stiffness_versus_gap
+from fields.analysis.stiffness import (
+    GapStiffness,
+    Stiffness,
+    stiffness_matrix,
+    stiffness_stencil,
+    stiffness_versus_gap,
+)
 from fields.analysis.verdict import MODE_KIND, Mode, ModeKind, Verdict, mass_matrix, stability_verdict
 
 __all__ = [

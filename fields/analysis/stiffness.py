@@ -14,8 +14,15 @@ import numpy as np
 
 from fields.analysis.curves import axial_curves
 from fields.analysis.poses import displace, drive_pattern, pose_at_gap
-from fields.analysis.stencil import (RICHARDSON_MULTIPLES, STEP_ANGLE_RAD, STEP_LENGTH_M, central_offsets, pose_steps,
-                                     richardson, stencil_derivatives)
+from fields.analysis.stencil import (
+    RICHARDSON_MULTIPLES,
+    STEP_ANGLE_RAD,
+    STEP_LENGTH_M,
+    central_offsets,
+    pose_steps,
+    richardson,
+    stencil_derivatives,
+)
 from fields.model.design import Design
 from fields.physics.wrench import wrench_basis
 

@@ -1,7 +1,7 @@
 """Stability verdict: the small-oscillation modes of the floater about an equilibrium.
 
 The modes of ``M q'' + K q = 0`` over the free axes (generalized eigenproblem ``K v = lambda M v``;
-e.g. Goldstein, Poole and Safko, Classical Mechanics, 3rd ed. 2002, sec. 6.2): ``lambda > 0`` is a
+e.g. Goldstein, Poole and Safko, Classical Mechanics, 3rd ed. 2002, ch. 6): ``lambda > 0`` is a
 stable oscillation of frequency ``sqrt(lambda) / 2 pi``, ``lambda < 0`` grows with time constant
 ``1 / sqrt(-lambda)`` and needs feedback. Results are structured (kinds, axes, numbers, flags);
 the sentences for people are built by the report and command-line layers.

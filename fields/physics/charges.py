@@ -4,7 +4,7 @@ For a uniformly polarized floater magnet in an external field ``B_ext`` with no 
 it, the force is ``F = oint sigma B_ext dA`` with ``sigma = M . n = J . n / mu0`` and the torque
 about a point ``c`` is ``T = oint (x - c) x sigma B_ext dA``, which already contains ``m x B``
 (the equivalent-charge model of magnetized bodies: Furlani, Permanent Magnet and
-Electromechanical Devices, Academic Press 2001, sec. 2.9 and 3.2). Only faces with
+Electromechanical Devices, Academic Press 2001). Only faces with
 ``J . n != 0`` carry charge. The rules of :mod:`fields.physics.surface_rules` discretise them:
 
 - discs and annuli (cylinder and ring caps): polar Gauss x trapezoid rule;

@@ -2,7 +2,7 @@
 
 A thin solenoid sheet carrying ``K = N I / h`` (A/m) has exactly the B field of a cylinder of the
 same radius and height with axial polarization ``J = mu0 K`` (bound currents ``K = M x n``:
-Jackson, Classical Electrodynamics, 3rd ed. 1999, sec. 5.8). A thick winding (radii ``a..b``,
+Jackson, Classical Electrodynamics, 3rd ed. 1999, ch. 5). A thick winding (radii ``a..b``,
 height ``h``, ``N`` turns) carries ``j = N I / ((b - a) h)``; integrating over the radius with
 Gauss-Legendre nodes ``r_i`` and weights ``w_i`` on ``[a, b]`` gives layer ``i`` as a cylinder of
 radius ``r_i`` with polarization ``mu0 N w_i / ((b - a) h)`` per ampere. The rule converges

@@ -108,7 +108,7 @@ def source_edges(design: Design) -> SourceEdges:
             v = np.asarray(s.vertices_m, dtype=float) @ R.T + t
             sa.extend(v[e[:, 0]])
             sb.extend(v[e[:, 1]])
-    a3 = lambda x: np.asarray(x, dtype=float).reshape(-1, 3)  # noqa: E731
+    a3 = lambda x: np.asarray(x, dtype=float).reshape(-1, 3)
     return SourceEdges(a3(cc), a3(cn), np.asarray(cr, dtype=float), np.asarray(cf, dtype=float), a3(sa), a3(sb))
 
 

@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
-import fields.analysis as analysis
+from fields import analysis
 from fields.io.export import header_lines, write_atomic, write_csv, write_json, write_png
 from fields.model.design import Design
 
