@@ -1,4 +1,4 @@
-"""Benchmark: force on a levitated disc, fields.physics.forces vs. the direct magpylib route.
+"""Benchmark: force on a levitated disc, fields.physics.wrench vs. the direct magpylib route.
 
 Invented scenario (not a real product): a suspension levitator with one coil (inner radius
 7 mm, outer 22 mm, height 30 mm, 2100 turns, centred at z = 25 mm, axis +z, 0.5 A) and a disc
@@ -7,17 +7,18 @@ the coil's bottom face (z = 10 mm), 200 gaps.
 
 Compared in the same run:
 
-- ``fields.physics.forces.wrench_basis`` at the "standard" level, timed with its two-level error estimate
+- ``fields.physics.wrench.wrench_basis`` at the "standard" level, timed with its two-level error estimate
   (default) and without it (``estimate_error=False``); the minimum of several repeats is shown
   (the machine is shared; single timings are noisy). On the axis it uses the closed-form cap
-  flux of the coil layers (``fields.physics.sources.sheet_disc_flux_Wb``); off the axis, Gauss layers
+  flux of the coil layers (``fields.physics.axial.sheet_disc_flux_Wb``); off the axis, Gauss layers
   and surface charges at 3-D cap nodes;
 - the direct route a user would write: the coil as a magpylib Collection of 300 circular loops
   and ``magpylib.getFT`` with meshing (8, 3, 3) (chunked over poses to stay below 1 GB);
 - the reference: ``wrench_basis`` at the "reference" level (24 layers), whose convergence is
   shown by its difference to the "high" level. On the axis it is also compared with an
   independent evaluation of the same 24-layer model by magpylib's field at 14 radial cap nodes
-  (the previous 1-D radial rule), which shares no code with the closed-form flux.
+  (the 1-D radial rule: one angular node carrying the whole turn, symmetry not used), which
+  shares no code with the closed-form flux.
 
 Run: ``python benchmarks/bench_force.py`` (about a minute on 2 cores). Prints a markdown table.
 """
@@ -26,11 +27,13 @@ from __future__ import annotations
 
 import sys
 import time
+from dataclasses import replace
 
 import numpy as np
 
-from fields.physics.forces import wrench_basis
 from fields.model.design import Coil, Design, Floater, Magnet, Study
+from fields.physics.levels import LEVELS
+from fields.physics.wrench import wrench_basis
 
 CURRENT_A = 0.5
 N_POSES = 200
@@ -104,8 +107,6 @@ def rel_err(F: np.ndarray, Fref: np.ndarray) -> float:
 
 
 def main() -> int:
-    from fields.physics.forces import _raw
-
     d = build_design()
     I = np.array([CURRENT_A])
     rows = []
@@ -118,8 +119,9 @@ def main() -> int:
         if general:
             indep = float("nan")
         else:  # same 24-layer model through magpylib's field at 14 radial cap nodes
-            alt = _raw(d, P, R, "reference", True)  # one node per radius at phi = 0: compare F_z only
-            Falt = (alt[0] + np.einsum("k,nki->ni", I, alt[1])) * np.array([0.0, 0.0, 1.0])
+            radial = replace(LEVELS["reference"], na=1)  # one node per radius: compare F_z only
+            alt = wrench_basis(d, P, R, order=radial, estimate_error=False, near_field=False, axis_symmetry=False)
+            Falt = alt.force(I) * np.array([0.0, 0.0, 1.0])
             indep = rel_err(Falt, Fref)
         rep = 3 if general else 15
         t_ours, ours = timed(lambda: wrench_basis(d, P, R, order="standard"), repeat=rep)

@@ -26,11 +26,12 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).parent))
 
-from bench_force import direct_route  # noqa: E402  (same direct route as the force benchmark)
+from bench_force import direct_route
 
-from fields.analysis import core as analysis  # noqa: E402
-from fields.physics.forces import wrench_basis  # noqa: E402
-from fields.input.geometry import load  # noqa: E402
+from fields import analysis
+from fields.analysis.stencil import central_offsets, pose_steps, stencil_derivatives
+from fields.input.geometry import load
+from fields.physics.wrench import wrench_basis
 
 ROOT = Path(__file__).resolve().parent.parent
 
@@ -63,27 +64,17 @@ def main() -> int:
     Pref, Rref, finish = analysis.stiffness_stencil(d, p0, r0)
     Kref = finish(wrench_basis(d, Pref, Rref, order="reference"), I).K
 
-    # direct route: central differences of getFT, 12 poses
-    h = np.array([analysis.STEP_LENGTH_M] * 3 + [analysis.STEP_ANGLE_RAD] * 3)
-    dq = []
-    for j in range(6):
-        e = np.zeros(6)
-        e[j] = h[j]
-        dq += [e, -e]
-    Pd, Rd = analysis.displace(d, p0, r0, np.array(dq))
-    c0 = analysis.com_world(d, p0, r0)[0]
+    # direct route: central differences of getFT, 12 poses (the same stencil, without extrapolation)
+    h = pose_steps()
+    Pd, Rd = analysis.displace(d, p0, r0, central_offsets(h))
 
     def direct_K():
         F, T = direct_route(d, Pd, Rd)
         # getFT's torque is about the magnet centre; move it to the centre of mass of each pose
-        K = np.zeros((6, 6))
         cm = analysis.com_world(d, Pd, Rd)
         Tc = T + np.cross(Pd - cm, F)
-        for j in range(6):
-            K[:, j] = -(np.r_[F[2 * j], Tc[2 * j]] - np.r_[F[2 * j + 1], Tc[2 * j + 1]]) / (2 * h[j])
-        return K
+        return -stencil_derivatives(np.concatenate([F, Tc], axis=1), h)[0]
 
-    _ = c0
     t_dK, Kd = timed(direct_K, repeat=1)
     scale = np.abs(Kref).max()
     e_ours = float(np.abs(S.K - Kref).max() / scale)

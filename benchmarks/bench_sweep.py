@@ -95,7 +95,7 @@ def naive_seconds_per_design(n_designs: int = 3) -> tuple[float, float]:
     from scipy.spatial.transform import Rotation
 
     from fields.input import geometry
-    from fields.analysis.core import pose_at_gap
+    from fields.analysis.poses import pose_at_gap
 
     d = geometry.load(BASE)
     c = d.coils[0]

@@ -20,15 +20,15 @@ import math
 
 import numpy as np
 import pytest
+from helpers import REPULSIVE, SUSPENSION
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy import constants
 
-from fields.analysis import core as analysis
-from fields.errors import SolverError
+from fields import analysis
+from fields.errors import InputError, SolverError
 from fields.input.geometry import load, loads
-
-from helpers import REPULSIVE, SUSPENSION
+from fields.physics.wrench import wrench_basis
 
 MU0 = constants.mu_0
 
@@ -248,7 +248,7 @@ def test_stiffness_step_convergence_order():
         S = analysis.stiffness_matrix(d, pos[0], rot[0], step_length_m=h)
         err_r.append(abs(S.K[2, 2] - kz))
         # central difference at step h from the forces directly
-        b = analysis._basis(d, np.array([pos[0] + [0, 0, h], pos[0] - [0, 0, h]]), np.zeros((2, 3)))
+        b = wrench_basis(d, np.array([pos[0] + [0, 0, h], pos[0] - [0, 0, h]]), np.zeros((2, 3)))
         Dh = -(b.F0_N[0, 2] - b.F0_N[1, 2]) / (2 * h)
         err_c.append(abs(Dh - kz))
     slope_c = np.polyfit(np.log(hs), np.log(err_c), 1)[0]
@@ -268,14 +268,19 @@ def test_suspension_verdict():
     eq = analysis.find_equilibrium(d, [c.hover_current_A[gi]], start_gap_m=c.gaps_m[gi])
     S = analysis.stiffness_matrix(d, eq.position_m, eq.rotvec_rad, eq.currents_A)
     v = analysis.stability_verdict(d, S)
-    names = {m.name: m for m in v.modes}
-    assert not names["vertical"].stable
-    assert names["sideways x/y"].stable
+    modes = {(m.kind, m.axes): m for m in v.modes}
+    assert not modes[(analysis.ModeKind.VERTICAL, ("z",))].stable
+    sideways = [m for m in v.modes if m.kind is analysis.ModeKind.SIDEWAYS]
+    assert len(sideways) == 1 and set(sideways[0].axes) == {"x", "y"}  # axisymmetric: one merged pair
+    assert sideways[0].stable and sideways[0].frequency_Hz > 0
     assert v.unstable_count == 1
+    # the spin of the axisymmetric floater has no restoring stiffness
+    assert any(m.kind is analysis.ModeKind.SPIN and m.neutral and m.stiffness == 0.0 for m in v.modes)
     # the axial curve's k_z at the hover current agrees with the 6x6 matrix
     assert S.K[2, 2] == pytest.approx(c.kz_at_hover()[gi], rel=1e-4)
 
 
+@pytest.mark.slow
 def test_repulsive_verdict():
     d = load(REPULSIVE)
     c = analysis.axial_curves(d)
@@ -284,9 +289,11 @@ def test_repulsive_verdict():
     eq = analysis.find_equilibrium(d, np.zeros(len(d.coils)), start_gap_m=eqs[0].gap_m)
     S = analysis.stiffness_matrix(d, eq.position_m, eq.rotvec_rad, eq.currents_A)
     v = analysis.stability_verdict(d, S)
-    names = {m.name: m for m in v.modes}
-    assert names["vertical"].stable
-    assert not names["sideways x/y"].stable
+    by_kind = {m.kind: m for m in v.modes}
+    assert by_kind[analysis.ModeKind.VERTICAL].stable
+    assert not by_kind[analysis.ModeKind.SIDEWAYS].stable and set(by_kind[analysis.ModeKind.SIDEWAYS].axes) == {"x", "y"}
+    # a merged unstable pair counts as two axes needing control
+    assert v.unstable_count == sum(len(m.axes) for m in v.modes if not m.stable)
     # Earnshaw: iron-free, so the translational trace vanishes
     assert v.earnshaw_residual < 1e-6
 
@@ -308,3 +315,45 @@ def test_allocation_least_squares_and_limits():
     np.testing.assert_allclose(A.G[:3] @ I, want, atol=1e-9)
     with pytest.raises(SolverError, match="beyond the limits"):
         A.currents_for([1.0, 0, 0], [0, 0, 0], 1.0, axes=("x", "y", "z"))
+
+
+# ---- the finite-difference stencil ----
+
+
+def test_stencil_is_exact_for_low_degree_polynomials():
+    """Central differences are exact for polynomials of degree <= 2, and their Richardson
+    combination (4 D_h - D_2h) / 3 for degree <= 4 (the truncation series of the central
+    difference has only even powers of h: Press et al., Numerical Recipes, 3rd ed. 2007, sec. 5.7)."""
+    from fields.analysis.stencil import central_offsets, richardson, stencil_derivatives
+
+    steps = np.array([0.3, 0.2])
+    x0 = np.array([0.7, -0.4])
+
+    def f(x):  # degree 4 in x, degree 2 in y; two outputs
+        return np.array([x[0] ** 4 - 2 * x[0] ** 3 * x[1] + x[1] ** 2, 3 * x[0] * x[1] ** 2])
+
+    def grad(x):
+        return np.array([[4 * x[0] ** 3 - 6 * x[0] ** 2 * x[1], -2 * x[0] ** 3 + 2 * x[1]],
+                         [3 * x[1] ** 2, 6 * x[0] * x[1]]])
+
+    dq = central_offsets(steps, multiples=(1.0, 2.0), centre=True)
+    assert dq.shape == (9, 2) and np.all(dq[-1] == 0.0)
+    W = np.array([f(x0 + d) for d in dq])
+    D = stencil_derivatives(W, steps, multiples=(1.0, 2.0))  # (2, outputs, axes)
+    R, err = richardson(D[0], D[1])
+    np.testing.assert_allclose(R, grad(x0), rtol=1e-12, atol=1e-12)
+    # the y derivatives (degree 2 in y) are exact already at step h; the x ones are not
+    np.testing.assert_allclose(D[0][:, 1], grad(x0)[:, 1], rtol=1e-12, atol=1e-12)
+    assert abs(D[0][0, 0] - grad(x0)[0, 0]) > 1e-3
+    # the error bar is the distance of D_h from the extrapolated value
+    np.testing.assert_allclose(err, np.abs(R - D[0]), rtol=0, atol=0)
+
+
+def test_api_misuse_raises_input_error():
+    """Wrong arguments through the Python API raise InputError (a ValueError) naming the rule."""
+    d = _sphere_pair()
+    with pytest.raises(InputError, match="pose_map: kind must be 'lateral' or 'tilt'; got spin"):
+        analysis.pose_map(d, kind="spin")
+    with pytest.raises(InputError, match="drive_pattern: pattern must be 0 numbers, one per coil"):
+        analysis.drive_pattern(d, [1.0])
+    assert issubclass(InputError, ValueError)

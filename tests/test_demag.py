@@ -6,8 +6,13 @@ import numpy as np
 import pytest
 from scipy import integrate, special
 
-from fields.physics.demag import core_demag_factors, cuboid_demag_factors, cylinder_demag_factors, ring_demag_factors
-from fields.errors import GeometryError
+from fields.errors import InputError
+from fields.physics.demag import (
+    core_demag_factors,
+    cuboid_demag_factors,
+    cylinder_demag_factors,
+    ring_demag_factors,
+)
 
 #: the independent Bessel integral below is converged to about 1e-10 (panelled quad)
 BESSEL_RTOL = 1e-8
@@ -119,9 +124,9 @@ def test_cube_is_one_third_and_long_bar_limit():
 
 
 def test_errors_name_the_rule():
-    with pytest.raises(GeometryError, match="diameter_m must be a positive"):
+    with pytest.raises(InputError, match="diameter_m must be a positive"):
         cylinder_demag_factors(-1.0, 1.0)
-    with pytest.raises(GeometryError, match="shape must be one of cylinder, ring, cuboid"):
+    with pytest.raises(InputError, match="shape must be one of cylinder, ring, cuboid"):
         core_demag_factors("sphere", (1.0,))
 
 

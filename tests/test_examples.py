@@ -14,7 +14,7 @@ import math
 import numpy as np
 import pytest
 
-from fields.analysis import core as analysis
+from fields import analysis
 from fields.studies import stages as runs
 from fields.input.geometry import load
 
@@ -41,7 +41,7 @@ def test_suspension_hover_current_balances_weight():
     I = c.hover_current_A[0]
     assert 0 < I < d.coils[0].max_current_A
     pos, rot = analysis.pose_at_gap(d, [d.study.operating_gap_m])
-    from fields.physics.forces import wrench
+    from fields.physics.wrench import wrench
 
     w = wrench(d, pos, rot, [I])
     assert w.force_N[0] @ d.up == pytest.approx(d.weight_N, rel=1e-9)

@@ -5,14 +5,19 @@ Designs are built directly from fields.model (invented geometries).
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import pytest
 from scipy import integrate, special
 from scipy.constants import mu_0
 from scipy.spatial.transform import Rotation
 
-from fields.physics.forces import LEVELS, wrench, wrench_basis
+from fields.errors import InputError
 from fields.model.design import Coil, Core, Design, Floater, Magnet, Study
+from fields.physics.axial import on_axis_mask
+from fields.physics.levels import LEVELS, RuleLevel
+from fields.physics.wrench import wrench, wrench_basis
 
 #: the quadrature references below (Gauss-Legendre, quad) are converged to better than 1e-9
 REF_RTOL = 1e-7
@@ -103,7 +108,7 @@ def cylinders_axial_force_reference(R1, L1, z1, R2, L2, z2, J1, J2):
     for s1, za in ((1, z1 + L1 / 2), (-1, z1 - L1 / 2)):
         for s2, zb in ((1, z2 + L2 / 2), (-1, z2 - L2 / 2)):
             d = zb - za
-            f = lambda k: special.j1(k * R1) * special.j1(k * R2) * np.exp(-k * d) / k  # noqa: E731
+            f = lambda k: special.j1(k * R1) * special.j1(k * R2) * np.exp(-k * d) / k
             val = integrate.quad(f, 0, np.inf, epsabs=0, epsrel=1e-12, limit=2000)[0]
             total += s1 * s2 * (J1 / mu_0) * (J2 / mu_0) * mu_0 * np.pi * R1 * R2 * val
     return total
@@ -284,22 +289,15 @@ def test_standard_level_within_1e6_of_converged_reference():
 def test_quadrature_error_decays_exponentially_with_layers():
     """Convergence rate: the coil-layer rule error falls geometrically (Gauss-Legendre on an analytic
     integrand, Trefethen, Approximation Theory and Approximation Practice, 2013, thm 19.3)."""
-    import fields.physics.forces as ff
-
     d = make_design([disc()], coils=[bench_coil()])
     P, Rv = general_poses(3)
-    ff.LEVELS["_ref"] = dict(layers=30, nr=12, na=32, nz=12, sub=0)
-    try:
-        def F(L):
-            ff.LEVELS["_t"] = dict(layers=L, nr=12, na=32, nz=12, sub=0)
-            r = ff._raw(d, P, Rv, "_t", False)
-            return r[1][:, 0]
 
-        ref = F(30)
-        errs = np.array([np.abs(F(L) - ref).max() for L in (4, 6, 8, 10, 12)])
-    finally:
-        ff.LEVELS.pop("_ref", None)
-        ff.LEVELS.pop("_t", None)
+    def F(L):  # plain cap rule (no near-field grading), converged surface nodes, L coil layers
+        level = RuleLevel(layers=L, nr=12, na=32, nz=12, sub=0, gm=6)
+        return wrench_basis(d, P, Rv, order=level, estimate_error=False, near_field=False).Fk_N_per_A[:, 0]
+
+    ref = F(30)
+    errs = np.array([np.abs(F(L) - ref).max() for L in (4, 6, 8, 10, 12)])
     rates = errs[1:] / errs[:-1]
     assert np.all(rates < 0.3), errs  # each +2 layers gains at least a factor 3
     slope = np.polyfit([4, 6, 8, 10, 12], np.log(errs), 1)[0]
@@ -330,26 +328,19 @@ def test_on_axis_closed_form_equals_general_path_with_converged_cap_rule():
     share the coil-layer model; with a converged cap rule the general route must give the same
     numbers. On the axis B_z on a cap depends on r only, so the angular trapezoid is exact and 24
     radial Gauss nodes converge the cap integral (Trefethen, ATAP 2013, thm 19.3)."""
-    import fields.physics.forces as ff
-
+    # general route on the axis: the full 3-D cap rule with 24 radial nodes (4 angular nodes are
+    # exact there), no near-field grading, and the same coil-layer model as the closed form: plain
+    # Gauss layers (the general route grades them per observer near a winding's end face, which
+    # the closed form does not)
+    cap = replace(LEVELS["standard"], nr=24, na=4, layer_grade_within=0.0)
     for d, z in axis_designs():
         P = np.column_stack((np.zeros(z.size), np.zeros(z.size), z))
         Rv = np.zeros_like(P)
-        assert ff._on_axis_mask(d, P, Rv).all()
+        assert on_axis_mask(d, P, Rv).all()
         fast = wrench_basis(d, P, Rv, order="standard")
         assert not fast.contact.any()
-        ff.LEVELS["_cap"] = dict(ff.LEVELS["standard"], nr=24, na=4)
-        # same coil-layer model as the closed form: plain Gauss layers (the general route grades
-        # them per observer near a winding's end face, which the closed form does not)
-        import fields.physics.sources as fs
-
-        within = fs.LAYER_GRADE_WITHIN
-        fs.LAYER_GRADE_WITHIN = 0.0
-        try:
-            gen = ff._raw(d, P, Rv, "_cap", False)
-        finally:
-            ff.LEVELS.pop("_cap")
-            fs.LAYER_GRADE_WITHIN = within
+        g = wrench_basis(d, P, Rv, order=cap, estimate_error=False, near_field=False, axis_symmetry=False)
+        gen = (g.F0_N, g.Fk_N_per_A)
         scale = np.abs(gen[1][:, :, 2]).max() + np.abs(gen[0][:, 2]).max()
         np.testing.assert_allclose(fast.F0_N[:, 2], gen[0][:, 2], rtol=1e-11, atol=1e-12 * scale)
         np.testing.assert_allclose(fast.Fk_N_per_A[:, :, 2], gen[1][:, :, 2], rtol=1e-11, atol=1e-12 * scale)
@@ -429,13 +420,15 @@ def test_core_adds_bias_pull_and_flags_saturation():
     np.testing.assert_allclose(w.force_N, wb.force([0.05]), rtol=1e-12)
     # a huge current saturates the core: clipped force is below the linear extrapolation
     w_big = wrench(d, P, np.zeros((1, 3)), [200.0])
-    assert w_big.core_saturated[0] and any("saturate" in s for s in w_big.warnings)
+    assert w_big.core_saturated[0]
     assert w_big.force_N[0, 2] < wb.force([200.0])[0, 2]
 
 
 def test_levels_are_ordered():
     keys = list(LEVELS)
-    assert [LEVELS[k]["layers"] for k in keys] == sorted(LEVELS[k]["layers"] for k in keys)
+    for field in ("layers", "nr", "na", "nz", "sub", "gm"):
+        vals = [getattr(LEVELS[k], field) for k in keys]
+        assert vals == sorted(vals), field
 
 
 def test_contact_is_flagged_and_never_evaluated():
@@ -447,27 +440,37 @@ def test_contact_is_flagged_and_never_evaluated():
     assert list(wb.contact) == [False, True]
     assert wb.clearance_m[0] == pytest.approx(0.004, abs=1e-5) and wb.clearance_m[1] < 0
     assert np.all(np.isfinite(wb.F0_N)) and np.all(wb.F0_N[1] == 0.0)
-    assert any("contact" in s for s in wb.warnings)
 
 
 def test_mixed_batch_uses_one_cap_rule_for_consistent_differences():
     """A call with on- and off-axis poses keeps the 1-D radial cap rule on the axis (it equals the
     general rule there), so stencil differences across the call use one discretisation; a call
     with on-axis poses only uses the closed form. Both agree to the standard level's accuracy."""
-    import fields.physics.forces as ff
-
     d = make_design([disc()], coils=[bench_coil()])
     z = 0.010 - 0.004 - 0.00635 / 2
     P = np.array([[0.0, 0.0, z], [1e-6, 0.0, z]])
     mixed = wrench_basis(d, P, np.zeros((2, 3)))
-    legacy = ff._raw(d, P[:1], np.zeros((1, 3)), "standard", True)
-    np.testing.assert_allclose(mixed.Fk_N_per_A[0, 0, 2], legacy[1][0, 0, 2], rtol=1e-14)
+    # the same on-axis pose with the general 3-D cap rule (symmetry not used): on the axis B_z on
+    # a cap depends on r only, so the angular nodes all carry the 1-D radial rule's value
+    general = wrench_basis(d, P[:1], np.zeros((1, 3)), axis_symmetry=False)
+    np.testing.assert_allclose(mixed.Fk_N_per_A[0, 0, 2], general.Fk_N_per_A[0, 0, 2], rtol=1e-13)
     alone = wrench_basis(d, P[:1], np.zeros((1, 3)))
-    assert alone.Fk_N_per_A[0, 0, 2] != legacy[1][0, 0, 2]  # a different (exact) cap integral
-    np.testing.assert_allclose(alone.Fk_N_per_A[0, 0, 2], legacy[1][0, 0, 2], rtol=STANDARD_RTOL)
+    assert alone.Fk_N_per_A[0, 0, 2] != mixed.Fk_N_per_A[0, 0, 2]  # a different (exact) cap integral
+    np.testing.assert_allclose(alone.Fk_N_per_A[0, 0, 2], mixed.Fk_N_per_A[0, 0, 2], rtol=STANDARD_RTOL)
 
 
-# ----- near field: graded cap rule and observer-graded coil layers (issue 3)
+def test_rule_level_misuse_is_an_input_error():
+    d = make_design([disc()], coils=[bench_coil()])
+    P = np.array([[0.0, 0.0, -0.01]])
+    with pytest.raises(InputError, match="wrench: order must be one of fast, standard, high, reference"):
+        wrench_basis(d, P, np.zeros((1, 3)), order="coarse")  # no coarser level for its estimate
+    with pytest.raises(InputError, match="estimate_error must be False when order is a RuleLevel"):
+        wrench_basis(d, P, np.zeros((1, 3)), order=LEVELS["standard"])
+    with pytest.raises(InputError, match=r"wrench: currents_A must be 1 values \(one per coil\); got 2"):
+        wrench(d, P, np.zeros((1, 3)), [0.1, 0.2])
+
+
+# ----- near field: graded cap rule and observer-graded coil layers
 
 
 def discs_axial_force_reference(discs_a, discs_b, offset_m):
@@ -485,7 +488,7 @@ def discs_axial_force_reference(discs_a, discs_b, offset_m):
     for Ra, za, sa in discs_a:
         for Rb, zb, sb in discs_b:
             d = zb - za
-            f = lambda k: special.j1(k * Ra) * special.j1(k * Rb) * special.j0(k * offset_m) * np.exp(-k * abs(d)) / k  # noqa: E731
+            f = lambda k: special.j1(k * Ra) * special.j1(k * Rb) * special.j0(k * offset_m) * np.exp(-k * abs(d)) / k
             br = np.concatenate(([0.0], np.geomspace(1.0, 60.0 / abs(d), 80)))
             val = sum(integrate.quad(f, a, b, epsabs=1e-16, epsrel=1e-11, limit=400)[0] for a, b in zip(br[:-1], br[1:]))
             total += np.sign(d) * sa * sb * mu_0 * np.pi * Ra * Rb * val
@@ -540,8 +543,6 @@ def test_graded_cap_rule_converges_geometrically_with_nodes_per_panel():
     """Convergence rate of the graded cap rule (Gauss-Legendre on panels whose size follows the
     distance to the nearest edge: geometric convergence in the nodes per panel, Trefethen, ATAP
     2013, thm 19.3), against the Hankel reference, ring bearing 0.5 mm apart, 1 mm offset."""
-    import fields.physics.forces as ff
-
     d = ring_bearing()
     s0 = 1.2 / mu_0
     p, r = near_pose(-0.0025, 0.0025, 0.01, 0.0005, (0.001, 0.0))
@@ -549,15 +550,12 @@ def test_graded_cap_rule_converges_geometrically_with_nodes_per_panel():
     ref = discs_axial_force_reference(
         [(0.01, 0.0025, s0), (0.005, 0.0025, -s0), (0.01, -0.0025, -s0), (0.005, -0.0025, s0)],
         [(0.01, zc + 0.0025, -s0), (0.005, zc + 0.0025, s0), (0.01, zc - 0.0025, s0), (0.005, zc - 0.0025, -s0)], 0.001)
-    edges = ff.source_edges(d)
     errs = []
-    try:
-        for gm in (2, 3, 4, 5):
-            ff.LEVELS["_t"] = dict(LEVELS["standard"], gm=gm)
-            rule = ff.graded_floater_rule(d, edges, p, r, "_t")
-            errs.append(abs(ff._raw(d, p[None], r[None], "_t", False, None, rule)[0][0, 2] - ref) / abs(ref))
-    finally:
-        ff.LEVELS.pop("_t", None)
+    for gm in (2, 3, 4, 5):
+        # one pose near the edges: the graded rule is built for this pose itself
+        level = replace(LEVELS["standard"], gm=gm)
+        F = wrench_basis(d, p[None], r[None], order=level, estimate_error=False).F0_N[0, 2]
+        errs.append(abs(F - ref) / abs(ref))
     errs = np.array(errs)
     assert np.all(errs[1:] < 0.35 * errs[:-1]), errs  # each extra node per panel gains a factor ~3 or more
     assert errs[-1] < 1e-8  # 5 nodes per panel; the standard level uses 6
@@ -575,6 +573,7 @@ def near_field_cases():
     return out
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("case", range(4))
 def test_near_field_standard_within_1e6_of_reference_with_honest_estimate(case):
     """Lateral offsets and tilts at clearances from 1 % of the floater's size: standard level

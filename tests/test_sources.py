@@ -8,12 +8,21 @@ from scipy import integrate
 from scipy.constants import mu_0
 from scipy.spatial.transform import Rotation
 
-from fields.errors import GeometryError
+from fields.errors import InputError
 from fields.model.design import Coil, Core, Design, Floater, Magnet, Study
-from fields.physics.sources import (coil_field_per_ampere_T, fixed_field_T, fixed_field_basis, magnet_field_T,
-                            shape_field_own_T)
+from fields.physics.axial import (
+    CEL_CHUNK,
+    axial_disc_flux_Wb,
+    axial_sheets,
+    cel_difference,
+    sheet_disc_flux_Wb,
+)
+from fields.physics.coils import coil_field_per_ampere_T
+from fields.physics.field_basis import fixed_field_basis, fixed_field_T
+from fields.physics.kernels import shape_field_own_T
+from fields.physics.magnets import magnet_field_T
 
-#: 8 Gauss layers outside the winding: ~1e-10 relative (METHODS.md sec. 1, measured); 12 layers: ~1e-13
+#: 8 Gauss layers outside the winding: ~1e-10 relative (measured); 12 layers: ~1e-13
 LAYER_RTOL = 1e-8
 
 
@@ -191,7 +200,7 @@ def test_core_response_follows_demag_model_and_clips():
 
 
 def test_unknown_shape_message():
-    with pytest.raises(GeometryError, match="shape must be one of cylinder, ring, cuboid, sphere, mesh"):
+    with pytest.raises(InputError, match="shape must be one of cylinder, ring, cuboid, sphere, mesh"):
         shape_field_own_T("cone", (1.0,), (0, 0, 1), np.zeros((1, 3)))
 
 
@@ -221,8 +230,6 @@ SHEET_CASES = [(0.01, 0.015, 0.005, 0.03), (0.01, 0.015, 0.02, -0.04), (0.01, 0.
 def test_sheet_flux_matches_maxwell_mutual_inductance_integrated_over_height():
     """Flux of a sheet (K = J/mu0 A/m) through a disc = K int M(a, rho, dz - z') dz' (Maxwell's
     loop-loop mutual inductance, reference above, integrated with scipy quad)."""
-    from fields.physics.sources import sheet_disc_flux_Wb
-
     J = 1.3
     for a, b, rho, dz in SHEET_CASES:
         ref = J / mu_0 * integrate.quad(lambda zp: maxwell_mutual_inductance(a, rho, dz - zp), -b, b,
@@ -238,8 +245,6 @@ def test_sheet_flux_matches_magpylib_cylinder_field_integrated_over_disc():
     magnet's side (B_z jumps there)."""
     import magpylib as magpy
 
-    from fields.physics.sources import sheet_disc_flux_Wb
-
     J = 1.2
     for a, b, rho, dz in SHEET_CASES[:-1]:
         cyl = magpy.magnet.Cylinder(polarization=(0, 0, J), dimension=(2 * a, 2 * b))
@@ -254,8 +259,6 @@ def test_sheet_flux_matches_magpylib_cylinder_field_integrated_over_disc():
 
 
 def test_sheet_flux_thin_and_long_limits():
-    from fields.physics.sources import sheet_disc_flux_Wb
-
     # thin sheet of height 2b carrying I = 2 b K: Phi -> M I (Maxwell, above); error O(b^2), removed
     # by one Richardson step
     a, rho, dz, I = 0.01, 0.007, 0.004, 1.0
@@ -270,13 +273,11 @@ def test_sheet_flux_thin_and_long_limits():
         sheet_disc_flux_Wb(0.01, 0.01, 1.0, 0.006, -0.013), rel=1e-14)
 
 
-def test_cel_pair_matches_scipy_legendre_and_carlson_forms():
+def test_cel_difference_matches_scipy_legendre_and_carlson_forms():
     """cel(kc,1,0,1) = (K - E)/m and cel(kc,p,0,p) = (1-n)/n (Pi(n,m) - K), p = 1 - n (Bulirsch 1969;
     Carlson, Numer. Algorithms 10 (1995) 13: Pi(n, m) = R_F(0,1-m,1) + n/3 R_J(0,1-m,1,1-n)), with
     scipy's ellipk/ellipe/elliprf/elliprj; blocks larger than the loop's chunk give the same values."""
     from scipy import special
-
-    from fields.physics.sources import CEL_CHUNK, _cel_pair
 
     rng = np.random.default_rng(3)
     q = CEL_CHUNK + 17
@@ -286,18 +287,16 @@ def test_cel_pair_matches_scipy_legendre_and_carlson_forms():
     K, E = special.ellipk(m), special.ellipe(m)
     Pi = special.elliprf(0, 1 - m, 1) + n / 3 * special.elliprj(0, 1 - m, 1, 1 - n)
     ref = (K - E) / m - (1 - n) / n * (Pi - K)
-    np.testing.assert_allclose(_cel_pair(kc, np.sqrt(1 - n)), ref, rtol=1e-12)
-    np.testing.assert_allclose(_cel_pair(kc[:5], np.sqrt(1 - n[:5])), ref[:5], rtol=1e-12)
+    np.testing.assert_allclose(cel_difference(kc, np.sqrt(1 - n)), ref, rtol=1e-12)
+    np.testing.assert_allclose(cel_difference(kc[:5], np.sqrt(1 - n[:5])), ref[:5], rtol=1e-12)
     # P = 0 (disc radius equal to the sheet radius): the second integral's limit is 0
-    np.testing.assert_allclose(_cel_pair(kc[:3], np.zeros(3)), (K[:3] - E[:3]) / m[:3], rtol=1e-12)
+    np.testing.assert_allclose(cel_difference(kc[:3], np.zeros(3)), (K[:3] - E[:3]) / m[:3], rtol=1e-12)
 
 
 def test_axial_sheets_of_magnets_and_coils_give_their_flux():
     """Rings (outer minus inner sheet), flipped magnets and coil layers, against magpylib's ring
     (CylinderSegment) field integrated over the disc and Maxwell's M integrated over a winding."""
     import magpylib as magpy
-
-    from fields.physics.sources import axial_disc_flux_Wb, axial_sheets
 
     ring = Magnet("r", "ring", (0.008, 0.02, 0.006), (0.0, 0.0, 1.1), (0.0, 0.0, 0.01), (np.pi, 0.0, 0.0))
     coil = Coil("c", 0.007, 0.022, 0.03, 2100, (0, 0, -0.03), (0, 0, -1), 0.5, 1.0)
@@ -320,7 +319,7 @@ def test_axial_sheets_of_magnets_and_coils_give_their_flux():
             ref = -j * integrate.dblquad(lambda zc, rc: maxwell_mutual_inductance(rc, rho[jd], z[i, jd] - zc),
                                          0.007, 0.022, -0.045, -0.015, epsabs=0, epsrel=1e-12)[0]
             assert coil_f[i, jd] == pytest.approx(ref, rel=1e-10)
-    with pytest.raises(GeometryError, match="axial_sheets: design.cores must be empty"):
+    with pytest.raises(InputError, match="axial_sheets: design.cores must be empty"):
         axial_sheets(_design([coil], [], [Core("k", "cylinder", (0.01, 0.02), (0, 0, 0), (0, 0, 1), 100.0, 1.5)]))
 
 
@@ -335,13 +334,6 @@ def test_coil_layers_just_below_the_winding_face_match_montgomery():
     ref = thick_coil_axis_Bz(a, b, h, N, z)
     Bz = coil_field_per_ampere_T(coil, pts, layers=10)[:, 2]
     np.testing.assert_allclose(Bz, ref, rtol=1e-9)
-    # the plain Gauss rule (an observer just outside the graded zone) is the slow one
-    import fields.physics.sources as fs
-
-    old = fs.LAYER_GRADE_WITHIN
-    fs.LAYER_GRADE_WITHIN = 0.0
-    try:
-        plain = coil_field_per_ampere_T(coil, pts, layers=10)[:, 2]
-    finally:
-        fs.LAYER_GRADE_WITHIN = old
+    # the plain Gauss rule (grading switched off) is the slow one
+    plain = coil_field_per_ampere_T(coil, pts, layers=10, grade_within=0.0)[:, 2]
     assert np.max(np.abs(plain - ref) / np.abs(ref)) > 1e3 * np.max(np.abs(Bz - ref) / np.abs(ref))

@@ -20,7 +20,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from fields.analysis import core as analysis
+from fields import analysis
 from fields.devices import coil
 from fields.input import geometry
 from fields.studies import sweep

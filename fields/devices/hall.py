@@ -44,7 +44,7 @@ def hall_readings(design: Design, points_m: np.ndarray, axis: np.ndarray, gaps: 
     basis : FieldBasis
         The physics layer's field basis (for diagnosis).
     """
-    from fields.physics import sources
+    from fields.physics import field_basis as sources
 
     st = design.study
     n = gaps.size
@@ -139,7 +139,7 @@ def hall_response(design: Design, sensor: HallSensor, gaps_m=None, operating_gap
     -------
     HallResponse
     """
-    from fields.physics import sources
+    from fields.physics import field_basis as sources
 
     ax = unit_axis(sensor.axis, f"sensor {sensor.name}")
     p = np.asarray(sensor.position_m, dtype=float).reshape(1, 3)

@@ -315,7 +315,7 @@ def core_inductance_terms(design: Design, gaps_m, hover_currents_A=None, layers:
         Incremental core inductance matrix at each gap and hover-current set.
     saturated : ndarray of bool, shape (g,)
     """
-    from fields.physics import sources
+    from fields.physics import field_basis as sources
 
     k = len(design.coils)
     gaps = np.atleast_1d(np.asarray(gaps_m, dtype=float))

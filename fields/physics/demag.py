@@ -2,7 +2,7 @@
 
 The magnetometric (volume-averaged) factor ``N`` relates the mean demagnetizing field of a
 uniformly magnetized body to its magnetization, ``<H_d> = -N M``. The three factors along a body's
-own axes always sum to one. They are used by :mod:`fields.physics.sources` for the iron-free core
+own axes always sum to one. They are used by :mod:`fields.physics.cores` for the uniform-magnetization core
 approximation ``M = chi / (1 + N chi) H_mean``.
 
 All functions return factors along the body's own ``(x, y, z)`` axes (z = cylinder axis).
@@ -13,13 +13,13 @@ from __future__ import annotations
 import numpy as np
 from scipy import integrate, special
 
-from fields.errors import GeometryError
+from fields.physics.checks import input_error
 
 
 def _positive(where: str, what: str, value: float) -> float:
     v = float(value)
     if not np.isfinite(v) or v <= 0.0:
-        raise GeometryError(where, what, "a positive finite length in metres", value)
+        raise input_error(where, what, "a positive finite length in metres", value)
     return v
 
 
@@ -89,11 +89,11 @@ def ring_demag_factors(inner_diameter_m: float, outer_diameter_m: float, height_
     """
     a = float(inner_diameter_m) / 2.0
     if not np.isfinite(a) or a < 0.0:
-        raise GeometryError("ring_demag_factors", "inner_diameter_m", "a non-negative length", inner_diameter_m)
+        raise input_error("ring_demag_factors", "inner_diameter_m", "a non-negative length", inner_diameter_m)
     b = _positive("ring_demag_factors", "outer_diameter_m", outer_diameter_m) / 2.0
     L = _positive("ring_demag_factors", "height_m", height_m)
     if a >= b:
-        raise GeometryError("ring_demag_factors", "inner_diameter_m", "smaller than outer_diameter_m", inner_diameter_m)
+        raise input_error("ring_demag_factors", "inner_diameter_m", "smaller than outer_diameter_m", inner_diameter_m)
 
     def f(k: float) -> float:
         g = b * special.j1(k * b) - a * special.j1(k * a)
@@ -160,7 +160,7 @@ def cuboid_demag_factors(dimensions_m) -> np.ndarray:
     """
     d = [_positive("cuboid_demag_factors", f"dimensions_m[{i}]", v) / 2.0 for i, v in enumerate(dimensions_m)]
     if len(d) != 3:
-        raise GeometryError("cuboid_demag_factors", "dimensions_m", "three edge lengths", dimensions_m)
+        raise input_error("cuboid_demag_factors", "dimensions_m", "three edge lengths", dimensions_m)
     a, b, c = d
     return np.array([_aharoni_nz(b, c, a), _aharoni_nz(c, a, b), _aharoni_nz(a, b, c)])
 
@@ -181,4 +181,4 @@ def core_demag_factors(shape: str, dimensions_m) -> np.ndarray:
         return ring_demag_factors(*dimensions_m)
     if shape == "cuboid":
         return cuboid_demag_factors(dimensions_m)
-    raise GeometryError("core_demag_factors", "shape", "one of cylinder, ring, cuboid", shape)
+    raise input_error("core_demag_factors", "shape", "one of cylinder, ring, cuboid", shape)

@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
-from fields.analysis import core as analysis
+from fields import analysis
 from fields.io.export import header_lines, write_atomic, write_csv, write_json, write_png
 from fields.model.design import Design
 
@@ -375,7 +375,7 @@ def _axis_tables(design: Design, eq, ax, grid_points: int = 81):
     dq = np.zeros((len(s), 6))
     dq[:, :3] = s[:, None] * ax.direction[None, :]
     P, Rv = analysis.displace(design, eq.position_m, eq.rotvec_rad, dq)
-    from fields.physics.forces import wrench_basis
+    from fields.physics.wrench import wrench_basis
 
     b = wrench_basis(design, P, Rv)
     p = ax.pattern
@@ -403,7 +403,8 @@ def _axis_sensor(design: Design, eq, ax, s_grid, poses, I0):
 
     from fields.devices import beam as sensmod
     from fields.control.dynamics import Sensor
-    from fields.physics.sources import fixed_field_basis, floater_field_T
+    from fields.physics.field_basis import fixed_field_basis
+    from fields.physics.magnets import floater_field_T
 
     st = design.study
     beams = [s for s in design.sensors if s.kind == "beam"]

@@ -112,8 +112,8 @@ def _stiffness_and_basis(design: Design, position_m, rotvec_rad):
     Returns the basis (whose last pose is the unperturbed one) and a function currents -> the
     :class:`fields.analysis.Stiffness`, so one call serves the hover current, k_i and the 6x6.
     """
-    from fields.analysis import core as analysis
-    from fields.physics.forces import wrench_basis
+    from fields import analysis
+    from fields.physics.wrench import wrench_basis
 
     P, Rv, finish = analysis.stiffness_stencil(design, position_m, rotvec_rad)
     b = wrench_basis(design, P, Rv)
@@ -152,7 +152,7 @@ def evaluate_design(design: Design) -> dict:
     - Payload envelope: masses whose weight the force ``F0 +- |k_i| I_max`` can hold at the
       operating gap, as in :func:`fields.analysis.axial_curves`.
     """
-    from fields.analysis import core as analysis
+    from fields import analysis
     from fields.devices import winding as coilmod
     from fields.devices.winding import DEFAULT_INSULATION_CLASS_C, steady_temperature_C
     from fields.input.tables import COPPER_ALPHA_20C_PER_K

@@ -1,0 +1,138 @@
+"""Equilibria of the floater: along the gap axis at one current, and in six axes.
+
+Sign conventions: :mod:`fields.analysis.poses`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import optimize
+
+from fields.analysis.curves import AxialCurves, axial_curves
+from fields.analysis.poses import AXES, displace, floater_size_m, pose_at_gap
+from fields.analysis.stencil import STEP_LENGTH_M, central_difference
+from fields.errors import SolverError
+from fields.model.design import Design
+from fields.physics.wrench import wrench_basis
+
+
+@dataclass(frozen=True)
+class Equilibrium1D:
+    """A gap where the force at ``current_A`` equals the weight; ``stable``: ``k_z > 0`` (axially)."""
+
+    gap_m: float
+    current_A: float
+    kz_N_per_m: float
+    stable: bool
+
+
+def axial_equilibria(design: Design, current_A: float, curves: AxialCurves | None = None,
+                     pattern=None) -> list[Equilibrium1D]:
+    """Every gap in the study's range where the force at ``current_A`` equals the weight.
+
+    Brackets sign changes of F_up - W on the gap grid and refines each with Brent's method on the
+    exact force; ``stable`` marks the axially stable ones (k_z > 0).
+    """
+    c = curves if curves is not None else axial_curves(design, pattern=pattern)
+    d = c.pattern
+    F = c.F0_N + c.ki_N_per_A * current_A - c.weight_N
+    F = np.where(c.contact, np.nan, F)
+    out = []
+    up = design.up
+
+    def resid(gap):
+        p, r = pose_at_gap(design, [gap])
+        b = wrench_basis(design, p, r)
+        return float(b.F0_N[0] @ up + current_A * ((b.Fk_N_per_A[0] @ up) @ d if len(d) else 0.0)) - c.weight_N
+
+    for i in range(len(F) - 1):
+        a, bb = F[i], F[i + 1]
+        if not (np.isfinite(a) and np.isfinite(bb)):
+            continue
+        if a == 0.0:
+            g0 = c.gaps_m[i]
+        elif a * bb < 0:
+            g0 = optimize.brentq(resid, c.gaps_m[i], c.gaps_m[i + 1], xtol=1e-12, rtol=1e-12)
+        else:
+            continue
+        # stiffness at the root from the exact basis
+        hgt = STEP_LENGTH_M
+        p, r = pose_at_gap(design, [g0])
+        P = np.concatenate([p + up * hgt, p - up * hgt])
+        b = wrench_basis(design, P, np.concatenate([r, r]))
+        Fs = b.F0_N @ up + current_A * ((b.Fk_N_per_A @ up) @ d if len(d) else 0.0)
+        kz = -central_difference(Fs[0], Fs[1], hgt)
+        out.append(Equilibrium1D(gap_m=float(g0), current_A=float(current_A), kz_N_per_m=float(kz), stable=bool(kz > 0)))
+    return out
+
+
+@dataclass(frozen=True)
+class Equilibrium:
+    """A pose where force and torque balance gravity on the free axes.
+
+    ``residual_force_N``/``residual_torque_Nm``: magnetic force plus weight, and torque about the
+    centre of mass, at the pose found; ``iterations``: force evaluations used.
+    """
+
+    position_m: np.ndarray
+    rotvec_rad: np.ndarray
+    currents_A: np.ndarray
+    gap_m: float
+    residual_force_N: np.ndarray
+    residual_torque_Nm: np.ndarray
+    free_axes: tuple[str, ...]
+    iterations: int
+
+
+def find_equilibrium(design: Design, currents_A=None, start_gap_m: float | None = None,
+                     free_axes: tuple[str, ...] | None = None, tol_rel: float = 1e-9) -> Equilibrium:
+    """Pose where the magnetic force balances gravity and the torque vanishes on the free axes.
+
+    Solves for the free generalized coordinates (displacements of the centre of mass and
+    rotations about it) from the pose at ``start_gap_m`` (default: the operating gap) with
+    scipy's hybrid Powell method. Raises SolverError naming the start, axes and residual when it
+    does not converge.
+    """
+    I = np.zeros(len(design.coils)) if currents_A is None else np.asarray(currents_A, float)
+    free = tuple(design.study.free_axes if free_axes is None else free_axes)
+    idx = [AXES.index(a) for a in free]
+    g0 = design.study.operating_gap_m if start_gap_m is None else start_gap_m
+    p0, r0 = pose_at_gap(design, [g0])
+    p0, r0 = p0[0], r0[0]
+    W = design.weight_N
+    size = floater_size_m(design)
+    gvec = np.asarray(design.study.gravity_m_per_s2) * design.floater.mass_kg
+    scale = np.array([W, W, W, W * size, W * size, W * size])
+    calls = [0]
+
+    def residual(x):
+        dq = np.zeros(6)
+        dq[idx] = x * np.where(np.array(idx) < 3, size, 1.0)
+        P, Rv = displace(design, p0, r0, dq)
+        b = wrench_basis(design, P, Rv)
+        calls[0] += 1
+        if bool(b.contact[0]):
+            return np.full(len(idx), 1e3)
+        F = (b.force(I) if len(I) else b.F0_N)[0] + gvec
+        T = (b.torque(I) if len(I) else b.T0_Nm)[0]
+        return (np.concatenate([F, T]) / scale)[idx]
+
+    sol = optimize.root(residual, np.zeros(len(idx)), method="hybr", options={"xtol": 1e-12})
+    res = residual(sol.x)
+    if not sol.success and np.max(np.abs(res)) > tol_rel * 10 or np.max(np.abs(res)) > 1e-6:
+        raise SolverError(
+            f"equilibrium: no pose found from gap {g0 * 1e3:.4g} mm at currents {list(np.round(I, 6))} A "
+            f"over axes {', '.join(free)} (Powell hybrid method, {calls[0]} force evaluations); "
+            f"remaining force/torque residual {np.max(np.abs(res)):.3g} x weight")
+    dq = np.zeros(6)
+    dq[idx] = sol.x * np.where(np.array(idx) < 3, size, 1.0)
+    P, Rv = displace(design, p0, r0, dq)
+    gdir = np.asarray(design.study.gap_direction)
+    gap = float((P[0] - np.asarray(design.study.gap_origin_m)) @ gdir)
+    b = wrench_basis(design, P, Rv)
+    F = (b.force(I) if len(I) else b.F0_N)[0] + gvec
+    T = (b.torque(I) if len(I) else b.T0_Nm)[0]
+    return Equilibrium(position_m=P[0], rotvec_rad=Rv[0], currents_A=I, gap_m=gap, residual_force_N=F,
+                       residual_torque_Nm=T, free_axes=free, iterations=calls[0])

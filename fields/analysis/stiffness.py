@@ -1,0 +1,164 @@
+"""Stiffness of the floater: the 6x6 matrix at a pose and the diagonal versus gap.
+
+``K = -d(F, T)/d(x, y, z, rx, ry, rz)`` about the centre of mass, by central differences of the
+exact force (:mod:`fields.analysis.stencil`). Checks that cannot be fooled: for rigid magnets in
+iron-free fields the translational block is symmetric (a Hessian of the energy) and its trace
+vanishes (Laplace's equation; Earnshaw, Trans. Camb. Phil. Soc. 7 (1842) 97).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from fields.analysis.curves import axial_curves
+from fields.analysis.poses import displace, drive_pattern, pose_at_gap
+from fields.analysis.stencil import (
+    RICHARDSON_MULTIPLES,
+    STEP_ANGLE_RAD,
+    STEP_LENGTH_M,
+    central_offsets,
+    pose_steps,
+    richardson,
+    stencil_derivatives,
+)
+from fields.model.design import Design
+from fields.physics.wrench import wrench_basis
+
+
+@dataclass(frozen=True)
+class Stiffness:
+    """6x6 stiffness K = -d(F, T)/d(x, y, z, rx, ry, rz) about the centre of mass.
+
+    ``K`` in N/m (translation rows/cols), N/rad, N m/m and N m/rad; ``error`` the Richardson error
+    bar per entry (|R - D_h|, R the extrapolated value); ``force_N``/``torque_Nm`` at the pose.
+    """
+
+    K: np.ndarray
+    error: np.ndarray
+    force_N: np.ndarray
+    torque_Nm: np.ndarray
+    position_m: np.ndarray
+    rotvec_rad: np.ndarray
+    currents_A: np.ndarray
+    step_length_m: float
+    step_angle_rad: float
+
+    @property
+    def translational(self) -> np.ndarray:
+        return self.K[:3, :3]
+
+    def earnshaw_residual(self) -> tuple[float, float]:
+        """(trace of the translational block, trace / largest |diagonal|)."""
+        t = float(np.trace(self.translational))
+        s = float(np.max(np.abs(np.diag(self.translational))))
+        return t, (abs(t) / s if s > 0 else 0.0)
+
+
+def stiffness_stencil(design: Design, position_m, rotvec_rad, step_length_m: float = STEP_LENGTH_M,
+                      step_angle_rad: float = STEP_ANGLE_RAD):
+    """The 25 poses of the stiffness stencil (steps +-h and +-2h on each of the six axes, then the
+    pose itself) and a function that turns the basis evaluated there into a :class:`Stiffness`.
+
+    Returns
+    -------
+    positions_m (25, 3), rotvecs_rad (25, 3), finish : callable(basis, currents_A) -> Stiffness
+    """
+    steps = pose_steps(step_length_m, step_angle_rad)
+    dq = central_offsets(steps, multiples=RICHARDSON_MULTIPLES, centre=True)
+    P, Rv = displace(design, position_m, rotvec_rad, dq)
+
+    def finish(b, currents_A) -> Stiffness:
+        I = np.asarray(currents_A, float)
+        F = b.force(I) if len(I) else b.F0_N
+        T = b.torque(I) if len(I) else b.T0_Nm
+        W = np.concatenate([F, T], axis=1)  # (25, 6)
+        D = stencil_derivatives(W, steps, multiples=RICHARDSON_MULTIPLES)  # (2, 6 rows, 6 axes)
+        R, err = richardson(-D[0], -D[1])
+        return Stiffness(K=R, error=err, force_N=F[-1], torque_Nm=T[-1],
+                         position_m=np.asarray(position_m, float), rotvec_rad=np.asarray(rotvec_rad, float),
+                         currents_A=I, step_length_m=step_length_m, step_angle_rad=step_angle_rad)
+
+    return P, Rv, finish
+
+
+def stiffness_matrix(design: Design, position_m, rotvec_rad, currents_A=None,
+                     step_length_m: float = STEP_LENGTH_M, step_angle_rad: float = STEP_ANGLE_RAD) -> Stiffness:
+    """The 6x6 stiffness at one pose and coil currents, by central differences of the exact
+    force with Richardson extrapolation (steps h and 2h; the error bar is |R - D_h|).
+
+    Step rule: h = 1e-6 m for translations and 1e-4 rad for rotations by default (balances the
+    O(h^2) truncation of the central difference against rounding of order eps |F| / h).
+    All 25 poses go through one batched force evaluation.
+    """
+    I = np.zeros(len(design.coils)) if currents_A is None else np.asarray(currents_A, float)
+    P, Rv, finish = stiffness_stencil(design, position_m, rotvec_rad, step_length_m, step_angle_rad)
+    return finish(wrench_basis(design, P, Rv), I)
+
+
+@dataclass(frozen=True)
+class GapStiffness:
+    """Lateral and tilt stiffness versus gap at the hover current (or given currents).
+
+    ``currents_A`` (g, k); ``k_lateral_N_per_m`` (g,) the mean of k_xx and k_yy;
+    ``k_vertical_N_per_m`` (g,) k_zz; ``k_tilt_Nm_per_rad`` (g,) the mean of k_rxrx and k_ryry.
+    NaN where a stencil pose touches a body.
+    """
+
+    gaps_m: np.ndarray
+    currents_A: np.ndarray
+    k_lateral_N_per_m: np.ndarray
+    k_vertical_N_per_m: np.ndarray
+    k_tilt_Nm_per_rad: np.ndarray
+
+
+def stiffness_versus_gap(design: Design, gaps_m=None, currents_A=None, at_hover: bool = True,
+                         pattern=None) -> GapStiffness:
+    """Diagonal stiffness (lateral, vertical, tilt) versus gap, batched in one force call.
+
+    With ``at_hover`` the current at each gap is the hover current of the drive pattern (so the
+    vertical force balances the weight); otherwise ``currents_A`` (k,) or the nominal currents.
+    Central differences with the steps of :mod:`fields.analysis.stencil` (no extrapolation).
+    """
+    st = design.study
+    gaps = np.linspace(st.gap_min_m, st.gap_max_m, 40) if gaps_m is None else np.asarray(gaps_m, float)
+    d = drive_pattern(design, pattern)
+    if at_hover and design.coils:
+        c = axial_curves(design, gaps_m=gaps, currents_A=[0.0], pattern=pattern, near_field=False)
+        ih = np.nan_to_num(c.hover_current_A)
+        Ik = ih[:, None] * d[None, :]
+    else:
+        I = np.array([c.nominal_current_A for c in design.coils]) if currents_A is None else np.asarray(currents_A, float)
+        Ik = np.broadcast_to(I, (len(gaps), len(design.coils)))
+    pos, rot = pose_at_gap(design, gaps)
+    steps = pose_steps()
+    axes = [0, 1, 2, 3, 4]
+    dq = central_offsets(steps, axes=axes)
+    Ps, Rs = [], []
+    for i in range(len(gaps)):
+        P, Rv = displace(design, pos[i], rot[i], dq)
+        Ps.append(P)
+        Rs.append(Rv)
+    P = np.concatenate(Ps)
+    Rv = np.concatenate(Rs)
+    # an overview across the gap range: the plain cap rule (see fields.analysis.maps.pose_map)
+    b = wrench_basis(design, P, Rv, near_field=False)
+    m = 2 * len(axes)
+    F0 = b.F0_N.reshape(len(gaps), m, 3)
+    T0 = b.T0_Nm.reshape(len(gaps), m, 3)
+    if design.coils:
+        Fk = b.Fk_N_per_A.reshape(len(gaps), m, len(design.coils), 3)
+        Tk = b.Tk_Nm_per_A.reshape(len(gaps), m, len(design.coils), 3)
+        F = F0 + np.einsum("gmkc,gk->gmc", Fk, Ik)
+        T = T0 + np.einsum("gmkc,gk->gmc", Tk, Ik)
+    else:
+        F, T = F0, T0
+    W = np.concatenate([F, T], axis=2)  # (g, m, 6)
+    D = stencil_derivatives(np.moveaxis(W, 1, 0), steps, axes=axes)[0]  # (g, 6, axes)
+    kdiag = -D[:, axes, np.arange(len(axes))]
+    # gaps where any stencil pose touches a body have no stiffness
+    touching = np.asarray(b.contact).reshape(len(gaps), m).any(axis=1)
+    kdiag[touching] = np.nan
+    return GapStiffness(gaps_m=gaps, currents_A=Ik, k_lateral_N_per_m=0.5 * (kdiag[:, 0] + kdiag[:, 1]),
+                        k_vertical_N_per_m=kdiag[:, 2], k_tilt_Nm_per_rad=0.5 * (kdiag[:, 3] + kdiag[:, 4]))

@@ -1,0 +1,346 @@
+"""Force and torque on the floater: surface charges in the fixed sources' field.
+
+The floater's magnets carry surface charges (:mod:`fields.physics.charges`); the force is the sum
+of charge times B of the fixed sources (coils, fixed magnets, cores; never the floater's own) at
+the charge nodes, and the torque is taken about the floater's centre of mass. Coil parts are kept
+per ampere, so the result is a :class:`WrenchBasis` linear in the currents.
+
+Routes, per pose:
+
+- poses in contact are not evaluated;
+- on the symmetry axis of a core-free axisymmetric design, when every other pose of the call is
+  on it too: the closed-form cap flux (:func:`fields.physics.axial.axial_cap_force`); on the axis
+  in a call that also holds off-axis poses, and with cores: the 1-D radial cap rule (it equals the
+  general rule there, so that differences across one call stay on one discretisation);
+- near a source edge: the graded cap rule (:mod:`fields.physics.nearfield`), one rule per group
+  of nearby poses; coil designs send on-axis poses that need grading there too (the closed form
+  keeps plain coil layers, which converge slowly for a cap just under a winding's end face);
+- elsewhere: the plain rule.
+
+The error estimate is the difference between the requested rule level and the next coarser one
+(fewer coil layers and fewer surface nodes); it bounds the error of the coarser result and is
+therefore conservative for the returned one.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.spatial.transform import Rotation
+
+from fields.model.design import Design
+from fields.physics.axial import axial_cap_force, on_axis_mask
+from fields.physics.charges import floater_surface_rule
+from fields.physics.checks import input_error, pose_arrays
+from fields.physics.contact import CONTACT_CLEARANCE_M, clearance_m
+from fields.physics.cores import clip_polarization, core_models
+from fields.physics.field_basis import fixed_field_basis
+from fields.physics.kernels import CHUNK
+from fields.physics.levels import LEVEL_NAMES, RuleLevel, coarser_level, rule_level
+from fields.physics.nearfield import graded_floater_rule, near_field_poses, pose_groups
+
+
+def _apply(base: np.ndarray, per_A: np.ndarray, currents_A) -> np.ndarray:
+    I = np.asarray(currents_A, dtype=float)
+    k = per_A.shape[1]
+    if I.shape[-1] != k:
+        raise input_error("wrench", "currents_A", f"{k} values per row (one per coil)", I.shape)
+    if I.ndim == 1:
+        return base + np.einsum("k,nki->ni", I, per_A)
+    return base[None] + np.einsum("ck,nki->cni", I, per_A)
+
+
+@dataclass(frozen=True)
+class WrenchBasis:
+    """Force and torque on the floater split by linearity in the coil currents.
+
+    ``F(I) = F0_N + sum_k I_k Fk_N_per_A[:, k]`` (exact without cores, and with cores that do not
+    saturate; ``core_saturated`` flags poses where the rated current box can saturate a core).
+
+    Attributes
+    ----------
+    F0_N, T0_Nm : ndarray, shape (n, 3)
+        Force (N) and torque about the floater's centre of mass (N m) at zero current.
+    Fk_N_per_A, Tk_Nm_per_A : ndarray, shape (n, k, 3)
+        Per ampere of each coil.
+    error_F_N, error_T_Nm : ndarray, shape (n,)
+        Two-level error estimates (at the coils' nominal currents).
+    contact : ndarray of bool, shape (n,)
+        Floater touches or overlaps a body: no field is evaluated there and the force and torque
+        are reported as zero (not a physical value: check this flag).
+    clearance_m : ndarray, shape (n,)
+        Signed clearance (negative = overlap) (m).
+    core_saturated : ndarray of bool, shape (n,)
+        The rated current box can saturate a core at this pose (the basis is then not exact for
+        every rated current: use :func:`wrench` with the currents).
+    """
+
+    F0_N: np.ndarray
+    Fk_N_per_A: np.ndarray
+    T0_Nm: np.ndarray
+    Tk_Nm_per_A: np.ndarray
+    error_F_N: np.ndarray
+    error_T_Nm: np.ndarray
+    contact: np.ndarray
+    clearance_m: np.ndarray
+    core_saturated: np.ndarray
+
+    def force(self, currents_A) -> np.ndarray:
+        """Force (n,3) for currents (k,), or (c,n,3) for currents (c,k) (N)."""
+        return _apply(self.F0_N, self.Fk_N_per_A, currents_A)
+
+    def torque(self, currents_A) -> np.ndarray:
+        """Torque about the centre of mass, (n,3) or (c,n,3) (N m)."""
+        return _apply(self.T0_Nm, self.Tk_Nm_per_A, currents_A)
+
+
+@dataclass(frozen=True)
+class Wrench:
+    """Force and torque at given currents (nonlinear core clipping included).
+
+    Attributes
+    ----------
+    force_N, torque_Nm : ndarray, shape (n, 3)
+    error_F_N, error_T_Nm : ndarray, shape (n,)
+    contact : ndarray of bool, shape (n,)
+    clearance_m : ndarray, shape (n,)
+    core_saturated : ndarray of bool, shape (n,)
+        A core is clipped at saturation at these currents.
+    """
+
+    force_N: np.ndarray
+    torque_Nm: np.ndarray
+    error_F_N: np.ndarray
+    error_T_Nm: np.ndarray
+    contact: np.ndarray
+    clearance_m: np.ndarray
+    core_saturated: np.ndarray
+
+
+# --------------------------------------------------------------------------- evaluation
+
+
+def _surface_wrench(design: Design, P, Rv, level: RuleLevel, axisym: bool, currents_A=None, rule=None):
+    """F0, Fk, T0, Tk, clipped F and T at currents, clipped and box-saturated flags for the poses
+    P (n,3) at one rule level; ``rule`` (points (q,3), charges (q,)) replaces the floater's plain
+    surface rule."""
+    xf, s = floater_surface_rule(design.floater, level, axisym) if rule is None else rule
+    q = xf.shape[0]
+    k = len(design.coils)
+    c_f = np.asarray(design.floater.centre_of_mass_m, dtype=float)
+    n = P.shape[0]
+    F0 = np.zeros((n, 3))
+    T0 = np.zeros((n, 3))
+    Fk = np.zeros((n, k, 3))
+    Tk = np.zeros((n, k, 3))
+    Fc = np.zeros((n, 3))
+    Tc = np.zeros((n, 3))
+    sat = np.zeros(n, dtype=bool)
+    sat_box = np.zeros(n, dtype=bool)
+    layers = level.layers
+    per = max(1, CHUNK // max(1, q * max(layers, 1)))
+    cores = core_models(design) if design.cores else ()
+    for a in range(0, n, per):
+        sl = slice(a, a + per)
+        R = Rotation.from_rotvec(Rv[sl]).as_matrix()
+        X = np.einsum("nij,qj->nqi", R, xf) + P[sl, None, :]
+        arm = X - (np.einsum("nij,j->ni", R, c_f) + P[sl])[:, None, :]
+        fb = fixed_field_basis(design, X, P[sl], Rv[sl], layers=layers, grade_within=level.layer_grade_within)
+        F0[sl] = np.einsum("q,nqi->ni", s, fb.B0_T)
+        Fk[sl] = np.einsum("q,nkqi->nki", s, fb.Bk_T_per_A)
+        T0[sl] = np.einsum("q,nqi->ni", s, np.cross(arm, fb.B0_T))
+        Tk[sl] = np.einsum("q,nkqi->nki", s, np.cross(arm[:, None], fb.Bk_T_per_A))
+        sat_box[sl] = fb.core_saturated
+        if currents_A is not None:
+            I = np.asarray(currents_A, dtype=float)
+            B = fb.field_T(I)
+            if cores:
+                J = fb.core_J0_T + np.einsum("k,nkci->nci", I, fb.core_Jk_T_per_A)
+                Jc, over = clip_polarization(J, fb.core_saturation_T[None, :])
+                sat[sl] = np.any(over, axis=1)
+                for j, cm in enumerate(cores):
+                    idx = np.nonzero(over[:, j])[0]
+                    if idx.size:
+                        G = cm.field_matrix(X[idx]).reshape(idx.size, q, 3, 3)
+                        B[idx] += np.einsum("nqij,nj->nqi", G, Jc[idx, j] - J[idx, j])
+            Fc[sl] = np.einsum("q,nqi->ni", s, B)
+            Tc[sl] = np.einsum("q,nqi->ni", s, np.cross(arm, B))
+    return F0, Fk, T0, Tk, Fc, Tc, sat, sat_box
+
+
+def _axis_wrench(F0z, Fkz, currents_A):
+    """The result tuple of :func:`_surface_wrench` for the closed-form axial route (transverse
+    force and torque zero by symmetry, no cores)."""
+    n, k = Fkz.shape
+    F0 = np.zeros((n, 3))
+    Fk = np.zeros((n, k, 3))
+    F0[:, 2] = F0z
+    Fk[:, :, 2] = Fkz
+    Fc = np.zeros((n, 3))
+    if currents_A is not None:
+        Fc = F0 + np.einsum("k,nki->ni", np.asarray(currents_A, dtype=float), Fk)
+    z3 = np.zeros((n, 3))
+    return F0, Fk, z3, np.zeros((n, k, 3)), Fc, z3.copy(), np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)
+
+
+def _levels(order: str | RuleLevel, estimate_error: bool) -> tuple[RuleLevel, RuleLevel]:
+    """The rule level and its partner for the error estimate (the level itself without one)."""
+    if isinstance(order, RuleLevel):
+        if estimate_error:
+            raise input_error("wrench", "estimate_error", "False when order is a RuleLevel (it has no coarser level)",
+                              estimate_error)
+        return order, order
+    if order not in LEVEL_NAMES[1:]:
+        raise input_error("wrench", "order", f"one of {', '.join(LEVEL_NAMES[1:])} or a RuleLevel", order)
+    return rule_level(order), coarser_level(order)
+
+
+def _evaluate(design: Design, positions_m, rotvecs_rad, order: str | RuleLevel, currents_A=None,
+              estimate_error: bool = True, near_field: bool = True, axis_symmetry: bool = True):
+    level, lower = _levels(order, estimate_error)
+    P, Rv = pose_arrays(positions_m, rotvecs_rad, "wrench")
+    n = P.shape[0]
+    k = len(design.coils)
+    if currents_A is not None:
+        currents_A = np.asarray(currents_A, dtype=float).reshape(-1)
+        if currents_A.size != k:
+            raise input_error("wrench", "currents_A", f"{k} values (one per coil)", currents_A.size)
+    clearance = clearance_m(design, P, Rv)
+    contact = clearance <= CONTACT_CLEARANCE_M
+    out = [np.zeros((n, 3)), np.zeros((n, k, 3)), np.zeros((n, 3)), np.zeros((n, k, 3)),
+           np.zeros((n, 3)), np.zeros((n, 3)), np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)]
+    low = [np.zeros((n, 3)), np.zeros((n, k, 3)), np.zeros((n, 3)), np.zeros((n, k, 3)),
+           np.zeros((n, 3)), np.zeros((n, 3))]
+    axial = (on_axis_mask(design, P, Rv) if axis_symmetry else np.zeros(n, dtype=bool)) & ~contact
+    general = ~axial & ~contact
+    closed_form = not design.cores and not np.any(general)
+    # near-field poses (a charged cap close to a source edge) get the graded cap rule, built per
+    # group of nearby poses so that a stiffness stencil shares one discretisation; the closed-form
+    # on-axis route needs no cap rule (but keeps plain coil layers, which converge slowly for a
+    # cap just under a winding's end face: coil designs send such poses to the graded route)
+    pool = general | (axial & (bool(design.coils) or not closed_form))
+    if near_field:
+        graded, edges = near_field_poses(design, P, Rv, np.where(pool, clearance, np.inf))
+        graded &= pool
+    else:
+        graded, edges = np.zeros(n, dtype=bool), None
+    groups = pose_groups(P, Rv, graded, pool) if np.any(graded) else []
+    for g in groups:
+        graded[g] = True
+    tasks = [(axial & ~graded, True, None), (general & ~graded, False, None)]
+    tasks += [(np.isin(np.arange(n), g), bool(np.all(axial[g])), g[0]) for g in groups]
+    for mask, axisym, seed in tasks:
+        if not np.any(mask):
+            continue
+        # closed-form cap flux (exact cap integral) unless the batch also holds off-axis poses: a
+        # batch is then evaluated with one cap rule (the 1-D radial rule equals the general rule on
+        # the axis), so that differences across it (stiffness stencils) stay consistent
+        if seed is not None:
+            rule = graded_floater_rule(design, edges, P[seed], Rv[seed], level)
+            res = _surface_wrench(design, P[mask], Rv[mask], level, False, currents_A, rule)
+            if estimate_error:
+                rule_lo = graded_floater_rule(design, edges, P[seed], Rv[seed], lower)
+                res_lo = _surface_wrench(design, P[mask], Rv[mask], lower, False, currents_A, rule_lo)
+            else:
+                res_lo = res
+        elif axisym and closed_form:
+            counts = (level.layers, lower.layers) if estimate_error else (level.layers,)
+            F0z, Fkz = axial_cap_force(design, P[mask], counts)
+            res, res_lo = _axis_wrench(F0z, Fkz[0], currents_A), _axis_wrench(F0z, Fkz[-1], currents_A)
+        else:
+            res = _surface_wrench(design, P[mask], Rv[mask], level, axisym, currents_A)
+            res_lo = (_surface_wrench(design, P[mask], Rv[mask], lower, axisym, currents_A) if estimate_error
+                      else res)
+        if axisym:  # exact symmetry: transverse force and all torque vanish
+            for r in (res, res_lo):
+                r[0][:, :2] = 0.0
+                r[1][:, :, :2] = 0.0
+                r[2][:] = 0.0
+                r[3][:] = 0.0
+                r[4][:, :2] = 0.0
+                r[5][:] = 0.0
+        for dst, src in zip(out, res):
+            dst[mask] = src
+        for dst, src in zip(low, res_lo):
+            dst[mask] = src
+    if not estimate_error:
+        dF = dT = np.full((n, 3), np.nan)
+    elif currents_A is not None:
+        dF, dT = out[4] - low[4], out[5] - low[5]
+    else:
+        Inom = np.array([float(c.nominal_current_A) for c in design.coils])
+        dF = (out[0] - low[0]) + np.einsum("k,nki->ni", Inom, out[1] - low[1])
+        dT = (out[2] - low[2]) + np.einsum("k,nki->ni", Inom, out[3] - low[3])
+    return out, np.linalg.norm(dF, axis=1), np.linalg.norm(dT, axis=1), contact, clearance
+
+
+def wrench_basis(design: Design, positions_m, rotvecs_rad, order: str | RuleLevel = "standard",
+                 estimate_error: bool = True, near_field: bool = True, axis_symmetry: bool = True) -> WrenchBasis:
+    """Force and torque bases of the floater at n poses.
+
+    Parameters
+    ----------
+    design : Design
+    positions_m : ndarray, shape (n, 3)
+        Floater frame origins, world frame (m).
+    rotvecs_rad : ndarray, shape (n, 3) or (3,)
+        Floater orientations (rotation vectors, rad).
+    order : str or RuleLevel
+        Rule level: ``"fast"``, ``"standard"``, ``"high"`` or ``"reference"``
+        (:data:`fields.physics.levels.LEVELS`), or a :class:`~fields.physics.levels.RuleLevel`
+        (then ``estimate_error`` must be False).
+    estimate_error : bool
+        Evaluate the next coarser level too and report the difference as the error estimate
+        (default). False halves the cost and reports NaN estimates (for inner loops whose
+        accuracy was established once, e.g. finite-difference stencils).
+    near_field : bool
+        Use the graded cap rule where a charged cap comes close to a source edge (default).
+    axis_symmetry : bool
+        Use the symmetry of on-axis poses (closed-form cap flux or 1-D radial cap rule, exact
+        zeros off the axis direction) (default). False evaluates them like any other pose.
+
+    Returns
+    -------
+    WrenchBasis
+        Linear in the currents; exact without cores and for unclipped cores. Torque is about the
+        floater's centre of mass.
+
+    Notes
+    -----
+    Poses on the symmetry axis of an axisymmetric design (all sources coaxial along a line
+    parallel to z, axial polarizations, floater untilted) have zero transverse force and torque
+    by symmetry. Without cores, their axial force is the closed-form flux of the sources' sheets
+    through the floater's charged cap discs (exact in the caps; the "standard" level's 10 coil
+    layers then leave about 3e-9 relative at a 3 mm gap on the benchmark design), when every
+    non-contact pose of the call is on the axis; a call that mixes on- and off-axis poses (e.g. a
+    stiffness stencil) uses the 1-D radial cap rule on the axis, which equals the general rule
+    there, so that differences across the call stay consistent. Designs with cores use the 1-D
+    radial cap rule on the axis.
+    """
+    out, eF, eT, contact, clearance = _evaluate(design, positions_m, rotvecs_rad, order, None, estimate_error,
+                                                near_field, axis_symmetry)
+    return WrenchBasis(out[0], out[1], out[2], out[3], eF, eT, contact, clearance, out[7])
+
+
+def wrench(design: Design, positions_m, rotvecs_rad, currents_A, order: str | RuleLevel = "standard",
+           estimate_error: bool = True, near_field: bool = True, axis_symmetry: bool = True) -> Wrench:
+    """Force and torque on the floater at n poses and one set of currents.
+
+    Parameters
+    ----------
+    design : Design
+    positions_m : ndarray, shape (n, 3)
+    rotvecs_rad : ndarray, shape (n, 3) or (3,)
+    currents_A : array_like, shape (k,)
+    order, estimate_error, near_field, axis_symmetry
+        As in :func:`wrench_basis`.
+
+    Returns
+    -------
+    Wrench
+        Core polarizations are clipped at saturation (nonlinear in the currents).
+    """
+    out, eF, eT, contact, clearance = _evaluate(design, positions_m, rotvecs_rad, order, currents_A, estimate_error,
+                                                near_field, axis_symmetry)
+    return Wrench(out[4], out[5], eF, eT, contact, clearance, out[6])
