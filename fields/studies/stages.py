@@ -360,7 +360,7 @@ def _slug(name: str) -> str:
 
 def _axis_tables(design: Design, eq, ax, grid_points: int = 81):
     """Force table along the control axis and the positions grid (s measured along ax.direction)."""
-    from fields.control.dynamics import ForceTable
+    from fields.control.plant import ForceTable
 
     st = design.study
     if ax.index == 2:
@@ -402,7 +402,7 @@ def _axis_sensor(design: Design, eq, ax, s_grid, poses, I0):
     from scipy.interpolate import CubicSpline
 
     from fields.devices import beam as sensmod
-    from fields.control.dynamics import Sensor
+    from fields.control.plant import Sensor
     from fields.physics.field_basis import fixed_field_basis
     from fields.physics.magnets import floater_field_T
 
@@ -476,7 +476,7 @@ def run_control(design: Design, out: Path, stability=None, coil=None) -> dict:
     when the caller has them (the report does): their equilibrium and inductance matrix are
     reused instead of computed again."""
     from fields.devices import coil as coilmod
-    from fields.control import dynamics as dyn
+    from fields import control as dyn
     from fields.io import plots
 
     out = Path(out)
