@@ -12,7 +12,6 @@ import difflib
 import math
 import tomllib
 from pathlib import Path
-from typing import Any
 
 import numpy as np
 
