@@ -2,7 +2,7 @@
 
 Measured in the same run:
 
-- ``fields.sweep.run_sweep`` on the local process pool with 1 and 2 workers (scaling), a
+- ``fields.studies.sweep.run_sweep`` on the local process pool with 1 and 2 workers (scaling), a
   Sobol sample of floater magnet diameter (8..20 mm) x height (3..10 mm); wall time of the whole
   call (pool start, every design loaded by the normal loader, operating point, 6x6 stiffness,
   verdict, coil heat, payload envelope, chunk files, merge, plots, best design);

@@ -57,6 +57,7 @@ def test_missing_file(tmp_path, capsys):
     assert "the geometry file must be an existing file" in capsys.readouterr().err
 
 
+@pytest.mark.slow
 def test_curves_and_stability_commands(tmp_path, capsys):
     assert cli.main(["curves", str(SUSPENSION), "-o", str(tmp_path)]) == 0
     out = capsys.readouterr().out
@@ -66,3 +67,12 @@ def test_curves_and_stability_commands(tmp_path, capsys):
     assert "vertical: stable" in out and "sideways x/y: unstable" in out
     for f in ("curves.csv", "curves.json", "curves.png", "stiffness.csv", "stability.json", "allocation.csv"):
         assert (tmp_path / f).is_file(), f
+
+
+def test_every_command_is_listed_and_python_m_works():
+    # one module per command under fields.cli; `python -m fields.cli` is the same entry point
+    r = subprocess.run([sys.executable, "-m", "fields.cli", "--help"], capture_output=True, text=True, cwd=ROOT)
+    for name in ("check", "curves", "stability", "coil", "sensors", "control", "report", "sweep", "figures"):
+        assert f"    {name}" in r.stdout, name
+    r = subprocess.run([sys.executable, "-m", "fields.cli", "coil", "--help"], capture_output=True, text=True, cwd=ROOT)
+    assert r.returncode == 0 and "coil datasheet" in r.stdout

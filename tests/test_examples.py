@@ -15,19 +15,20 @@ import numpy as np
 import pytest
 
 from fields import analysis
-from fields.studies import stages as runs
+from fields.analysis.operating import operating_point
 from fields.input.geometry import load
 
 from helpers import EXAMPLES, REPULSIVE, SUSPENSION
 
 
-@pytest.mark.parametrize("path", EXAMPLES, ids=lambda p: p.name)
+@pytest.mark.parametrize("path", [pytest.param(p, marks=pytest.mark.slow) if p == REPULSIVE else p for p in EXAMPLES],
+                         ids=lambda p: p.name)
 def test_example_solves(path):
     d = load(path)
     c = analysis.axial_curves(d)
     assert not np.any(np.isnan(c.Fup_N[~c.contact]))
-    op = runs.operating_point(d, c)
-    eq = op["equilibrium"]
+    op = operating_point(d, c)
+    eq = op.equilibrium
     # force balance at the six-axis equilibrium: residual below 1e-6 of the weight
     assert np.linalg.norm(eq.residual_force_N) < 1e-6 * d.weight_N
     # the floater mass is the magnets' volume x density plus the payload
@@ -47,6 +48,7 @@ def test_suspension_hover_current_balances_weight():
     assert w.force_N[0] @ d.up == pytest.approx(d.weight_N, rel=1e-9)
 
 
+@pytest.mark.slow
 def test_repulsive_passive_height_is_stable_vertically():
     d = load(REPULSIVE)
     c = analysis.axial_curves(d)

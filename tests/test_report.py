@@ -24,7 +24,7 @@ import pytest
 from fields.model import solids as bodies
 from fields import cli
 from fields.io import formats
-from fields.io.export import read_csv
+from fields.input.csvtable import read_csv
 from fields.input.geometry import load
 
 from helpers import REPULSIVE, ROOT, SUSPENSION
@@ -70,6 +70,7 @@ def _resolve(obj, path):
     return obj
 
 
+@pytest.mark.slow
 def test_every_number_in_the_report_equals_its_json(report_dir):
     p = _Nums()
     p.feed((report_dir / "report.html").read_text(encoding="utf-8"))
@@ -89,6 +90,7 @@ def test_every_number_in_the_report_equals_its_json(report_dir):
         assert it["text"] == expected, it
 
 
+@pytest.mark.slow
 def test_report_opens_in_headless_browser(report_dir, tmp_path):
     if CHROMIUM is None:
         pytest.skip("Chromium is not installed (Debian package 'chromium'); .ci/run installs it")
@@ -106,6 +108,7 @@ def test_report_opens_in_headless_browser(report_dir, tmp_path):
     assert dom.count("data:image/png;base64,") >= 8  # figures embedded: self-contained
 
 
+@pytest.mark.slow
 def test_csv_and_c_header_round_trip(report_dir):
     exp = report_dir / "exports"
     arrays = formats.parse_c_header((exp / "tables.h").read_text())
@@ -121,6 +124,7 @@ def test_csv_and_c_header_round_trip(report_dir):
     assert np.array_equal(back["X"], a)
 
 
+@pytest.mark.slow
 def test_force_table_matches_the_curves(report_dir):
     cols, data = read_csv(report_dir / "exports" / "table_Fz.csv")
     ccols, cdata = read_csv(report_dir / "curves.csv")
@@ -132,6 +136,7 @@ def test_force_table_matches_the_curves(report_dir):
         assert row[j0[0]] == pytest.approx(F0[round(row[0], 12)], rel=1e-8)
 
 
+@pytest.mark.slow
 def test_spice_subcircuit_dc_operating_point_gives_hover_current(report_dir, tmp_path):
     if NGSPICE is None:
         pytest.skip("ngspice is not installed (Debian package 'ngspice'); .ci/run installs it")
@@ -164,6 +169,7 @@ print i(Vm)
     assert current == pytest.approx(curves["at_operating_gap"]["hover_current_A"], rel=5e-3)
 
 
+@pytest.mark.slow
 def test_exported_mesh_is_closed_with_the_model_volume(report_dir):
     import trimesh
 
@@ -193,6 +199,7 @@ def _complete(path: Path) -> bool:
 
 
 @pytest.mark.parametrize("sig", [signal.SIGINT, signal.SIGTERM])
+@pytest.mark.slow
 def test_interrupted_run_leaves_complete_files_only(tmp_path, sig):
     out = tmp_path / "out"
     proc = subprocess.Popen([sys.executable, "-m", "fields.cli", "report", str(SUSPENSION), "-o", str(out), "-q"],
@@ -212,6 +219,7 @@ def test_interrupted_run_leaves_complete_files_only(tmp_path, sig):
         assert _complete(p), p
 
 
+@pytest.mark.slow
 def test_failed_stage_is_reported_and_the_rest_kept(tmp_path):
     # the repulsive base without its coils: passive levitation works, a control model cannot exist
     text = REPULSIVE.read_text()
@@ -226,3 +234,36 @@ def test_failed_stage_is_reported_and_the_rest_kept(tmp_path):
     assert (out / "stability.json").exists() and (out / "curves.csv").exists()
     status = json.loads((out / "run_status.json").read_text())
     assert "control" in status["stages_failed"] and "stability" in status["stages_done"]
+
+
+def test_serialiser_writes_strict_json_and_flat_rows():
+    # reference: RFC 8259 (JSON) has no NaN or Infinity, so non-finite numbers become null; the
+    # text is parsed back by Python's standard json module
+    import enum
+    from dataclasses import dataclass
+
+    from fields.io.serialize import csv_table, flattened, internal, optional, to_json
+
+    class Kind(enum.Enum):
+        HALL = "hall"
+
+    @dataclass(frozen=True)
+    class Inner:
+        gap_m: float
+        flags: tuple
+
+    @dataclass(frozen=True)
+    class Outer:
+        kind: Kind
+        values_N: np.ndarray
+        inner: Inner
+        spread: Inner = flattened()
+        missing: float | None = optional()
+        cache: object = internal()
+
+    obj = Outer(Kind.HALL, np.array([1.5, np.inf, np.nan]), Inner(0.01, (True, 2)), Inner(0.02, ()), cache=object())
+    assert json.loads(to_json(obj)) == {"kind": "hall", "values_N": [1.5, None, None],
+                                        "inner": {"gap_m": 0.01, "flags": [True, 2]}, "gap_m": 0.02, "flags": []}
+    cols, rows = csv_table([Inner(0.01, (1, 2)), Inner(0.03, (4,))])
+    assert cols == ["gap_m", "flags[0]", "flags[1]"]
+    assert rows == [[0.01, 1, 2], [0.03, 4, None]]

@@ -12,7 +12,6 @@ import difflib
 import math
 import tomllib
 from pathlib import Path
-from typing import Any
 
 import numpy as np
 
@@ -31,156 +30,11 @@ from fields.model.design import (
     Study,
     rotation_matrix,
 )
+from fields.input.csvtable import TomlTable as _Table, show_value as _show
 from fields.input.units import UnitParseError, parse
 from fields.model.clearance import overlapping_pairs
 from fields.model.gap import gap_axis, nearest_reference
 from fields.model.solids import Solid, coil_solid, core_solid, magnet_solid
-
-# --------------------------------------------------------------------------------------------
-# a small reader that knows where it is in the file
-
-
-class _Table:
-    """A TOML table with its key path; every accessor raises GeometryError with file and path."""
-
-    def __init__(self, data: Any, path: str, file: str) -> None:
-        self.file = file
-        self.path = path
-        if not isinstance(data, dict):
-            raise GeometryError(self._where(), "this entry", "a table (key = value lines)", _show(data))
-        self.data = data
-        self.used: set[str] = set()
-
-    def _where(self, key: str | None = None) -> str:
-        p = self.path if key is None else (f"{self.path}.{key}" if self.path else key)
-        return f"{self.file}: {p}" if p else self.file
-
-    def has(self, key: str) -> bool:
-        return key in self.data
-
-    def raw(self, key: str, default: Any = ..., ) -> Any:
-        self.used.add(key)
-        if key not in self.data:
-            if default is ...:
-                raise GeometryError(self._where(key), "this key", "present", "nothing")
-            return default
-        return self.data[key]
-
-    def fail(self, key: str, rule: str, got: Any) -> GeometryError:
-        return GeometryError(self._where(key), "the value", rule, _show(got))
-
-    def quantity(self, key: str, kind: str, default: Any = ..., *, positive: bool = False,
-                 nonnegative: bool = False) -> float:
-        v = self.raw(key, default)
-        if v is default and default is not ...:
-            return v
-        try:
-            x = parse(v, kind)
-        except UnitParseError as e:
-            raise GeometryError(self._where(key), "the value", e.rule, _show(v)) from None
-        if positive and not x > 0:
-            raise GeometryError(self._where(key), "the value", "positive", _show(v))
-        if nonnegative and x < 0:
-            raise GeometryError(self._where(key), "the value", "zero or positive", _show(v))
-        return x
-
-    def number(self, key: str, default: Any = ..., *, positive: bool = False, minimum: float | None = None,
-               maximum: float | None = None, integer: bool = False) -> float:
-        v = self.raw(key, default)
-        if v is default and default is not ...:
-            return v
-        if isinstance(v, bool) or not isinstance(v, (int, float)) or (integer and not isinstance(v, int)):
-            kind = "a whole number" if integer else "a plain number (no unit)"
-            raise GeometryError(self._where(key), "the value", kind, _show(v))
-        if not math.isfinite(v):
-            raise GeometryError(self._where(key), "the value", "a finite number", _show(v))
-        if positive and not v > 0:
-            raise GeometryError(self._where(key), "the value", "positive", _show(v))
-        if minimum is not None and v < minimum:
-            raise GeometryError(self._where(key), "the value", f"at least {minimum:g}", _show(v))
-        if maximum is not None and v > maximum:
-            raise GeometryError(self._where(key), "the value", f"at most {maximum:g}", _show(v))
-        return v
-
-    def string(self, key: str, default: Any = ..., choices: tuple[str, ...] | None = None) -> str:
-        v = self.raw(key, default)
-        if v is default and default is not ...:
-            return v
-        if not isinstance(v, str):
-            raise GeometryError(self._where(key), "the value", "a string in quotes", _show(v))
-        if choices is not None and v not in choices:
-            near = difflib.get_close_matches(v, choices, n=1)
-            hint = f" (did you mean \"{near[0]}\"?)" if near else ""
-            raise GeometryError(self._where(key), "the value", "one of " + ", ".join(f'"{c}"' for c in choices) + hint, _show(v))
-        return v
-
-    def boolean(self, key: str, default: Any = ...) -> bool:
-        v = self.raw(key, default)
-        if not isinstance(v, bool):
-            raise GeometryError(self._where(key), "the value", "true or false", _show(v))
-        return v
-
-    def vector(self, key: str, kind: str, default: Any = ...) -> tuple[float, float, float]:
-        v = self.raw(key, default)
-        if v is default and default is not ...:
-            return v
-        if not isinstance(v, list) or len(v) != 3:
-            raise GeometryError(self._where(key), "the value", f"a list of three quantities, e.g. [\"0 mm\", \"0 mm\", \"{'5 mm' if kind == 'length' else '1 deg'}\"]", _show(v))
-        out = []
-        for i, item in enumerate(v):
-            try:
-                out.append(parse(item, kind))
-            except UnitParseError as e:
-                raise GeometryError(self._where(f"{key}[{i}]"), "the value", e.rule, _show(item)) from None
-        return tuple(out)
-
-    def direction(self, key: str, default: Any = ...) -> tuple[float, float, float]:
-        v = self.raw(key, default)
-        if v is default and default is not ...:
-            return v
-        if (not isinstance(v, list) or len(v) != 3
-                or not all(isinstance(c, (int, float)) and not isinstance(c, bool) and math.isfinite(c) for c in v)):
-            raise GeometryError(self._where(key), "the value", "a direction of three plain numbers, e.g. [0, 0, 1]", _show(v))
-        a = np.asarray(v, dtype=float)
-        n = float(np.linalg.norm(a))
-        if n == 0.0:
-            raise GeometryError(self._where(key), "the value", "a non-zero direction", _show(v))
-        return tuple(float(c) for c in a / n)
-
-    def sub(self, key: str) -> _Table:
-        self.used.add(key)
-        return _Table(self.data[key], f"{self.path}.{key}" if self.path else key, self.file)
-
-    def array(self, key: str, required: bool = False) -> list[_Table]:
-        self.used.add(key)
-        if key not in self.data:
-            if required:
-                raise GeometryError(self._where(key), "this section", "present", "nothing")
-            return []
-        v = self.data[key]
-        if not isinstance(v, list):
-            raise GeometryError(self._where(key), "this section", f"a list of tables, written [[{key}]]", _show(v))
-        base = f"{self.path}.{key}" if self.path else key
-        return [_Table(item, f"{base}[{i}]", self.file) for i, item in enumerate(v)]
-
-    def done(self, allowed: tuple[str, ...] | None = None) -> None:
-        """Raise on keys nobody read (unknown keys), suggesting the nearest valid key."""
-        valid = tuple(allowed) if allowed is not None else tuple(self.used)
-        for key in self.data:
-            if key not in self.used and key not in valid:
-                near = difflib.get_close_matches(key, sorted(set(valid) | self.used), n=1, cutoff=0.5)
-                hint = f"; did you mean \"{near[0]}\"" if near else ""
-                raise GeometryError(self._where(key), "this key", "one the format knows" + hint, "an unknown key")
-
-
-def _show(v: Any) -> str:
-    if isinstance(v, str):
-        return f'"{v}"'
-    if isinstance(v, dict):
-        return "a table"
-    s = repr(v)
-    return s if len(s) < 60 else s[:57] + "..."
-
 
 # --------------------------------------------------------------------------------------------
 # sections

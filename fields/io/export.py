@@ -1,4 +1,4 @@
-"""Writing results: atomic files, CSV with units in column names, JSON.
+"""Writing results: atomic files, CSV with units in column names, JSON (through :mod:`fields.io.serialize`).
 
 Every writer goes through :func:`write_atomic`: the content lands in a temporary file in the
 same folder and is renamed into place, so an interrupted run leaves either the old file or the
@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import csv
 import io
-import json
 import math
 import os
 import tempfile
@@ -19,6 +18,7 @@ from typing import Any, Iterable, Sequence
 import numpy as np
 
 from fields import __version__
+from fields.io.serialize import to_json
 
 
 def write_atomic(path: str | Path, data: bytes | str) -> Path:
@@ -78,44 +78,9 @@ def write_csv(path: str | Path, columns: Sequence[str], rows: Iterable[Sequence[
     return write_atomic(path, csv_text(columns, rows, comments))
 
 
-def read_csv(path: str | Path) -> tuple[list[str], np.ndarray]:
-    """Read a CSV written by :func:`write_csv` (numeric columns) back: (columns, array (rows, cols))."""
-    lines = [ln for ln in Path(path).read_text(encoding="utf-8").splitlines() if ln and not ln.startswith("#")]
-    cols = next(csv.reader([lines[0]]))
-    rows = []
-    for r in csv.reader(lines[1:]):
-        rows.append([_parse_cell(c) for c in r])
-    return cols, np.array(rows, dtype=float) if rows else np.zeros((0, len(cols)))
-
-
-def _parse_cell(c: str) -> float:
-    if c == "":
-        return math.nan
-    if c in ("true", "false"):
-        return 1.0 if c == "true" else 0.0
-    return float(c)
-
-
-def to_jsonable(obj: Any) -> Any:
-    """Convert numpy arrays/scalars, tuples and dataclass dicts to plain JSON types (NaN -> null)."""
-    if isinstance(obj, dict):
-        return {str(k): to_jsonable(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [to_jsonable(v) for v in obj]
-    if isinstance(obj, np.ndarray):
-        return to_jsonable(obj.tolist())
-    if isinstance(obj, (np.floating, float)):
-        f = float(obj)
-        return f if math.isfinite(f) else None
-    if isinstance(obj, (np.integer,)):
-        return int(obj)
-    if isinstance(obj, (np.bool_,)):
-        return bool(obj)
-    return obj
-
-
 def write_json(path: str | Path, obj: Any) -> Path:
-    return write_atomic(path, json.dumps(to_jsonable(obj), indent=2, allow_nan=False) + "\n")
+    """Write ``obj`` (dataclasses, arrays, dicts, ...) as strict JSON through :func:`fields.io.serialize.to_json`."""
+    return write_atomic(path, to_json(obj))
 
 
 def write_png(path: str | Path, fig) -> Path:

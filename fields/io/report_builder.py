@@ -6,38 +6,27 @@ from pathlib import Path
 
 from fields import __version__
 from fields.io.report import esc, img, num, page, table
+from fields.io.wording import SAFETY_POINTS
 
-SAFETY_HTML = """<div class="safety"><h3>Safety</h3><ul>
-<li><b>Strong magnets</b> pinch skin and break fingers when they snap together, shatter into sharp chips, and
-fly towards iron tools. Keep them away from pacemakers and other implants, cards and magnetic media.</li>
-<li><b>Coils get hot.</b> The temperatures below are lumped estimates; the hot spot inside a winding is hotter.
-Check the real coil and respect the wire's insulation class.</li>
-<li><b>Supply currents.</b> Fuse every supply; an inductive coil switched off abruptly produces a high voltage,
-so use a flyback diode or a driver that handles it.</li>
-<li>These are design estimates, not a safety approval: follow local electrical codes and licensed practice.</li>
-</ul></div>"""
+#: the JSON files the report reads, by the names the sections use
+_FILES = ("stability.json", "curves.json", "coil.json", "sensors.json", "control.json")
+
+
+def safety_html() -> str:
+    """The safety points (:data:`fields.io.wording.SAFETY_POINTS`) as a report box."""
+    items = "".join(f"<li><b>{esc(lead)}</b> {esc(text)}</li>" if lead else f"<li>{esc(text)}</li>"
+                    for lead, text in SAFETY_POINTS)
+    return f'<div class="safety"><h3>Safety</h3><ul>{items}</ul></div>'
 
 
 def _mode_class(m: dict) -> str:
     return "stable" if m.get("stable") else "unstable"
 
 
-def build_report(design, out: Path, done: dict, failed: dict, load, geometry_text: str | None) -> str:
-    out = Path(out)
+def _verdict(J: dict, failed: dict) -> list[str]:
+    """The verdict first, then what failed, the warnings and the safety points."""
+    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
     S: list[str] = []
-    S.append(f"<h1>{esc(design.name)}: design report</h1>")
-    S.append(f'<p class="meta">hoverfield {__version__} &middot; input <code>{esc(design.source)}</code>'
-             + (" &middot; <b>invented example</b>: the numbers are made up for demonstration" if design.invented else "")
-             + "</p>")
-    if design.description:
-        S.append(f"<p>{esc(design.description)}</p>")
-    stab = load("stability.json")
-    curves = load("curves.json")
-    coil = load("coil.json")
-    sens = load("sensors.json")
-    ctrl = load("control.json")
-
-    # ---- verdict first
     v = ['<div class="verdict"><h2 style="margin-top:0;border:0">Verdict</h2>']
     if stab:
         v.append(f"<p>Operating point: {esc(stab['operating_point'])}.</p><ul>")
@@ -65,9 +54,14 @@ def build_report(design, out: Path, done: dict, failed: dict, load, geometry_tex
     if warnings:
         S.append('<div class="warn"><h3>Warnings</h3><ul>' + "".join(f"<li>{esc(w)}</li>" for w in dict.fromkeys(warnings))
                  + "</ul></div>")
-    S.append(SAFETY_HTML)
+    S.append(safety_html())
+    return S
 
-    # ---- key numbers
+
+def _key_numbers(J: dict, out: Path) -> list[str]:
+    """The key numbers table and the drawing."""
+    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
+    S: list[str] = []
     rows = []
     if curves:
         rows.append(["floater mass", num(curves["mass_kg"], "curves.json", "mass_kg", "g", scale=1e3)])
@@ -94,8 +88,13 @@ def build_report(design, out: Path, done: dict, failed: dict, load, geometry_tex
                              num(c["drive_headroom"]["voltage_required_V"], "coil.json", f"coils[{i}].drive_headroom.voltage_required_V", "V")])
     S.append("<h2>Key numbers</h2>" + table(["quantity", "value"], rows))
     S.append("<h2>The design</h2>" + img(out / "design.png", "design drawn to scale"))
+    return S
 
-    # ---- curves
+
+def _curves(J: dict, out: Path) -> list[str]:
+    """Axial force versus gap."""
+    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
+    S: list[str] = []
     if curves:
         S.append("<h2>Axial force versus gap</h2>" + img(out / "curves.png", "force versus gap"))
         eq_rows = [[num(e["current_A"], "curves.json", f"equilibria[{i}].current_A", "A"),
@@ -107,8 +106,13 @@ def build_report(design, out: Path, done: dict, failed: dict, load, geometry_tex
         S.append('<p>Data: <code>curves.csv</code>, <code>kz_table.csv</code>, <code>curves.json</code>. The payload '
                  'envelope (heaviest and lightest floater that can hover within the current limit) is in '
                  '<code>curves.csv</code> (max_payload_kg, min_payload_kg).</p>')
+    return S
 
-    # ---- stability
+
+def _stability(J: dict, out: Path) -> list[str]:
+    """Stiffness matrix, Earnshaw check, maps."""
+    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
+    S: list[str] = []
     if stab:
         S.append("<h2>Stability at the operating point</h2>")
         axes = ["x", "y", "z", "rx", "ry", "rz"]
@@ -127,8 +131,13 @@ def build_report(design, out: Path, done: dict, failed: dict, load, geometry_tex
         if "allocation" in stab:
             S.append(f"<p>Coils to force/torque: {esc(stab['allocation']['text'])} (<code>allocation.csv</code>).</p>")
         S.append(img(out / "maps.png", "sideways and tilt maps") + img(out / "stiffness_vs_gap.png", "stiffness versus gap"))
+    return S
 
-    # ---- coil
+
+def _coil(J: dict, out: Path) -> list[str]:
+    """Coil datasheet."""
+    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
+    S: list[str] = []
     if coil:
         S.append("<h2>Coil datasheet</h2>")
         spec = [("turns", "turns", "", 1), ("bare wire diameter", "wire_diameter_m", "mm", 1e3),
@@ -145,8 +154,13 @@ def build_report(design, out: Path, done: dict, failed: dict, load, geometry_tex
         crow.append(["dL/dgap"] + [esc(c["dL_dgap_note"]) for c in coil["coils"]])
         S.append(table(hdr, crow) + "<p>Power and steady temperature at the hover current of every gap: "
                  "<code>coil_heat.csv</code>. Copper data: IEC 60028. Thermal classes: IEC 60085.</p>")
+    return S
 
-    # ---- sensors
+
+def _sensors(J: dict, out: Path) -> list[str]:
+    """Sensor curves and placement."""
+    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
+    S: list[str] = []
     if sens and sens.get("sensors"):
         S.append("<h2>Sensors</h2>" + img(out / "sensors.png", "sensor curves"))
         srows = []
@@ -169,8 +183,13 @@ def build_report(design, out: Path, done: dict, failed: dict, load, geometry_tex
                      f"{num(p[1], 'sensors.json', 'placement.best_position_m[1]', '', scale=1e3)}, "
                      f"{num(p[2], 'sensors.json', 'placement.best_position_m[2]', 'mm', scale=1e3)}) by the stated rule "
                      "(widest linear range, then least cross-talk); all candidates in <code>placement.csv</code>.</p>")
+    return S
 
-    # ---- control
+
+def _control(J: dict, out: Path) -> list[str]:
+    """Plant, controller starting point, margins, simulations, on/off study."""
+    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
+    S: list[str] = []
     if ctrl:
         u = ctrl["sensor_unit"]
         pd = ctrl["controller_pd"]
@@ -230,8 +249,13 @@ def build_report(design, out: Path, done: dict, failed: dict, load, geometry_tex
                  + f"<p>The linear PD controller over the same run: amplitude "
                  f"{num(h['linear_amplitude_m'], 'control.json', 'hysteresis.linear_amplitude_m', 'mm', scale=1e3)}, coil power "
                  f"{num(h['linear_mean_joule_power_W'], 'control.json', 'hysteresis.linear_mean_joule_power_W', 'W')}.</p>")
+    return S
 
-    # ---- accuracy
+
+def _accuracy(J: dict, out: Path) -> list[str]:
+    """Numerical accuracy estimates."""
+    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
+    S: list[str] = []
     acc = []
     if curves:
         acc.append(["force quadrature (two rule orders), largest over the gaps",
@@ -247,12 +271,50 @@ def build_report(design, out: Path, done: dict, failed: dict, load, geometry_tex
                  + "<p>Iron cores use an iron-free approximation (a uniformly magnetized equivalent body with the "
                  "published demagnetizing factor of its shape): treat results with cores as estimates, especially at gaps "
                  "small compared with the core diameter or near saturation.</p>")
+    return S
 
-    # ---- files and inputs
+
+def _files_and_inputs(out: Path, input_lines, geometry_text: str | None) -> list[str]:
+    """The files written, the inputs as read, the geometry file."""
+    S: list[str] = []
     files = sorted(p.relative_to(out).as_posix() for p in out.rglob("*") if p.is_file() and p.name != "report.html")
     S.append("<h2>Files</h2><ul>" + "".join(f"<li><code>{esc(f)}</code></li>" for f in files) + "</ul>")
-    if "check" in done:
-        S.append("<h2>Inputs (as read, with units)</h2><pre>" + esc("\n".join(done["check"]["lines"])) + "</pre>")
+    if input_lines is not None:
+        S.append("<h2>Inputs (as read, with units)</h2><pre>" + esc("\n".join(input_lines)) + "</pre>")
     if geometry_text:
         S.append("<h3>Geometry file</h3><pre>" + esc(geometry_text) + "</pre>")
+
+    return S
+
+
+def build_report(design, out: Path, failed: dict, load, geometry_text: str | None,
+                 input_lines=None) -> str:
+    """The report page: verdict first, then every stage's section, from the JSON files a run wrote.
+
+    Parameters
+    ----------
+    design : Design
+    out : Path
+        The run's output folder (figures are embedded from there).
+    failed : dict
+        Stage name -> why it failed.
+    load : callable
+        File name -> parsed JSON (None when the file is absent).
+    geometry_text : str, optional
+        The geometry file as written, shown at the end.
+    input_lines : sequence of str, optional
+        The design summary lines (inputs as read, with units).
+    """
+    out = Path(out)
+    J = {k: load(k) for k in _FILES}
+    S: list[str] = [f"<h1>{esc(design.name)}: design report</h1>",
+                    f'<p class="meta">hoverfield {__version__} &middot; input <code>{esc(design.source)}</code>'
+                    + (" &middot; <b>invented example</b>: the numbers are made up for demonstration" if design.invented else "")
+                    + "</p>"]
+    if design.description:
+        S.append(f"<p>{esc(design.description)}</p>")
+    S += _verdict(J, failed)
+    for section in (_key_numbers, _curves, _stability, _coil, _sensors, _control, _accuracy):
+        S += section(J, out)
+    S += _files_and_inputs(out, input_lines, geometry_text)
     return page(f"{design.name}: hoverfield report", S)

@@ -1,0 +1,114 @@
+"""The operating point every analysis linearises about: one rule for the report, every command
+and the design sweep.
+
+Rule: an axially stable equilibrium at zero coil current (a passive, zero-power height, as in
+repulsive bases) is preferred, the one nearest the operating gap; otherwise the floater is held
+at the operating gap by its hover current (suspension levitators); when neither exists the
+design has no operating point (:class:`fields.errors.SolverError`). The six-axis equilibrium
+is then found from there (the study's free axes).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from fields import analysis
+from fields.errors import SolverError
+from fields.model.design import Design
+
+
+@dataclass(frozen=True)
+class OperatingPoint:
+    """The chosen operating point.
+
+    Attributes
+    ----------
+    equilibrium : fields.analysis.Equilibrium
+        Six-axis equilibrium (pose, currents, residuals).
+    currents_A : ndarray, shape (k,)
+        Coil currents there.
+    passive : bool
+        True: the passive zero-current equilibrium; false: held at the operating gap by the
+        hover current.
+    axial_gap_m : float
+        The gap the six-axis search starts from (the passive equilibrium's gap, or the operating gap).
+    drive_current_A : float
+        The drive current along the drive pattern (0 when passive, else the hover current).
+    operating_gap_m : float
+        The study's operating gap.
+    hover_current_at_operating_gap_A : float
+        The current that holds the floater at the operating gap (may exceed the limit; NaN when
+        the coils exert no axial force there).
+    max_current_A : float
+        The drive-current limit of the pattern (:attr:`fields.analysis.AxialCurves.max_current_A`).
+    at_operating_gap : fields.analysis.AxialCurves
+        Curves at the operating gap alone (zero current): force per ampere, payload envelope.
+    """
+
+    equilibrium: analysis.Equilibrium
+    currents_A: np.ndarray
+    passive: bool
+    axial_gap_m: float
+    drive_current_A: float
+    operating_gap_m: float
+    hover_current_at_operating_gap_A: float
+    max_current_A: float
+    at_operating_gap: analysis.AxialCurves
+
+    @property
+    def hover_within_limit(self) -> bool:
+        """The hover current at the operating gap is finite and within the limit."""
+        ih = self.hover_current_at_operating_gap_A
+        return bool(np.isfinite(ih) and abs(ih) <= self.max_current_A)
+
+
+def choose_start(design: Design, curves: analysis.AxialCurves, at_gap: analysis.AxialCurves):
+    """(passive, start gap, drive current) by the rule of this module; SolverError when the
+    floater can neither rest passively nor hover at the operating gap within the limit."""
+    gop = design.study.operating_gap_m
+    ih = float(at_gap.hover_current_A[0])
+    limit = curves.max_current_A
+    stable = [e for e in analysis.axial_equilibria(design, 0.0, curves) if e.stable]
+    if stable:
+        pick = min(stable, key=lambda e: abs(e.gap_m - gop))
+        return True, float(pick.gap_m), 0.0
+    if np.isfinite(ih) and abs(ih) <= limit:
+        return False, float(gop), ih
+    raise SolverError(
+        f"operating point: the floater cannot hover at the operating gap {gop * 1e3:.4g} mm within "
+        f"+-{limit:g} A (needs {ih:.4g} A) and has no stable height at zero current in "
+        f"{design.study.gap_min_m * 1e3:.4g}..{design.study.gap_max_m * 1e3:.4g} mm")
+
+
+def operating_point(design: Design, curves: analysis.AxialCurves | None = None) -> OperatingPoint:
+    """The operating point of ``design`` (see the module's rule).
+
+    Parameters
+    ----------
+    design : Design
+    curves : AxialCurves, optional
+        Axial curves over the study's gap range (any currents: the zero-current equilibria use
+        their F0 and k_i only); computed when not given.
+
+    Returns
+    -------
+    OperatingPoint
+
+    Raises
+    ------
+    SolverError
+        No passive stable height and no hover within the current limit, or the six-axis search
+        does not converge.
+    """
+    c = curves if curves is not None else analysis.axial_curves(design)
+    gop = design.study.operating_gap_m
+    one = analysis.axial_curves(design, gaps_m=[gop], currents_A=[0.0])
+    passive, start, drive = choose_start(design, c, one)
+    currents = np.zeros(len(design.coils)) if passive else drive * c.pattern
+    eq = analysis.find_equilibrium(design, currents, start_gap_m=start)
+    return OperatingPoint(equilibrium=eq, currents_A=currents, passive=passive, axial_gap_m=start,
+                          drive_current_A=float(drive), operating_gap_m=float(gop),
+                          hover_current_at_operating_gap_A=float(one.hover_current_A[0]),
+                          max_current_A=float(c.max_current_A), at_operating_gap=one)

@@ -1,0 +1,61 @@
+"""``hoverfield coil``: the coil datasheet, heat at the operating point, drive headroom."""
+
+from __future__ import annotations
+
+from fields.cli.common import add_file_command, load_design, out_dir, print_files, print_warnings
+
+HELP = "coil datasheet: winding, resistance, inductance, heat at the hover current, drive headroom"
+
+#: (label, CoilData attribute, unit shown, scale from SI)
+ROWS = [
+    ("turns", "turns", "", 1.0),
+    ("bare wire diameter", "wire_diameter_m", "mm", 1e3),
+    ("copper fill factor", "copper_fill_factor", "", 1.0),
+    ("mean turn length", "mean_turn_length_m", "mm", 1e3),
+    ("wire length", "wire_length_m", "m", 1.0),
+    ("copper mass", "copper_mass_kg", "g", 1e3),
+    ("resistance at 20 C", "resistance_20C_ohm", "ohm", 1.0),
+    ("self-inductance (core included)", "inductance_H", "mH", 1e3),
+    ("electrical time constant L/R", "time_constant_20C_s", "ms", 1e3),
+    ("current density at nominal", "current_density_nominal_A_per_mm2", "A/mm^2", 1.0),
+    ("current density at max", "current_density_max_A_per_mm2", "A/mm^2", 1.0),
+    ("cooling surface", "surface_area_m2", "cm^2", 1e4),
+]
+
+
+def _print_sheet(sheet) -> None:
+    d = sheet.datasheet
+    print(f"  {d.name}:")
+    for label, key, unit, scale in ROWS:
+        v = getattr(d, key, None)
+        if v is not None:
+            print(f"    {label:<34} {v * scale:>10.4g} {unit}")
+    op = sheet.at_operating_point
+    print(f"    {'at the operating point, gap ' + format(op.gap_m * 1e3, '.3g') + ' mm':<34} {op.current_A:>10.4g} A, "
+          f"{op.power_W:.3g} W, winding {op.temperature_C:.3g} C (rise {op.temperature_rise_K:.3g} K)")
+    hr = sheet.drive_headroom
+    if hr is not None:
+        print(f"    {'supply needed (R I + L dI/dt)':<34} {hr.voltage_required_V:>10.4g} V "
+              f"of {hr.supply_voltage_V:g} V (headroom {hr.headroom_V:.3g} V)")
+        print(f"    {'linear driver dissipation at hover':<34} {hr.linear_driver_dissipation_W:>10.4g} W")
+
+
+def run(args) -> int:
+    from fields.io.wording import safety_text
+    from fields.studies.stages.coil import run_coil
+    from fields.studies.stages.curves import run_curves
+
+    design = load_design(args)
+    out = out_dir(args, design)
+    s = run_coil(design, out, curves=run_curves(design, out))
+    print(f"{design.name}: coil datasheet (control axis: {s.control_axis})")
+    for sheet in s.coils:
+        _print_sheet(sheet)
+    print_warnings(s.warnings)
+    print(safety_text())
+    print_files(s.files)
+    return 0
+
+
+def register(sub) -> None:
+    add_file_command(sub, "coil", run, HELP)

@@ -1,0 +1,112 @@
+"""Stage "curves": axial force-gap-current curves, equilibria, payload envelope
+(curves.csv, kz_table.csv, curves.json, curves.png)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from fields import analysis
+from fields.io.export import header_lines, write_csv, write_json, write_png
+from fields.io.serialize import internal
+from fields.model.design import Design
+from fields.studies.stages.common import close_figure, file_list
+
+
+@dataclass(frozen=True)
+class AxialEquilibriumRow:
+    """An axial equilibrium (force = weight) at one current, as curves.json lists it."""
+
+    gap_m: float
+    current_A: float
+    kz_N_per_m: float
+    stable: bool
+    label: str
+
+
+@dataclass(frozen=True)
+class AtOperatingGap:
+    """The curves' numbers at the grid gap nearest the operating gap."""
+
+    gap_m: float
+    hover_current_A: float
+    ki_N_per_A: float
+    kz_at_hover_N_per_m: float
+    F0_N: float
+
+
+@dataclass(frozen=True)
+class CurvesResult:
+    """What :func:`run_curves` computed and wrote (curves.json is this, serialised)."""
+
+    weight_N: float
+    mass_kg: float
+    currents_A: np.ndarray
+    max_current_A: float
+    linear_in_current: bool
+    equilibria: tuple[AxialEquilibriumRow, ...]
+    max_force_error_N: float
+    contact_gaps: int
+    warnings: tuple[str, ...]
+    files: tuple[str, ...]
+    at_operating_gap: AtOperatingGap
+    curves: analysis.AxialCurves = internal()
+    axial_equilibria: tuple[analysis.Equilibrium1D, ...] = internal(())
+
+
+def all_equilibria(design: Design, c: analysis.AxialCurves) -> list[analysis.Equilibrium1D]:
+    """The axial equilibria at every current of the family."""
+    eqs = []
+    for current in c.currents_A:
+        eqs += analysis.axial_equilibria(design, float(current), c)
+    return eqs
+
+
+def _write_tables(design: Design, c: analysis.AxialCurves, out: Path) -> None:
+    cols = ["gap_m", "height_m"] + [f"Fup_N_at_{I:g}A" for I in c.currents_A] + [
+        "F0_N", "ki_N_per_A", "kz0_N_per_m", "kz_at_hover_N_per_m", "hover_current_A", "hover_within_limit",
+        "max_total_mass_kg", "min_total_mass_kg", "max_payload_kg", "min_payload_kg", "contact", "error_F_N"]
+    kzh = c.kz_at_hover()
+    rows = [[c.gaps_m[i], c.heights_m[i], *c.Fup_N[i], c.F0_N[i], c.ki_N_per_A[i], c.kz0_N_per_m[i], kzh[i],
+             c.hover_current_A[i], bool(c.hover_within_limit[i]), c.max_total_mass_kg[i], c.min_total_mass_kg[i],
+             c.max_payload_kg[i], c.min_payload_kg[i], bool(c.contact[i]), c.error_F_N[i]] for i in range(len(c.gaps_m))]
+    write_csv(out / "curves.csv", cols, rows, header_lines(
+        design.name, "axial force versus gap; F_up is the magnetic force along up (N); "
+                     "k = -dF/dh (positive restores); drive pattern " + str(c.pattern.tolist())))
+    kz_cols = [f"kz_N_per_m_at_{I:g}A" for I in c.currents_A]
+    write_csv(out / "kz_table.csv", ["gap_m"] + kz_cols, [[g, *k] for g, k in zip(c.gaps_m, c.kz_N_per_m)],
+              header_lines(design.name, "axial stiffness k_z = -dF_up/dh versus gap and current"))
+
+
+def _at_operating_gap(design: Design, c: analysis.AxialCurves) -> AtOperatingGap:
+    i = int(np.argmin(np.abs(c.gaps_m - design.study.operating_gap_m)))
+    return AtOperatingGap(gap_m=float(c.gaps_m[i]), hover_current_A=float(c.hover_current_A[i]),
+                          ki_N_per_A=float(c.ki_N_per_A[i]), kz_at_hover_N_per_m=float(c.kz_at_hover()[i]),
+                          F0_N=float(c.F0_N[i]))
+
+
+def run_curves(design: Design, out: Path) -> CurvesResult:
+    """Axial force-gap-current curves: curves.csv, kz_table.csv, curves.json, curves.png."""
+    from fields.io import plots
+    from fields.io.wording import equilibrium_label
+
+    out = Path(out)
+    c = analysis.axial_curves(design)
+    eqs = all_equilibria(design, c)
+    _write_tables(design, c, out)
+    result = CurvesResult(
+        weight_N=c.weight_N, mass_kg=design.floater.mass_kg, currents_A=c.currents_A, max_current_A=c.max_current_A,
+        linear_in_current=c.linear_in_current,
+        equilibria=tuple(AxialEquilibriumRow(e.gap_m, e.current_A, e.kz_N_per_m, e.stable, equilibrium_label(e.stable))
+                         for e in eqs),
+        max_force_error_N=float(np.nanmax(c.error_F_N)) if len(c.error_F_N) else 0.0,
+        contact_gaps=int(c.contact.sum()), warnings=tuple(c.warnings),
+        files=file_list(out, "curves.csv", "kz_table.csv", "curves.json", "curves.png"),
+        at_operating_gap=_at_operating_gap(design, c), curves=c, axial_equilibria=tuple(eqs))
+    write_json(out / "curves.json", result)
+    fig = plots.curve_family(c, eqs, title=f"{design.name}: upward force versus gap")
+    write_png(out / "curves.png", fig)
+    close_figure(fig)
+    return result

@@ -1,0 +1,106 @@
+"""Stage "exports": tables and models for other tools (exports/: force/stiffness tables as CSV
+and a C header, the inverse force table, a SPICE subcircuit of the plant, STL and GLB meshes)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from fields.io.export import header_lines, write_atomic, write_csv, write_json
+from fields.model.design import Design
+
+
+@dataclass(frozen=True)
+class ExportsResult:
+    """What :func:`run_exports` wrote (exports/exports.json is this, serialised)."""
+
+    files: tuple[str, ...]
+    mesh_volume_m3: float
+    mesh_watertight: bool
+
+
+def _tables(design: Design, c, exp: Path) -> list[str]:
+    """Force, stiffness, force-per-ampere and inverse tables on a (gap, current) grid: CSV + C header."""
+    from fields.io import formats
+
+    files = []
+    imax = c.max_current_A
+    I = np.linspace(-imax, imax, 13)
+    ok = ~c.contact
+    g = c.gaps_m[ok]
+    F0, f = c.F0_N[ok], c.ki_N_per_A[ok]
+    kz0, dki = c.kz0_N_per_m[ok], c.dki_dh_N_per_A_m[ok]
+    Fz = F0[:, None] + f[:, None] * I[None, :]
+    kz = kz0[:, None] - dki[:, None] * I[None, :]
+    ki = np.repeat(f[:, None], len(I), axis=1)
+    W = design.weight_N
+    Fgrid = np.linspace(0.0, 3.0 * W, 13)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        Iinv = (Fgrid[None, :] - F0[:, None]) / f[:, None]
+    hdr = header_lines(design.name, "affine in current (iron-free or unsaturated core): F_up(g, I) = F0(g) + I ki(g); "
+                                    "k = -dF_up/dh; drive pattern " + str(c.pattern.tolist()))
+    for name, vals, what, colfmt, colvals in (
+            ("table_Fz.csv", Fz, "upward magnetic force Fz_N at gap (rows) and current (columns)", "Fz_N_at_{:.6g}A", I),
+            ("table_kz.csv", kz, "axial stiffness kz_N_per_m", "kz_N_per_m_at_{:.6g}A", I),
+            ("table_ki.csv", ki, "force per ampere ki_N_per_A", "ki_N_per_A_at_{:.6g}A", I),
+            ("table_I_of_F.csv", Iinv, "current I_A that gives force F (columns) at each gap; beyond +-max current the "
+             "coil cannot do it", "I_A_at_{:.6g}N", Fgrid)):
+        cols = ["gap_m"] + [colfmt.format(v) for v in colvals]
+        write_csv(exp / name, cols, [[gi, *row] for gi, row in zip(g, vals)], hdr + [f"# {what}"])
+        files.append(str(exp / name))
+    arrays = {"gap_m": g, "current_A": I, "force_N": Fgrid, "Fz_N": Fz, "kz_N_per_m": kz, "ki_N_per_A": ki,
+              "I_of_F_A": Iinv}
+    units = {"gap_m": "m", "current_A": "A", "force_N": "N (columns of I_of_F_A)", "Fz_N": "N, [gap][current]",
+             "kz_N_per_m": "N/m, [gap][current]", "ki_N_per_A": "N/A, [gap][current]", "I_of_F_A": "A, [gap][force]"}
+    notes = ["Interpolation: bilinear in (gap, current) on these grids is accurate to the grid spacing squared;",
+             "force is exactly affine in current here, so interpolate along current linearly without loss.",
+             f"Weight of the floater: {W!r} N; max current {imax!r} A."]
+    write_atomic(exp / "tables.h", formats.c_header(design.name, arrays, units, notes))
+    files.append(str(exp / "tables.h"))
+    return files
+
+
+def _spice(design: Design, control, exp: Path) -> list[str]:
+    """The control axis's plant as a SPICE subcircuit."""
+    from fields.io import formats
+
+    t, prm = control.table, control.params
+    sp = formats.spice_subcircuit(design.name, "hf_plant", t.positions_m, t.F0_N, t.Fk_N_per_A,
+                                  prm.resistance_ohm, prm.inductance_H, prm.mass_kg,
+                                  prm.gravity_m_per_s2 or 0.0, prm.axis_name)
+    write_atomic(exp / "plant.sub", sp)
+    return [str(exp / "plant.sub")]
+
+
+def _meshes(design: Design, exp: Path):
+    """Every body as one STL and as a GLB scene of named nodes; returns (files, the joined mesh)."""
+    import trimesh
+
+    from fields.model import solids as bodies
+
+    meshes = bodies.body_meshes(design)
+    scene = trimesh.Scene()
+    for name, m in meshes.items():
+        scene.add_geometry(m, node_name=name, geom_name=name)
+    whole = trimesh.util.concatenate(list(meshes.values()))
+    write_atomic(exp / "geometry.stl", whole.export(file_type="stl"))
+    write_atomic(exp / "geometry.glb", scene.export(file_type="glb"))
+    return [str(exp / "geometry.stl"), str(exp / "geometry.glb")], whole
+
+
+def run_exports(design: Design, out: Path, curves, control=None) -> ExportsResult:
+    """Force/stiffness tables (CSV + C header), inverse table, SPICE subcircuit, meshes (STL, GLB).
+
+    ``curves`` is the result of :func:`fields.studies.stages.curves.run_curves`, ``control`` of
+    :func:`fields.studies.stages.control.run_control` (the SPICE plant needs it; left out without it)."""
+    exp = Path(out) / "exports"
+    files = _tables(design, curves.curves, exp)
+    if control is not None:
+        files += _spice(design, control, exp)
+    mesh_files, whole = _meshes(design, exp)
+    files += mesh_files
+    result = ExportsResult(files=tuple(files), mesh_volume_m3=float(whole.volume), mesh_watertight=bool(whole.is_watertight))
+    write_json(exp / "exports.json", result)
+    return result
