@@ -8,7 +8,7 @@ HELP = "linear plant, controller starting point, margins, simulations, capture r
 
 
 def run(args) -> int:
-    from fields.io.wording import proportional_only_text
+    from fields.io.wording import proportional_text
     from fields.studies.stages.control import run_control
 
     design = load_design(args)
@@ -27,7 +27,7 @@ def run(args) -> int:
     print(f"  margins: stable for gain x {lo:.3g} .. {hi:.3g}, phase margin {m.phase_margin_deg:.3g} deg, "
           f"Nyquist encirclements {m.encirclements_ccw} (= {m.open_loop_unstable_poles} unstable open-loop poles), "
           f"peak sensitivity {m.peak_sensitivity:.3g}")
-    print(f"  proportional only: {proportional_only_text(s.proportional)}")
+    print(f"  proportional only: {proportional_text(s.proportional, s.plant.mechanical_pole_rad_per_s)}")
     cb = s.capture.band_m
     print(f"  capture band at rest: {cb[0] * 1e3:.3g} .. {cb[1] * 1e3:.3g} mm from the equilibrium")
     print_files(s.files)

@@ -6,6 +6,7 @@ import matplotlib
 
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
+from fields.io.wording import equilibrium_label
 import numpy as np  # noqa: E402
 from matplotlib.patches import Polygon  # noqa: E402
 
@@ -91,7 +92,7 @@ def curve_family(curves, equilibria=(), title: str = ""):
                     label=f"reach within +-{curves.max_current_A:g} A")
     for e in equilibria:
         ax.plot(e.gap_m * 1e3, curves.weight_N, "o", ms=8, mfc="black" if e.stable else "white", mec="black",
-                label=f"{e.label} at {e.gap_m * 1e3:.3g} mm, {e.current_A:g} A")
+                label=f"{equilibrium_label(e.stable)} at {e.gap_m * 1e3:.3g} mm, {e.current_A:g} A")
     lo = np.nanmin(np.where(curves.contact[:, None], np.nan, curves.Fup_N))
     hi = np.nanmax(np.where(curves.contact[:, None], np.nan, curves.Fup_N))
     span = max(hi, curves.weight_N * 3) - min(lo, 0)

@@ -62,7 +62,7 @@ def _fields(obj) -> dict[str, Any]:
         if how == "internal" or (how == "optional" and value is None):
             continue
         if how == "flatten":
-            out.update(_fields(value))
+            out.update(value if isinstance(value, dict) else _fields(value))
         else:
             out[f.name] = value
     return out

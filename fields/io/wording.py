@@ -33,13 +33,14 @@ def safety_text() -> str:
 def mode_text(mode) -> str:
     """One line for a stability mode (:class:`fields.analysis.Mode`): name, stable or not,
     stiffness with its unit, natural frequency or growth time."""
+    name = mode_name(mode)
     if mode.neutral:
-        return f"{mode.name}: neutral (no restoring stiffness)"
+        return f"{name}: neutral (no restoring stiffness)"
     if mode.stable:
         f = f", {mode.frequency_Hz:.3g} Hz" if mode.frequency_Hz else ""
-        return f"{mode.name}: stable, {mode.stiffness:.3g} {mode.unit}{f}"
+        return f"{name}: stable, {mode.stiffness:.3g} {mode.unit}{f}"
     t = f", grows with time constant {mode.growth_time_s * 1e3:.3g} ms" if mode.growth_time_s else ""
-    return f"{mode.name}: unstable, needs feedback, {mode.stiffness:.3g} {mode.unit}{t}"
+    return f"{name}: unstable, needs feedback, {mode.stiffness:.3g} {mode.unit}{t}"
 
 
 def verdict_lines(verdict) -> list[str]:
@@ -108,12 +109,6 @@ def plant_note() -> str:
             "crosstalk_compensated: the reading minus c I, which the controller assumes")
 
 
-def proportional_only_text(study) -> str:
-    """Why pure proportional feedback does or does not hold the floater
-    (:class:`fields.control.margins.ProportionalStudy`)."""
-    return study.explanation
-
-
 # ---------------------------------------------------------------------------------------------
 # warnings
 
@@ -156,3 +151,218 @@ def group_coil_warnings(warnings: Sequence[str], coil_names: Sequence[str]) -> l
         else:
             out.append("coils " + ", ".join(f"'{n}'" for n in names) + f": {key}")
     return out
+
+
+# ---------------------------------------------------------------------------------------------
+# stability modes and curves (structured fields of fields.analysis results -> words)
+
+
+def mode_name(mode) -> str:
+    """Name of a stability mode from its kind and axes ("sideways x/y", "tilt about y", ...)."""
+    from fields.analysis.verdict import ModeKind
+
+    two = len(mode.axes) == 2
+    if mode.kind is ModeKind.SIDEWAYS:
+        return f"sideways {'x/y' if two else mode.axes[0]}"
+    if mode.kind is ModeKind.TILT:
+        return f"tilt about {'x/y' if two else mode.axes[0].lstrip('r')}"
+    return "vertical" if mode.kind is ModeKind.VERTICAL else "spin about vertical"
+
+
+def verdict_notes(verdict) -> tuple[str, ...]:
+    """Notes on neutral modes of a verdict."""
+    return tuple(f"{mode_name(m)}: neutral (no restoring stiffness; it may drift slowly)"
+                 for m in verdict.modes if m.neutral)
+
+
+def curve_warnings(curves) -> tuple[str, ...]:
+    """Warnings about an axial curve family (:class:`fields.analysis.AxialCurves`)."""
+    w = []
+    if not curves.linear_in_current:
+        w.append("a core reaches its saturation polarization at some gaps: the force is no longer "
+                 "affine in current there; curves at those gaps use the clipped core")
+    if curves.contact.any():
+        w.append(f"{int(curves.contact.sum())} of {len(curves.gaps_m)} gaps put the floater in contact with a body; "
+                 "they are marked contact and excluded from equilibria")
+    return tuple(w)
+
+
+# ---------------------------------------------------------------------------------------------
+# device notices (fields.devices.notices.Notice -> words)
+
+_CURRENTS = {True: "hover current from the equilibrium analysis", False: "nominal current (no hover currents given)"}
+
+
+def notice_text(n) -> str:
+    """One sentence for a coil, drive or sensor notice (:class:`fields.devices.notices.Notice`)."""
+    from fields.devices.winding import CURRENT_DENSITY_SOURCE
+
+    v, s, c = n.values, n.subject, n.code
+    mm = 1e3
+    texts = {
+        "wire_inferred": lambda: f"coil {s}: no wire given; bare diameter {v['diameter_m'] * mm:.3g} mm inferred from "
+                                 f"{v['turns']:g} turns at copper fill {v['fill']:g} (common practice, no source)",
+        "high_fill": lambda: f"coil {s}: copper fill factor {v['fill']:.2f} is above {v['limit']} and hard to wind with "
+                             "enamelled round wire (common practice, no source)",
+        "fill_mismatch": lambda: f"coil {s}: given fill factor {v['given_fill']:g} differs from the {v['implied_fill']:.3f} "
+                                 "implied by the turns and wire; the implied value is used",
+        "thermal_runaway": lambda: f"coil {s}: thermal runaway (no steady temperature: I^2 R20 alpha >= h A) at {v['count']} "
+                                   f"of {v['of']} gaps, e.g. gap {v['first_gap_m'] * mm:.3g} mm",
+        "runaway_at_operating": lambda: f"coil {s}: runaway at the operating current; the hot resistance is quoted at "
+                                        f"{v['quoted_temperature_C']:g} C",
+        "insulation_class_assumed": lambda: f"coil {s}: no insulation class given; class {v['class_C']:g} C (IEC 60085) assumed",
+        "above_thermal_class": lambda: f"coil {s}: the winding would run above its insulation thermal class {v['class_C']:g} C "
+                                       + (f"at {v['count']} of {v['of']} gaps ({v['gap_lo_m'] * mm:.3g}-{v['gap_hi_m'] * mm:.3g} mm)"
+                                          if v['of'] > 1 else "at this current")
+                                       + " if held there continuously (IEC 60085 / IEC 60317)",
+        "near_thermal_class": lambda: f"coil {s}: average winding temperature {v['temperature_C']:.0f} C is within the "
+                                      f"{v['allowance_K']:g} K hot-spot allowance of the thermal class {v['class_C']:g} C "
+                                      "(IEC 60085; allowance as in IEC 60034-1, from memory): the hot spot may exceed it",
+        "current_density_high": lambda: f"coil {s}: current density up to {v['max_A_per_mm2']:.2f} A/mm^2 at the "
+                                        f"{_CURRENTS[v['currents_from_hover']]} exceeds {v['limit_A_per_mm2']} A/mm^2 "
+                                        f"({CURRENT_DENSITY_SOURCE})",
+        "max_current_density_high": lambda: f"coil {s}: max current gives {v['value_A_per_mm2']:.2f} A/mm^2, above the "
+                                            f"continuous-duty band; short duty only ({CURRENT_DENSITY_SOURCE})",
+        "core_saturates": lambda: f"coil {s}: a core saturates at {v['count']} of {v['of']} gaps; the core's incremental "
+                                  "inductance drops there",
+        "supply_short": lambda: f"coil {s}: the supply {v['supply_V']:g} V is short of the {v['required_V']:.3g} V needed "
+                                f"(R I_peak {v['resistive_V']:.3g} V + L dI/dt {v['inductive_V']:.3g} V) to correct "
+                                f"{v['displacement_m'] * mm:g} mm at {v['rate_per_s']:.3g} 1/s",
+        "low_headroom": lambda: f"coil {s}: headroom {v['headroom_V']:.3g} V is under 20 % of the supply",
+        "cannot_hold_hover": lambda: f"coil {s}: the supply cannot even hold the hover current ({v['needed_V']:.3g} V needed)",
+        "peak_over_max": lambda: f"coil {s}: the peak current {v['peak_A']:.3g} A exceeds the coil's max current",
+        "flat_output": lambda: f"sensor {s}: the output does not change at the operating gap ("
+                               + {"fully_blocked": "fully blocked", "not_intercepted": "not intercepted", "flat": "flat"}[v["state"]]
+                               + "); move the beam",
+        "approximate_silhouette": lambda: f"sensor {s}: an oblique or mesh silhouette is outlined by a polygon (approximate)",
+        "hall_saturates": lambda: f"sensor {s}: the reading reaches {v['worst_T'] * 1e3:.3g} mT with all coils at max current, "
+                                  f"beyond the {v['range_T'] * 1e3:.3g} mT range",
+        "no_sensitivity": lambda: f"sensor {s}: no sensitivity to the gap at the operating gap",
+        "coil_crosstalk": lambda: f"sensor {s}: coil {v['coil']} at max current reads like {v['apparent_gap_m'] * mm:.3g} mm of "
+                                  "gap; compensate it (subtract c_k I_k)",
+        "core_approximate": lambda: f"sensor {s}: core response from the uniform-magnetization core model (approximate)",
+    }
+    if c not in texts:
+        return f"{s}: {c} {v}"
+    return texts[c]()
+
+
+def notices_text(notices) -> tuple[str, ...]:
+    """Sentences for several notices, in order."""
+    return tuple(notice_text(n) for n in notices)
+
+
+def coil_prose(cd) -> dict:
+    """The explanatory fields of a coil datasheet (:class:`fields.devices.coil.CoilData`)."""
+    from fields.devices.winding import CONVECTION_SOURCE, CURRENT_DENSITY_SOURCE
+    from fields.input import tables
+
+    origin = {"gauge": f"{cd.wire_gauge} (ASTM B258 formula)", "given": "given bare diameter",
+              "inferred": f"inferred from turns and copper fill {cd.assumed_fill_factor:g}"
+              if cd.assumed_fill_factor else ""}[cd.wire_source]
+    dl = {
+        "saturating_core": "core saturated at some gaps: there the incremental core inductance depends on the bias "
+                           "and dL/dgap is its central difference; NaN marks the saturation onset (a step in L)",
+        "linear_core": "linear (unsaturated) core and a rigid permanent-magnet floater of mu_r about 1: in this "
+                       "linear model L does not depend on the gap, dL/dgap = 0",
+        "air": "air coil and a rigid permanent-magnet floater of mu_r about 1: the floater does not change L in a "
+               "linear model, dL/dgap = 0 (a real magnet's mu_r of about 1.05 gives a small, unmodelled change)",
+    }.get(cd.inductance_model, cd.inductance_model)
+    return {
+        "wire_origin": origin,
+        "dL_dgap_note": dl,
+        "surface_note": ("outer cylinder + both end annuli + open bore" if cd.bore_cooled
+                         else "outer cylinder + both end annuli (bore filled by a core, not counted)"),
+        "sources": {
+            "wire": tables.AWG_SOURCE if cd.wire_gauge else origin,
+            "copper": tables.COPPER_SOURCE + ": resistivity 1/58 ohm mm^2/m, alpha 0.00393 /K, density 8890 kg/m^3",
+            "convection": CONVECTION_SOURCE if abs(cd.convection_W_per_m2K - 10.0) < 1e-12 else "study.convection_W_per_m2K",
+            "current_density_band": CURRENT_DENSITY_SOURCE,
+            "insulation": tables.THERMAL_CLASS_SOURCE,
+            "inductance": "Maxwell filament mutual inductance integrated over the cross-section, exact self term",
+            "currents": _CURRENTS[cd.currents_from_hover],
+        },
+    }
+
+
+def headroom_rate_note(hr) -> str:
+    """What the rate in the drive-headroom estimate is (:class:`fields.devices.drive.DriveHeadroom`)."""
+    p = hr.rate_per_s
+    if hr.unstable:
+        return f"p = sqrt(-k/m) = {p:.4g} 1/s: the unstable pole (restoring stiffness k = -dF/dx < 0)"
+    return f"p = sqrt(k/m) = {p:.4g} 1/s: the natural frequency (k = -dF/dx >= 0, a stable axis)"
+
+
+# ---------------------------------------------------------------------------------------------
+# control (fields.control results -> words)
+
+
+def design_rules() -> tuple[str, ...]:
+    """The rules behind the plant's crossover, sample rate and delay budget, with sources."""
+    from fields.control.plant import (DELAY_SHARE_OF_PHASE_MARGIN, NOMINAL_CROSSOVER_MULTIPLE,
+                                      NOMINAL_PHASE_MARGIN_DEG, SAMPLES_PER_CROSSOVER_PERIOD)
+
+    return (
+        f"Crossover: omega_c = {NOMINAL_CROSSOVER_MULTIPLE:g} x the unstable pole p (an open-loop-unstable "
+        "loop needs omega_c above about 2p; Skogestad & Postlethwaite, Multivariable Feedback Control, "
+        "2nd ed. 2005, sec. 5.8, recalled from memory; the factor 3 is common practice, no source).",
+        f"Sample rate: f_s >= {SAMPLES_PER_CROSSOVER_PERIOD:g} x f_c, f_c = omega_c/(2 pi) (rule of thumb "
+        "10-20x: Franklin, Powell & Workman, Digital Control of Dynamic Systems, 3rd ed. 1998, ch. 11; "
+        "Astrom & Wittenmark, Computer-Controlled Systems, 3rd ed. 1997, omega_c h = 0.15-0.5; "
+        "recalled from memory).",
+        f"Delay: the total loop delay tau (sensor + computation + half a sample of zero-order hold) "
+        f"costs omega_c tau of phase at crossover; keep it <= {DELAY_SHARE_OF_PHASE_MARGIN:.3g} of the "
+        f"phase margin ({NOMINAL_PHASE_MARGIN_DEG:g} deg nominal): tau_max = "
+        f"{DELAY_SHARE_OF_PHASE_MARGIN:.3g} PM / omega_c (common practice, no source).",
+    )
+
+
+def discretisation_text(cd) -> str:
+    """How a controller design (:class:`fields.control.design.ControllerDesign`) was discretised."""
+    if cd.sample_time_s is None or str(cd.discretisation) == "analog":
+        return "analog (no discretisation)"
+    return (f"Tustin (bilinear) with pre-warping at omega_c = {cd.prewarp_frequency_rad_per_s:.6g} rad/s via "
+            f"control.c2d, T = {cd.sample_time_s:g} s")
+
+
+def circuit_text(net) -> str:
+    """The op-amp realisation (:class:`fields.control.circuits.OpAmpLeadNetwork`) in words."""
+    second = ("inverting PI, input Ra, feedback Rb + Cb in series, zero 1/(Rb Cb)"
+              if str(net.second_stage) == "pi" else "unity inverting buffer")
+    return ("stage 1: inverting op-amp, input R3 in series with (R1 || C1), feedback R2; "
+            "zero 1/(R1 C1), pole (R1+R3)/(R1 R3 C1), DC gain R2/(R1+R3); stage 2: " + second
+            + "; output to the current driver")
+
+
+def margins_domain_text(m) -> str:
+    """Continuous or discrete, with sample time and delay (:class:`fields.control.margins.Margins`)."""
+    if m.sample_time_s is None:
+        return "continuous"
+    return f"discrete, T = {m.sample_time_s:g} s, delay {m.delay_samples} samples"
+
+
+def proportional_text(study, mechanical_pole_rad_per_s: float) -> str:
+    """Why pure proportional feedback does or does not hold the floater
+    (:class:`fields.control.margins.ProportionalStudy`)."""
+    import numpy as np
+
+    u = study.signal_unit
+    maxre = np.asarray(study.max_real_part_rad_per_s)
+    gains = np.asarray(study.gains)
+    kcrit = study.critical_gain
+    if study.drive == "current":
+        above = np.abs(maxre[gains > kcrit])
+        return (f"Current drive, proportional only: s^2 + (k_s + K k_i G_s)/m = 0. Below the critical "
+                f"gain {kcrit:.4g} A/{u} a real pole is positive (the floater runs away, "
+                f"rate up to {mechanical_pole_rad_per_s:.4g} 1/s); above it both poles sit on the "
+                f"imaginary axis (max real part {np.max(above) if above.size else 0:.2g} "
+                f"1/s, numerically zero): an undamped oscillation, e.g. {study.undamped_frequency_rad_per_s:.4g} rad/s at "
+                f"{gains.max() / kcrit:g} x critical. No gain adds damping; a derivative (lead) term is needed.")
+    lo, hi = study.stable_gain_window
+    window = ("no gain is stable" if not (np.isfinite(lo) and np.isfinite(hi))
+              else f"a stable window exists for {lo:.4g} < K < {hi:.4g} V/{u} (weakly damped)")
+    return (f"Voltage drive, proportional only: Routh-Hurwitz on s^3 + (R/L) s^2 + (b - p^2) s + "
+            f"(K' - (R/L) p^2) needs b = k_i^2/(m L) = {study.back_emf_damping_per_s2:.4g} 1/s^2 above p^2 = -k_s/m = "
+            f"{study.unstable_stiffness_per_s2:.4g} 1/s^2: {window}. Across the gains tried the fastest mode grows at "
+            f"{maxre.min():.4g} to {maxre.max():.4g} 1/s (positive = growing): the coil's electrical "
+            f"lag turns the undamped oscillation of current drive into a growing one.")

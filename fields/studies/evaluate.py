@@ -81,7 +81,7 @@ def _coil_heat_columns(design: Design, drive_current_A: float) -> dict[str, Any]
     """Steady coil heat with every coil at ``drive_current_A * d_k`` (lumped model of
     :func:`fields.devices.coil.steady_temperature_C`); NaN without a drive current."""
     from fields import analysis
-    from fields.devices import coil as coilmod
+    from fields.devices import winding
     from fields.input.tables import COPPER_ALPHA_20C_PER_K
 
     st = design.study
@@ -93,15 +93,15 @@ def _coil_heat_columns(design: Design, drive_current_A: float) -> dict[str, Any]
     R_sum = P_sum = 0.0
     T_hot, too_hot = -math.inf, False
     for i, c in enumerate(design.coils):
-        R20, G = coilmod.resistance_and_cooling(design, i)
+        R20, G = winding.resistance_and_cooling(design, i)
         R_sum += R20
         if not math.isfinite(drive_current_A):
             continue
         Ii = drive_current_A * d[i]
-        T, run = coilmod.steady_temperature_C([Ii], R20, G, ambient)
+        T, run = winding.steady_temperature_C([Ii], R20, G, ambient)
         T = float(T[0])
         P_sum += Ii * Ii * R20 * (1.0 + COPPER_ALPHA_20C_PER_K * (T - 20.0)) if not run[0] else math.inf
-        ins = c.insulation_class_C if c.insulation_class_C is not None else coilmod.DEFAULT_INSULATION_CLASS_C
+        ins = c.insulation_class_C if c.insulation_class_C is not None else winding.DEFAULT_INSULATION_CLASS_C
         too_hot = too_hot or bool(run[0]) or T > ins
         T_hot = max(T_hot, T)
     if not math.isfinite(drive_current_A):

@@ -33,8 +33,10 @@ class CoilSheet:
     operating point and the driver's headroom on the control axis."""
 
     datasheet: object = flattened()
+    explanations: dict = flattened(default_factory=dict)
     at_operating_point: OperatingHeat | None = None
     drive_headroom: object = optional()
+    drive_headroom_notes: dict | None = optional()
 
 
 @dataclass(frozen=True)
@@ -50,9 +52,9 @@ class CoilResult:
 
 
 def _heat_at(cd, eq, current_A: float) -> OperatingHeat:
-    from fields.devices import coil as coilmod
+    from fields.devices import coil as coilmod, drive, inductance, winding  # noqa: F401
 
-    T, run = coilmod.steady_temperature_C([current_A], cd.resistance_20C_ohm, cd.convection_W_per_m2K * cd.surface_area_m2,
+    T, run = winding.steady_temperature_C([current_A], cd.resistance_20C_ohm, cd.convection_W_per_m2K * cd.surface_area_m2,
                                           cd.ambient_temperature_C)
     R = float(cd.resistance_ohm(T[0])) if np.isfinite(T[0]) else float("inf")
     return OperatingHeat(gap_m=float(eq.gap_m), current_A=current_A, power_W=current_A * current_A * R,
@@ -61,8 +63,8 @@ def _heat_at(cd, eq, current_A: float) -> OperatingHeat:
 
 
 def _sheet(design: Design, k: int, c: analysis.AxialCurves, eq, ax) -> tuple[CoilSheet, list[str]]:
-    from fields.devices import coil as coilmod
-    from fields.io.wording import prefixed
+    from fields.devices import coil as coilmod, drive, inductance, winding  # noqa: F401
+    from fields.io.wording import coil_prose, headroom_rate_note, notices_text, prefixed
 
     coil = design.coils[k]
     # only gaps where the floater can hover within the current limit carry a hover current
@@ -73,11 +75,15 @@ def _sheet(design: Design, k: int, c: analysis.AxialCurves, eq, ax) -> tuple[Coi
     headroom = None
     bias = float(ax.bias_currents_A[k]) if len(ax.bias_currents_A) else 0.0
     if ax.pattern[k] != 0 and ax.force_per_ampere_N_per_A != 0:
-        headroom = coilmod.drive_headroom(cd, bias, ax.force_per_ampere_N_per_A, ax.stiffness_N_per_m,
+        headroom = drive.drive_headroom(cd, bias, ax.force_per_ampere_N_per_A, ax.stiffness_N_per_m,
                                           design.floater.mass_kg, design.study.supply_voltage_V)
-        warnings += list(headroom.warnings)
-    warnings += prefixed(cd.warnings, "coil", coil.name)
-    return CoilSheet(datasheet=cd, at_operating_point=heat, drive_headroom=headroom), warnings
+        warnings += list(notices_text(headroom.notices))
+    warnings += prefixed(notices_text(cd.notices), "coil", coil.name)
+    prose = dict(coil_prose(cd), warnings=list(notices_text(cd.notices)))
+    hr = None if headroom is None else {"rate_note": headroom_rate_note(headroom),
+                                        "warnings": list(notices_text(headroom.notices))}
+    return CoilSheet(datasheet=cd, explanations=prose, at_operating_point=heat, drive_headroom=headroom,
+                     drive_headroom_notes=hr), warnings
 
 
 def _write_heat_table(design: Design, c: analysis.AxialCurves, sheets: tuple[CoilSheet, ...], out: Path) -> None:
@@ -96,7 +102,7 @@ def run_coil(design: Design, out: Path, curves=None, stability=None) -> CoilResu
 
     ``curves`` and ``stability`` are the results of :func:`run_curves` and :func:`run_stability`
     when the caller has them; computed (the stability without maps) otherwise."""
-    from fields.devices import coil as coilmod
+    from fields.devices import coil as coilmod, drive, inductance, winding  # noqa: F401
     from fields.io.wording import group_coil_warnings
     from fields.studies.stages.stability import run_stability
 
@@ -110,7 +116,7 @@ def run_coil(design: Design, out: Path, curves=None, stability=None) -> CoilResu
         sheet, w = _sheet(design, k, c, eq, ax)
         sheets.append(sheet)
         warnings += w
-    Lmat = coilmod.mutual_inductance_matrix(design) if design.coils else np.zeros((0, 0))
+    Lmat = inductance.mutual_inductance_matrix(design) if design.coils else np.zeros((0, 0))
     result = CoilResult(coils=tuple(sheets), inductance_matrix_H=Lmat, control_axis=ax.name, control_pattern=ax.pattern,
                         warnings=tuple(group_coil_warnings(list(dict.fromkeys(warnings)), [x.name for x in design.coils])),
                         files=file_list(out, "coil.json", "coil_heat.csv"))

@@ -216,19 +216,19 @@ class _Drive:
 
 
 def _drive(design: Design, ax, coil) -> _Drive:
-    from fields.devices import coil as coilmod
+    from fields.devices import coil as coilmod, drive, inductance, winding  # noqa: F401
 
     p = ax.pattern
     active = np.flatnonzero(p)
     # coils in the pattern carry i * p_k: series resistance sum p_k^2 R_k, inductance p^T L p
-    R = float(sum(p[k] ** 2 * coilmod.resistance_and_cooling(design, int(k))[0] for k in active))
-    Lm = (np.asarray(coil.inductance_matrix_H, float) if coil is not None else coilmod.mutual_inductance_matrix(design))
+    R = float(sum(p[k] ** 2 * winding.resistance_and_cooling(design, int(k))[0] for k in active))
+    Lm = (np.asarray(coil.inductance_matrix_H, float) if coil is not None else inductance.mutual_inductance_matrix(design))
     imax = float(min(design.coils[k].max_current_A / abs(p[k]) for k in active))
     return _Drive(R, float(p @ Lm @ p), imax)
 
 
 def _scenarios(design: Design, plant, step: float) -> dict:
-    from fields.control import dynamics as dyn
+    from fields import control as dyn
 
     m = design.floater.mass_kg
     return {
@@ -241,7 +241,7 @@ def _scenarios(design: Design, plant, step: float) -> dict:
 
 
 def _hysteresis(params, table, pd, ax, span: float, imax: float):
-    from fields.control import dynamics as dyn
+    from fields import control as dyn
 
     bands = np.array([0.02, 0.05, 0.1, 0.2]) * span
     if ax.index == 2:
@@ -255,12 +255,13 @@ def _hysteresis(params, table, pd, ax, span: float, imax: float):
 def _write_files(design: Design, out: Path, r: ControlResult, s0, v0, sim_files: dict) -> None:
     from fields.io import plots
     from fields.io.wording import plant_note
+    from fields.studies.stages.control_data import plant_data, simulation_rows
 
-    write_json(out / "plant.json", PlantFile(design.name, r.axis, r.pattern, r.sensor, "voltage", r.raw_plant.to_dict(),
-                                             r.plant.to_dict(), plant_note()))
+    write_json(out / "plant.json", PlantFile(design.name, r.axis, r.pattern, r.sensor, "voltage", plant_data(r.raw_plant),
+                                             plant_data(r.plant), plant_note()))
     _write_plant_csv(out / "plant.csv", design, r.raw_plant, r.plant)
     for k, v in r.sims.items():
-        rows = v.to_csv_rows()
+        rows = simulation_rows(v)
         write_csv(out / sim_files[k], rows[0], rows[1:],
                   header_lines(design.name, f"nonlinear simulation '{k}' along {r.axis}; s from the equilibrium"))
     cap = r.capture_result
@@ -287,8 +288,9 @@ def run_control(design: Design, out: Path, stability=None, coil=None) -> Control
     ``stability`` and ``coil`` are the results of :func:`run_stability` and :func:`run_coil`
     when the caller has them (the report does): their equilibrium and inductance matrix are
     reused instead of computed again."""
-    from fields.control import dynamics as dyn
-    from fields.io.wording import crosstalk_note
+    from fields import control as dyn
+    from fields.io.wording import crosstalk_note, design_rules
+    from fields.studies.stages.control_data import controller_data, margins_data, proportional_data
     from fields.studies.stages.stability import run_stability
 
     out = Path(out)
@@ -333,9 +335,10 @@ def run_control(design: Design, out: Path, stability=None, coil=None) -> Control
         inductance_H=drv.inductance_H, bias_current_A=I0, max_current_A=drv.max_current_A,
         unstable_pole_rad_per_s=plant.unstable_pole_rad_per_s, unstable_time_constant_s=plant.unstable_time_constant_s,
         electrical_pole_rad_per_s=plant.electrical_pole_rad_per_s, min_sample_rate_Hz=plant.min_sample_rate_Hz,
-        max_loop_delay_s=plant.max_loop_delay_s, rules=tuple(plant.rules), sample_time_s=T,
-        controller_pd=ctrl["pd"].to_dict(), controller_pid=ctrl["pid"].to_dict(),
-        margins_pd=m_pd.to_dict(), margins_pid=m_pid.to_dict(), proportional_only=prop.to_dict(),
+        max_loop_delay_s=plant.max_loop_delay_s, rules=design_rules(), sample_time_s=T,
+        controller_pd=controller_data(ctrl["pd"]), controller_pid=controller_data(ctrl["pid"]),
+        margins_pd=margins_data(m_pd), margins_pid=margins_data(m_pid),
+        proportional_only=proportional_data(prop, plant.mechanical_pole_rad_per_s),
         capture=CaptureSummary(cap.band_m, cap.band_resolution_m, float(np.mean(cap.captured))),
         hysteresis=hyst,
         simulations={k: SimulationSummary(tuple(v.events), float(v.s_m[-1]), float(np.max(np.abs(v.current_A))))

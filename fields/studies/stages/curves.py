@@ -90,7 +90,7 @@ def _at_operating_gap(design: Design, c: analysis.AxialCurves) -> AtOperatingGap
 def run_curves(design: Design, out: Path) -> CurvesResult:
     """Axial force-gap-current curves: curves.csv, kz_table.csv, curves.json, curves.png."""
     from fields.io import plots
-    from fields.io.wording import equilibrium_label
+    from fields.io.wording import curve_warnings, equilibrium_label
 
     out = Path(out)
     c = analysis.axial_curves(design)
@@ -102,7 +102,7 @@ def run_curves(design: Design, out: Path) -> CurvesResult:
         equilibria=tuple(AxialEquilibriumRow(e.gap_m, e.current_A, e.kz_N_per_m, e.stable, equilibrium_label(e.stable))
                          for e in eqs),
         max_force_error_N=float(np.nanmax(c.error_F_N)) if len(c.error_F_N) else 0.0,
-        contact_gaps=int(c.contact.sum()), warnings=tuple(c.warnings),
+        contact_gaps=int(c.contact.sum()), warnings=curve_warnings(c),
         files=file_list(out, "curves.csv", "kz_table.csv", "curves.json", "curves.png"),
         at_operating_gap=_at_operating_gap(design, c), curves=c, axial_equilibria=tuple(eqs))
     write_json(out / "curves.json", result)

@@ -78,7 +78,7 @@ def _meshes(design: Design, exp: Path):
     """Every body as one STL and as a GLB scene of named nodes; returns (files, the joined mesh)."""
     import trimesh
 
-    from fields.model import solids as bodies
+    from fields.model import meshes as bodies
 
     meshes = bodies.body_meshes(design)
     scene = trimesh.Scene()

@@ -45,19 +45,19 @@ class SensorsResult:
 
 
 def _responses(design: Design, gaps):
-    from fields.devices import sensors
-    from fields.io.wording import prefixed
+    from fields.devices import beam, hall
+    from fields.io.wording import notices_text, prefixed
 
     entries, beams, halls, warnings = [], [], [], []
     for s in design.sensors:
         if s.kind == "beam":
-            r = sensors.beam_response(design, s, gaps)
+            r = beam.beam_response(design, s, gaps)
             beams.append(r)
         else:
-            r = sensors.hall_response(design, s, gaps)
+            r = hall.hall_response(design, s, gaps)
             halls.append(r)
         entries.append(SensorEntry(s.name, "beam" if s.kind == "beam" else "hall", r))
-        warnings += prefixed(r.warnings, "sensor", s.name)
+        warnings += prefixed(notices_text(r.notices), "sensor", s.name)
     return entries, beams, halls, warnings
 
 
@@ -78,11 +78,11 @@ def _write_curves(design: Design, gaps, beams, halls, out: Path) -> None:
 
 
 def _placement(design: Design, gaps, out: Path):
-    from fields.devices import sensors
+    from fields.devices import placement
 
     a, b, n = design.study.sensor_line
     axis = next((np.asarray(s.axis) for s in design.sensors if s.kind == "hall"), design.up)
-    table = sensors.placement_table(design, np.linspace(a, b, n), axis, gaps_m=gaps)
+    table = placement.placement_table(design, np.linspace(a, b, n), axis, gaps_m=gaps)
     rows = table.rows()
     write_csv(out / "placement.csv", list(rows[0].keys()) + ["best"],
               [list(r.values()) + [i == table.best_index] for i, r in enumerate(rows)],
@@ -91,12 +91,12 @@ def _placement(design: Design, gaps, out: Path):
 
 
 def _inverse_tables(design: Design, gaps, halls, out: Path) -> tuple[list[str], list[str]]:
-    from fields.devices import sensors
+    from fields.devices import hall
 
     files, warnings = [], []
     for h in halls:
         try:
-            inv = sensors.hall_inverse_table(design, next(s for s in design.sensors if s.name == h.name), gaps)
+            inv = hall.hall_inverse_table(design, next(s for s in design.sensors if s.name == h.name), gaps)
         except HoverfieldError as e:  # non-monotone readings: report, keep going
             warnings.append(f"{h.name}: no inverse table: {e}")
             continue
