@@ -175,7 +175,11 @@ class StructureReport:
         return jsonable(d)
 
 
-class LoopNotClosable(SolverError):
+class DesignRefused(SolverError):
+    """A controller design cannot be built for this plant; the message says why and what to do."""
+
+
+class LoopNotClosable(DesignRefused):
     """A controller design was refused: some unstable mode cannot be controlled or observed.
 
     ``report`` holds the :class:`StructureReport`; the message names each mode and its fix.
