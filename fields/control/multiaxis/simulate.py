@@ -96,7 +96,7 @@ class ForceModel:
     sensor_columns: tuple[tuple[int, int], ...]
 
     def evaluate(self, dq: np.ndarray) -> np.ndarray:
-        """Fitted columns at pose deviations dq (p, n) (normalised by the span internally)."""
+        """Fitted columns (p, c) at pose deviations dq (p, n)."""
         return _features(np.atleast_2d(dq) / self.span) @ self.coefficients
 
     def wrench(self, dq: np.ndarray, currents_A: np.ndarray):
