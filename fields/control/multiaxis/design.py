@@ -24,7 +24,9 @@ Timing
     Tustin's rule, placing the modal poles at ``w_n = 3 p`` with damping 0.7
     (``kp = w_n^2 + lambda``, ``kd = 2 zeta w_n``); modal forces -> coil currents through the
     pseudo-inverse of the modal authority ``Phi^T G``. The currents are commands: the design
-    needs a current-driven plant (ideal or analog current loop). When fewer independent current
+    needs a current-driven plant (ideal or analog current loop). The design is refused
+    (:class:`~fields.control.multiaxis.structure.DesignRefused`) when the sensors cannot separate
+    the PD modes (``rank(Cq Phi)`` below their number). When fewer independent current
     combinations act on the PD modes than there are modes the loops cannot be decoupled; the
     result says so and its closed-loop poles tell whether it still holds.
 (b) LQR with a Kalman predictor (LQG)
@@ -109,9 +111,10 @@ class Regulator:
     Attributes
     ----------
     kind : {"mode_pd", "lqg", "none"}
-    ss : control.StateSpace
+    ss : control.StateSpace or None
         ``xi[k+1] = Ac xi + Bc y``, ``u = Cc xi`` with sample time ``dt``; ``y`` the compensated
-        sensor deviations, ``u`` the plant input deviations.
+        sensor deviations, ``u`` the plant input deviations. A passive design gets a zero static
+        gain (None without coils or sensors).
     antiwindup : ndarray, shape (r, k)
         ``xi[k+1] += antiwindup (u_applied - u_commanded)`` when the drive saturates (the LQG
         predictor uses the applied input; zero for the PD).
@@ -129,7 +132,7 @@ class Regulator:
     """
 
     kind: str
-    ss: control.StateSpace
+    ss: control.StateSpace | None
     antiwindup: np.ndarray
     sample_rate: SampleRate | None
     controlled_modes: tuple[str, ...]
@@ -144,11 +147,12 @@ class Regulator:
 
     @property
     def dt(self) -> float:
-        return float(self.ss.dt) if self.ss.dt not in (None, True) else 0.0
+        return float(self.ss.dt) if self.ss is not None and self.ss.dt not in (None, True) else 0.0
 
     def to_dict(self) -> dict:
         d = {k: getattr(self, k) for k in self.__dataclass_fields__ if k not in ("ss", "sample_rate")}
-        d["A"], d["B"], d["C"] = self.ss.A, self.ss.B, self.ss.C
+        if self.ss is not None:
+            d["A"], d["B"], d["C"], d["D"] = self.ss.A, self.ss.B, self.ss.C, self.ss.D
         d["sample_rate"] = None if self.sample_rate is None else {
             k: getattr(self.sample_rate, k) for k in self.sample_rate.__dataclass_fields__}
         return jsonable(d)
@@ -187,7 +191,8 @@ def _projection(plant: MultiaxisPlant, Phi: np.ndarray, A: np.ndarray, B: np.nda
     return Tl @ A @ T, Tl @ B, C @ T
 
 
-def _left_open_eigs(plant: MultiaxisPlant, report: StructureReport, T: float) -> np.ndarray:
+def left_open_eigenvalues(plant: MultiaxisPlant, report: StructureReport, T: float) -> np.ndarray:
+    """Discrete eigenvalues ``exp(+-sqrt(-lambda) T)`` of the modes the regulators leave open."""
     z = []
     for nm in report.left_open:
         m = report.mode(nm)
@@ -203,7 +208,8 @@ def _closed_loop(Ad, Bd, C, reg: control.StateSpace) -> np.ndarray:
     return np.linalg.eigvals(np.vstack([top, bot]))
 
 
-def _radius(poles: np.ndarray, open_eigs: np.ndarray) -> float:
+def spectral_radius_outside(poles: np.ndarray, open_eigs: np.ndarray) -> float:
+    """Largest |z| among ``poles`` after removing one match (within 1e-6) per open-loop eigenvalue."""
     keep = np.ones(poles.size, bool)
     used = np.zeros(open_eigs.size, bool)
     for j, z in enumerate(open_eigs):
@@ -222,8 +228,8 @@ def _evaluate(plant, report, reg, T, kind, aw, sr, names, gains, notes) -> Regul
     Ad2, Bd2 = zoh(plant.A_cold, plant.B_cold, T)
     p = _closed_loop(Ad, Bd, C, reg)
     p2 = _closed_loop(Ad2, Bd2, C, reg)
-    oe = _left_open_eigs(plant, report, T)
-    r1, r2 = _radius(p, oe), _radius(p2, oe)
+    oe = left_open_eigenvalues(plant, report, T)
+    r1, r2 = spectral_radius_outside(p, oe), spectral_radius_outside(p2, oe)
     tol = 1e-9
     return Regulator(kind, reg, aw, sr, tuple(names), p, p2, r1, r2, bool(r1 < 1 - tol), bool(r2 < 1 - tol),
                      gains, tuple(notes))
@@ -237,7 +243,7 @@ def _require(report: StructureReport) -> None:
 def passive_regulator(plant: MultiaxisPlant, report: StructureReport) -> Regulator:
     """The 'no control' result of a passive design: zero gain, open-loop poles (not a failure)."""
     k, s = plant.n_coils, len(plant.sensors)
-    reg = control.ss(np.zeros((0, 0)), np.zeros((0, s)), np.zeros((k, 0)), np.zeros((k, s)), True)
+    reg = control.ss(np.zeros((0, 0)), np.zeros((0, s)), np.zeros((k, 0)), np.zeros((k, s)), True) if k and s else None
     poles = plant.poles_rad_per_s
     return Regulator("none", reg, np.zeros((0, k)), None, (), poles, np.linalg.eigvals(plant.A_cold), 0.0, 0.0,
                      True, True, {}, ("passive design: every mode is stable or neutral; no control is needed",))

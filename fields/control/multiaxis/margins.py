@@ -37,7 +37,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import minimize
 
-from fields.control.multiaxis.design import Regulator, _left_open_eigs, _radius, compensated_output, zoh
+from fields.control.multiaxis.design import (Regulator, compensated_output, left_open_eigenvalues,
+                                             spectral_radius_outside, zoh)
 from fields.control.multiaxis.plant import MultiaxisPlant, jsonable
 from fields.control.multiaxis.structure import StructureReport
 
@@ -219,14 +220,14 @@ def _gain_interval(plant, report, regulator, j) -> tuple[tuple[float, float], st
     C, _ = compensated_output(plant)
     Ad, Bd = zoh(plant.A, plant.B, T)
     R = regulator.ss
-    oe = _left_open_eigs(plant, report, T)
+    oe = left_open_eigenvalues(plant, report, T)
 
     def stable(kappa):
         D = np.ones(plant.n_coils)
         D[j] = kappa
         top = np.hstack([Ad, Bd @ np.diag(D) @ R.C])
         bot = np.hstack([R.B @ C, R.A])
-        return _radius(np.linalg.eigvals(np.vstack([top, bot])), oe) < 1 - 1e-9
+        return spectral_radius_outside(np.linalg.eigvals(np.vstack([top, bot])), oe) < 1 - 1e-9
 
     if not stable(1.0):
         return (math.nan, math.nan), "the nominal loop is unstable"

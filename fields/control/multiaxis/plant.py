@@ -146,7 +146,8 @@ class MultiaxisPlant:
     A, B, C, D : ndarray
         At the hot corner; ``A_cold``, ``B_cold`` at the cold corner (``C``, ``D`` do not change).
     state_names, input_names, output_names : tuple of str
-    ss, ss_cold : control.StateSpace
+    ss, ss_cold : control.StateSpace or None
+        None without coils or sensors (python-control holds no system without inputs/outputs).
     poles_rad_per_s : ndarray of complex
         Of ``A``, sorted by decreasing real part.
     notes : tuple of str
@@ -185,8 +186,8 @@ class MultiaxisPlant:
     state_names: tuple[str, ...]
     input_names: tuple[str, ...]
     output_names: tuple[str, ...]
-    ss: control.StateSpace
-    ss_cold: control.StateSpace
+    ss: control.StateSpace | None
+    ss_cold: control.StateSpace | None
     poles_rad_per_s: np.ndarray
     notes: tuple[str, ...] = field(default_factory=tuple)
 
@@ -213,7 +214,7 @@ class MultiaxisPlant:
         out = {}
         for k in self.__dataclass_fields__:
             v = getattr(self, k)
-            if isinstance(v, control.StateSpace):
+            if isinstance(v, control.StateSpace) or v is None and k.startswith("ss"):
                 continue
             if k == "sensors":
                 v = [{kk: getattr(s, kk) for kk in s.__dataclass_fields__} for s in v]
@@ -440,8 +441,11 @@ def multiaxis_plant(design: Design, equilibrium, drive: str = "voltage",
     A, B, C, D, Kc = _matrices(M, K, G, L, Rh, Rh, Cq, Di, drive, wc)
     A2, B2, _, _, _ = _matrices(M, K, G, L, Rc, Rh, Cq, Di, drive, wc)
     states, inputs, outputs = _names(free, [c.name for c in design.coils], drive, design.sensors)
-    ss = control.ss(A, B, C, D, states=list(states), inputs=list(inputs), outputs=list(outputs))
-    ss_cold = control.ss(A2, B2, C, D, states=list(states), inputs=list(inputs), outputs=list(outputs))
+    if k and len(design.sensors):
+        ss = control.ss(A, B, C, D, states=list(states), inputs=list(inputs), outputs=list(outputs))
+        ss_cold = control.ss(A2, B2, C, D, states=list(states), inputs=list(inputs), outputs=list(outputs))
+    else:  # python-control cannot hold a system without inputs or outputs
+        ss = ss_cold = None
     poles = np.linalg.eigvals(A) if A.size else np.zeros(0, complex)
     poles = poles[np.argsort(-poles.real, kind="stable")]
     notes.append("rotations are small rotations about world axes through the centre of mass; torques about it")
