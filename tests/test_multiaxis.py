@@ -13,6 +13,7 @@ import math
 import control
 import numpy as np
 import pytest
+from helpers import REPULSIVE, ROOT, SUSPENSION
 
 from fields.analysis import core as analysis
 from fields.control import multiaxis as mx
@@ -20,8 +21,6 @@ from fields.devices.coil import resistance_and_cooling, steady_temperature_C
 from fields.input.geometry import load
 from fields.input.tables import COPPER_ALPHA_20C_PER_K
 from fields.model.design import HallSensor
-
-from helpers import REPULSIVE, ROOT, SUSPENSION
 
 RING = ROOT / "geometries" / "ring_steering.toml"
 #: relative agreement of two finite-difference paths of the same force engine
@@ -309,7 +308,7 @@ def test_mode_pd_holds_the_suspension_vertical_axis(suspension):
 def test_mode_pd_refuses_when_two_sensors_must_see_four_modes(ring):
     """A static modal estimate needs rank(Cq Phi) = number of modes: two signals cannot give
     four modal coordinates."""
-    d, eq, p, r = ring
+    d, eq, p, _ = ring
     pc = mx.multiaxis_plant(d, eq, drive="current", inductance_H=p.inductance_H)
     with pytest.raises(mx.DesignRefused, match="cannot separate the 4 modes"):
         mx.design_mode_pd(pc, mx.check_structure(pc, d))
@@ -334,14 +333,14 @@ def test_ring_steering_is_held_in_every_controlled_axis(ring):
     """Nonlinear closed loop (force engine tabulated, ZOH, one-sample delay, saturation, coil
     dynamics): the floater returns to the equilibrium on x, y, rx and ry."""
     d, eq, _, _ = ring
-    p, r, run = _held(d, eq)
+    _, _, run = _held(d, eq)
     assert run.held and set(run.converged_axes) == {"x", "y", "rx", "ry"} and all(run.converged_axes.values())
 
 
 @pytest.mark.slow
 def test_suspension_is_held(suspension):
     d, eq = suspension
-    p, r, run = _held(d, eq)
+    _, _, run = _held(d, eq)
     assert run.held and run.converged_axes == {"z": True}
 
 
@@ -355,5 +354,5 @@ def test_repulsive_needs_the_suggested_y_sensor_and_is_then_held():
     r = mx.check_structure(p, d)
     assert r.status == "refused" and "sensing y" in " ".join(r.reasons)
     d2 = _repulsive_with_y_sensor()
-    p2, r2, run = _held(d2, eq, inductance_H=p.inductance_H)
+    _, _, run = _held(d2, eq, inductance_H=p.inductance_H)
     assert run.held and all(run.converged_axes.values()) and len(run.converged_axes) == 4

@@ -12,15 +12,42 @@ Typical use::
     run = mx.simulate_multiaxis(plant, report, reg, model, design)
 """
 
-from fields.control.multiaxis.design import (Regulator, SampleRate, choose_sample_rate, compensated_output,
-                                             design_lqg, design_mode_pd, passive_regulator, zoh)
-from fields.control.multiaxis.margins import (ChannelMargins, DiskMargin, MimoMargins, disk_gain_phase,
-                                              disk_margins_from_loop, input_loop, mimo_margins)
+from fields.control.multiaxis.design import (
+                                             Regulator,
+                                             SampleRate,
+                                             choose_sample_rate,
+                                             compensated_output,
+                                             design_lqg,
+                                             design_mode_pd,
+                                             passive_regulator,
+                                             zoh,
+)
+from fields.control.multiaxis.margins import (
+                                             ChannelMargins,
+                                             DiskMargin,
+                                             MimoMargins,
+                                             disk_gain_phase,
+                                             disk_margins_from_loop,
+                                             input_loop,
+                                             mimo_margins,
+)
 from fields.control.multiaxis.outputs import beam_fraction_at_poses, hall_parts, sensor_readings
 from fields.control.multiaxis.plant import MultiaxisPlant, SensorModel, coil_resistances, multiaxis_plant
-from fields.control.multiaxis.simulate import ForceModel, MultiaxisSimulation, default_start, force_model, simulate_multiaxis
-from fields.control.multiaxis.structure import (DesignRefused, LoopNotClosable, ModeCheck, SensorSuggestion,
-                                                StructureReport, check_structure)
+from fields.control.multiaxis.simulate import (
+                                             ForceModel,
+                                             MultiaxisSimulation,
+                                             default_start,
+                                             force_model,
+                                             simulate_multiaxis,
+)
+from fields.control.multiaxis.structure import (
+                                             DesignRefused,
+                                             LoopNotClosable,
+                                             ModeCheck,
+                                             SensorSuggestion,
+                                             StructureReport,
+                                             check_structure,
+)
 
 __all__ = [
     "ChannelMargins", "DesignRefused", "DiskMargin", "ForceModel", "LoopNotClosable", "MimoMargins", "ModeCheck",

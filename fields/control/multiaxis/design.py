@@ -387,8 +387,8 @@ def design_lqg(plant: MultiaxisPlant, report: StructureReport, sample_rate: Samp
              "sensor_noise_diagonal": np.diag(RN), "regulator_poles": np.linalg.eigvals(Ad - Bd @ K),
              "estimator_poles": np.linalg.eigvals(Ad - L @ Cr), "separation_poles": sep,
              "design_states": 2 * r + ne}
-    notes = [f"LQR weights (Bryson): 1/(reference motion)^2 on each controlled mode (1 mm or 1 degree of its dominant "
-             f"axis), 1/(headroom)^2 x {control_weight:g} on each input",
-             f"Kalman predictor: sensor noise {observer_noise_share:g} of full scale; modal force noise p_max^2 x (reference "
-             "motion) on each controlled mode"]
+    notes = [(f"LQR weights (Bryson): 1/(reference motion)^2 on each controlled mode (1 mm or 1 degree of its dominant "
+             f"axis), 1/(headroom)^2 x {control_weight:g} on each input"),
+             (f"Kalman predictor: sensor noise {observer_noise_share:g} of full scale; modal force noise p_max^2 x (reference "
+             "motion) on each controlled mode")]
     return _evaluate(plant, report, reg, T, "lqg", Bd.copy(), sr, names, gains, notes)

@@ -37,8 +37,13 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import minimize
 
-from fields.control.multiaxis.design import (Regulator, compensated_output, left_open_eigenvalues,
-                                             spectral_radius_outside, zoh)
+from fields.control.multiaxis.design import (
+    Regulator,
+    compensated_output,
+    left_open_eigenvalues,
+    spectral_radius_outside,
+    zoh,
+)
 from fields.control.multiaxis.plant import MultiaxisPlant, jsonable
 from fields.control.multiaxis.structure import StructureReport
 
@@ -290,7 +295,7 @@ def mimo_margins(plant: MultiaxisPlant, report: StructureReport, regulator: Regu
                 pm, wc = m, float(w[c] * (w[c + 1] / w[c]) ** t)
         gi, note = _gain_interval(plant, report, regulator, j)
         chans.append(ChannelMargins(plant.input_names[j], gi, note, pm, wc, per0[j], per1[j]))
-    notes = ("loop broken at the plant inputs, one channel at a time with the others closed; "
-             "multiloop disk margins are lower bounds (D-scaled upper bound of mu)",
+    notes = (("loop broken at the plant inputs, one channel at a time with the others closed; "
+             "multiloop disk margins are lower bounds (D-scaled upper bound of mu)"),
              f"frequency grid: {grid_points} log-spaced points from {w[0]:.3g} to {w[-1]:.4g} rad/s (Nyquist)")
     return MimoMargins(tuple(chans), mm0, mm1, w, float(np.max(np.linalg.norm(S, ord=2, axis=(1, 2)))), notes)

@@ -39,9 +39,22 @@ from dataclasses import dataclass, field
 import control
 import numpy as np
 
-from fields.analysis.core import (AXES, STEP_ANGLE_RAD, STEP_LENGTH_M, allocation_matrix, displace,
-                                  mass_matrix, stiffness_matrix)
-from fields.control.multiaxis.outputs import hall_parts, sensor_label, sensor_readings, sensor_scale, sensor_unit
+from fields.analysis.core import (
+    AXES,
+    STEP_ANGLE_RAD,
+    STEP_LENGTH_M,
+    allocation_matrix,
+    displace,
+    mass_matrix,
+    stiffness_matrix,
+)
+from fields.control.multiaxis.outputs import (
+    hall_parts,
+    sensor_label,
+    sensor_readings,
+    sensor_scale,
+    sensor_unit,
+)
 from fields.devices.coil import mutual_inductance_matrix, resistance_and_cooling, steady_temperature_C
 from fields.errors import GeometryError, SolverError
 from fields.input.tables import COPPER_ALPHA_20C_PER_K

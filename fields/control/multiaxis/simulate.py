@@ -135,7 +135,7 @@ def force_model(design: Design, plant: MultiaxisPlant, span_length_m: float = SP
     idx = [AXES.index(a) for a in free]
     span = np.array([span_length_m if a in ("x", "y", "z") else span_angle_rad for a in free])
     nf = _features(np.zeros((1, n))).shape[1]
-    m = int(math.ceil(samples_per_term * nf))
+    m = math.ceil(samples_per_term * nf)
     mv = max(20, m // 4)
     rng = np.random.default_rng(seed)
     # Latin hypercube in [-1, 1]^n, plus the box corners along each axis
@@ -155,7 +155,7 @@ def force_model(design: Design, plant: MultiaxisPlant, span_length_m: float = SP
     # columns that vanish by symmetry (e.g. the spin torque of an axisymmetric design) stay zero:
     # a fit of rounding noise would invent a torque
     k = len(design.coils)
-    groups = [list(range(0, 3)) + list(range(6, 6 + 3 * k)), list(range(3, 6)) + list(range(6 + 3 * k, 6 + 6 * k))]
+    groups = [list(range(3)) + list(range(6, 6 + 3 * k)), list(range(3, 6)) + list(range(6 + 3 * k, 6 + 6 * k))]
     for grp in groups:
         big = float(np.max(np.abs(Y[:, grp]))) if grp else 0.0
         for c in grp:
@@ -167,7 +167,7 @@ def force_model(design: Design, plant: MultiaxisPlant, span_length_m: float = SP
         big = float(np.max(np.abs(Y[:, cols]))) if len(cols) else 0.0
         return float(np.max(err[:, cols]) / big) if big > 0 else 0.0
 
-    relerr = {"force": rel(list(range(0, 3)) + list(range(6, 6 + 3 * k))),
+    relerr = {"force": rel(list(range(3)) + list(range(6, 6 + 3 * k))),
               "torque": rel(list(range(3, 6)) + list(range(6 + 3 * k, 6 + 6 * k)))}
     for s, (c0, w) in zip(design.sensors, spans):
         relerr[s.name] = rel(list(range(c0, c0 + w)))
@@ -318,9 +318,9 @@ def simulate_multiaxis(plant: MultiaxisPlant, report: StructureReport, regulator
         return dx
 
     lam = np.max(np.abs(np.linalg.eigvals(plant.A))) if plant.A.size else 1.0
-    sub = max(1, int(math.ceil(T * lam / 1.0)))
+    sub = max(1, math.ceil(T * lam / 1.0))
     h = T / sub
-    steps = int(round(t_end_s / T))
+    steps = round(t_end_s / T)
     x = np.concatenate([q0, np.zeros(n), I0 if drive != "current" else np.zeros(0)])
     Rg = regulator.ss
     xi = np.zeros(Rg.nstates)
@@ -363,7 +363,7 @@ def simulate_multiaxis(plant: MultiaxisPlant, report: StructureReport, regulator
         ys.append(y)
         xi = Rg.A @ xi + Rg.B @ ycomp + regulator.antiwindup @ (applied - u_cmd)
         for _ in range(sub):
-            x = _rk4(lambda z: deriv(z, cmd), x, h)
+            x = _rk4(lambda z, c=cmd: deriv(z, c), x, h)
         if drive == "current":
             i_held = cmd
         if not np.all(np.isfinite(x)):

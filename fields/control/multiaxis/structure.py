@@ -35,8 +35,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.linalg import eigh
 
-from fields.errors import SolverError
 from fields.control.multiaxis.plant import MultiaxisPlant, jsonable
+from fields.errors import SolverError
 
 #: relative PBH threshold (see the module docstring)
 PBH_TOLERANCE = 1e-6
