@@ -1,0 +1,423 @@
+"""Nonlinear closed-loop simulation of the floater in all its free axes.
+
+Force model
+    The force and torque bases ``F0, T0`` (zero current) and ``Fk, Tk`` (per ampere) of
+    :func:`fields.physics.forces.wrench_basis` are tabulated once at scattered poses inside a box
+    around the equilibrium (Latin hypercube, ``+-span`` on every free axis) and fitted by a
+    cubic polynomial in the pose deviations (least squares); so are the Hall sensors'
+    zero-current and per-ampere fields and the beam gates' blocked fractions (clipped to 0..1; a
+    beam narrower than the box is the least accurate column). The fit is checked
+    on further poses evaluated directly: :class:`ForceModel` reports the largest error of each
+    quantity relative to its largest value over the box. The wrench is exactly affine in the
+    currents (no cores, or unsaturated cores), so only the pose needs fitting.
+Rigid body
+    ``M q'' = W(q, i) - W(0, I0)`` on the free axes (the equilibrium balances gravity, so the
+    force change drives the motion); rotations are small rotations about world axes through the
+    centre of mass integrated as ``theta' = omega`` with the inertia tensor of the equilibrium
+    pose, gyroscopic terms neglected (small-angle model). Axes that are not free are held.
+Coils
+    ``L i' = V - R i - (dW/dI)^T q'`` with the back-EMF from the pose-dependent bases
+    (reciprocity), ``L`` constant (the plant's matrix), ``R`` the hot or cold resistance.
+    Voltage drive: ``V = clip(V0 + u, +-supply)``. Analog current loop: ``V = clip(R0 i_cmd +
+    Kc (i_cmd - i), +-supply)`` with ``i_cmd = clip(I0 + u, +-max current)``. Ideal current
+    drive: ``i = clip(I0 + u, +-max current)``.
+Digital controller
+    Sensors (Hall readings clipped at their range) are sampled every ``T``; the coil cross-talk
+    is subtracted with the measured currents; the regulator's output computed from samples up
+    to ``t_k`` is applied from ``t_{k+1}`` through a zero-order hold; the LQG predictor is fed
+    the applied (saturated) input. Between samples, fixed-step fourth-order Runge-Kutta.
+
+Index letters: ``t`` time samples, ``n`` free axes, ``k`` coils, ``s`` sensors, ``p`` poses.
+"""
+
+from __future__ import annotations
+
+import functools
+import itertools
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from fields.analysis.core import AXES, displace
+from fields.control.multiaxis.design import Regulator
+from fields.control.multiaxis.outputs import beam_fraction_at_poses, hall_parts
+from fields.control.multiaxis.plant import MultiaxisPlant, jsonable
+from fields.control.multiaxis.structure import StructureReport
+from fields.model.design import Design, HallSensor
+from fields.physics.forces import wrench_basis
+
+#: default box half-widths of the force model
+SPAN_LENGTH_M = 2e-3
+SPAN_ANGLE_RAD = math.radians(2.0)
+#: a fitted column whose data stay below this share of its group's largest value is zero
+SYMMETRY_ZERO = 1e-9
+
+
+@functools.lru_cache(maxsize=8)
+def _monomials(n: int) -> tuple[np.ndarray, ...]:
+    """Index arrays of the degree-1, 2 and 3 monomials of n variables."""
+    return tuple(np.array(list(itertools.combinations_with_replacement(range(n), d)), int).reshape(-1, d)
+                 for d in (1, 2, 3))
+
+
+def _features(X: np.ndarray) -> np.ndarray:
+    """Monomials up to degree 3 of the columns of X (p, n) -> (p, f)."""
+    p, n = X.shape
+    m1, m2, m3 = _monomials(n)
+    return np.concatenate([np.ones((p, 1)), X[:, m1[:, 0]], X[:, m2[:, 0]] * X[:, m2[:, 1]],
+                           X[:, m3[:, 0]] * X[:, m3[:, 1]] * X[:, m3[:, 2]]], axis=1)
+
+
+@dataclass(frozen=True, eq=False)
+class ForceModel:
+    """Cubic fits of the wrench bases and sensor fields over a pose box (module docstring).
+
+    Attributes
+    ----------
+    free_axes : tuple of str
+    span : ndarray, shape (n,)
+        Box half-widths (m or rad) per free axis.
+    coefficients : ndarray, shape (f, c)
+        Columns: F0 (3), T0 (3), Fk (3k), Tk (3k), then per sensor its zero-current value and
+        (Hall) its k per-ampere values, in the sensor's raw unit (T or blocked fraction).
+    relative_error : dict
+        Largest validation error / largest value, for "force", "torque", each sensor.
+    samples, validation_samples : int
+    """
+
+    free_axes: tuple[str, ...]
+    span: np.ndarray
+    coefficients: np.ndarray
+    relative_error: dict
+    samples: int
+    validation_samples: int
+    n_coils: int
+    sensor_columns: tuple[tuple[int, int], ...]
+
+    def evaluate(self, dq: np.ndarray) -> np.ndarray:
+        """Fitted columns (p, c) at pose deviations dq (p, n)."""
+        return _features(np.atleast_2d(dq) / self.span) @ self.coefficients
+
+    def wrench(self, dq: np.ndarray, currents_A: np.ndarray):
+        """Force (3,), torque (3,) and the bases Fk (k, 3), Tk (k, 3) at one pose deviation."""
+        v = self.evaluate(dq.reshape(1, -1))[0]
+        k = self.n_coils
+        Fk = v[6:6 + 3 * k].reshape(k, 3)
+        Tk = v[6 + 3 * k:6 + 6 * k].reshape(k, 3)
+        return v[0:3] + currents_A @ Fk, v[3:6] + currents_A @ Tk, Fk, Tk
+
+
+def _raw_columns(design: Design, P, Rv):
+    b = wrench_basis(design, P, Rv, estimate_error=False)
+    k = len(design.coils)
+    cols = [b.F0_N, b.T0_Nm, b.Fk_N_per_A.reshape(len(P), 3 * k), b.Tk_Nm_per_A.reshape(len(P), 3 * k)]
+    spans = []
+    c0 = 6 + 6 * k
+    for s in design.sensors:
+        if isinstance(s, HallSensor):
+            z, per_A = hall_parts(design, s, P, Rv)
+            cols += [z[:, None], per_A]
+            spans.append((c0, 1 + k))
+            c0 += 1 + k
+        else:
+            cols.append(beam_fraction_at_poses(design, s, P, Rv)[:, None])
+            spans.append((c0, 1))
+            c0 += 1
+    return np.concatenate(cols, axis=1), tuple(spans), bool(np.any(b.contact))
+
+
+def force_model(design: Design, plant: MultiaxisPlant, span_length_m: float = SPAN_LENGTH_M,
+                span_angle_rad: float = SPAN_ANGLE_RAD, samples_per_term: float = 3.0, seed: int = 0) -> ForceModel:
+    """Tabulate and fit the force engine and the sensors around the plant's equilibrium."""
+    free = plant.free_axes
+    n = len(free)
+    idx = [AXES.index(a) for a in free]
+    span = np.array([span_length_m if a in ("x", "y", "z") else span_angle_rad for a in free])
+    nf = _features(np.zeros((1, n))).shape[1]
+    m = math.ceil(samples_per_term * nf)
+    mv = max(20, m // 4)
+    rng = np.random.default_rng(seed)
+    # Latin hypercube in [-1, 1]^n, plus the box corners along each axis
+    u = (np.stack([rng.permutation(m) for _ in range(n)], axis=1) + rng.random((m, n))) / m * 2 - 1
+    u = np.vstack([u, np.eye(n), -np.eye(n), np.zeros((1, n))])
+    v = rng.uniform(-0.9, 0.9, (mv, n))
+    X = np.vstack([u, v]) * span
+    dq = np.zeros((len(X), 6))
+    dq[:, idx] = X
+    P, Rv = displace(design, plant.position_m, plant.rotvec_rad, dq)
+    Y, spans, contact = _raw_columns(design, P, Rv)
+    if contact:
+        raise ValueError(f"force_model: the pose box (+-{span_length_m * 1e3:g} mm, +-{math.degrees(span_angle_rad):g} deg) "
+                         "reaches contact with a body; choose a smaller span")
+    fit = len(u)
+    coef, *_ = np.linalg.lstsq(_features(X[:fit] / span), Y[:fit], rcond=None)
+    # columns that vanish by symmetry (e.g. the spin torque of an axisymmetric design) stay zero:
+    # a fit of rounding noise would invent a torque
+    k = len(design.coils)
+    groups = [list(range(3)) + list(range(6, 6 + 3 * k)), list(range(3, 6)) + list(range(6 + 3 * k, 6 + 6 * k))]
+    for grp in groups:
+        big = float(np.max(np.abs(Y[:, grp]))) if grp else 0.0
+        for c in grp:
+            if np.max(np.abs(Y[:, c])) <= SYMMETRY_ZERO * big:
+                coef[:, c] = 0.0
+    err = np.abs(_features(X[fit:] / span) @ coef - Y[fit:])
+
+    def rel(cols):
+        big = float(np.max(np.abs(Y[:, cols]))) if len(cols) else 0.0
+        return float(np.max(err[:, cols]) / big) if big > 0 else 0.0
+
+    relerr = {"force": rel(list(range(3)) + list(range(6, 6 + 3 * k))),
+              "torque": rel(list(range(3, 6)) + list(range(6 + 3 * k, 6 + 6 * k)))}
+    for s, (c0, w) in zip(design.sensors, spans):
+        relerr[s.name] = rel(list(range(c0, c0 + w)))
+    return ForceModel(free, span, coef, relerr, fit, len(v), k, spans)
+
+
+@dataclass(frozen=True, eq=False)
+class MultiaxisSimulation:
+    """A nonlinear closed-loop run.
+
+    Attributes
+    ----------
+    t_s : ndarray, shape (t,)
+        Sample instants.
+    q : ndarray, shape (t, n)
+        Pose deviations of the free axes (m, rad).
+    currents_A, voltages_V : ndarray, shape (t, k)
+    outputs : ndarray, shape (t, s)
+        Sensor outputs in their units (clipped at the range).
+    held : bool
+        Stayed inside the modelled box and the controlled modes decayed below ``settle_share``
+        of their start within the run.
+    converged_axes : dict
+        Per controlled axis (1 % or more of a controlled mode's kinetic energy): the deviation
+        over the last 5 % of the run is below ``settle_share`` of its largest value. Axes left
+        open are not judged (see ``max_deviation``).
+    final_deviation : ndarray, shape (n,)
+    max_deviation : ndarray, shape (n,)
+    saturated_share : float
+        Share of samples with any drive at its voltage or current limit.
+    peak_current_A : ndarray, shape (k,)
+    events : tuple of str
+    force_model_error : dict
+    """
+
+    t_s: np.ndarray
+    q: np.ndarray
+    currents_A: np.ndarray
+    voltages_V: np.ndarray
+    outputs: np.ndarray
+    held: bool
+    converged_axes: dict
+    final_deviation: np.ndarray
+    max_deviation: np.ndarray
+    saturated_share: float
+    peak_current_A: np.ndarray
+    events: tuple[str, ...] = field(default_factory=tuple)
+    force_model_error: dict = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        return jsonable({k: getattr(self, k) for k in self.__dataclass_fields__ if k not in ("q", "currents_A",
+                                                                                              "voltages_V", "outputs", "t_s")})
+
+    def rows(self, free_axes, coil_names) -> tuple[list[str], list[list]]:
+        """CSV-friendly time series: header and rows."""
+        from fields.control.multiaxis.plant import AXIS_UNITS
+
+        head = ["t_s"] + [f"{a}_{AXIS_UNITS[a][0]}" for a in free_axes] + [f"i_{c}_A" for c in coil_names] + \
+            [f"V_{c}_V" for c in coil_names]
+        return head, [[t, *q, *i, *v] for t, q, i, v in zip(self.t_s, self.q, self.currents_A, self.voltages_V)]
+
+
+def default_start(plant: MultiaxisPlant, report: StructureReport, regulator: Regulator | None = None,
+                  share: float = 0.3, headroom_share: float = 0.5, horizon_s: float = 0.5) -> np.ndarray:
+    """A start deviation (n,) inside what the drive can hold.
+
+    Each controlled unstable or neutral mode is displaced by ``share`` of its reference motion;
+    with a regulator, the whole start is then scaled so that the linear discrete closed loop from
+    it (over ``horizon_s``) needs at most ``headroom_share`` of the voltage or current headroom.
+    """
+    q0 = np.zeros(plant.n_axes)
+    for m in report.modes:
+        if m.name in report.controlled and m.kind in ("unstable", "neutral"):
+            q0 += share * m.reference_amplitude * m.shape
+    if regulator is None or regulator.dt <= 0 or not np.any(q0):
+        return q0
+    from fields.control.multiaxis.design import compensated_output, zoh
+
+    T = regulator.dt
+    Ad, Bd = zoh(plant.A, plant.B, T)
+    C, _ = compensated_output(plant)
+    n, k = plant.n_axes, plant.n_coils
+    x = np.zeros(plant.A.shape[0])
+    x[:n] = q0
+    xi = np.zeros(regulator.ss.nstates)
+    peak_u = np.zeros(k)
+    peak_i = np.zeros(k)
+    for _ in range(int(horizon_s / T)):
+        u = regulator.ss.C @ xi
+        peak_u = np.maximum(peak_u, np.abs(u))
+        if plant.drive != "current":
+            peak_i = np.maximum(peak_i, np.abs(x[2 * n:]))
+        else:
+            peak_i = np.maximum(peak_i, np.abs(u))
+        xi = regulator.ss.A @ xi + regulator.ss.B @ (C @ x)
+        x = Ad @ x + Bd @ u
+    hi = plant.max_current_A - np.abs(plant.bias_currents_A)
+    ratios = [float(np.max(peak_i / hi))]
+    if plant.drive == "voltage":
+        ratios.append(float(np.max(peak_u / (plant.supply_voltage_V - np.abs(plant.bias_voltages_V)))))
+    worst = max(ratios)
+    return q0 * min(1.0, headroom_share / worst) if worst > 0 else q0
+
+
+def simulate_multiaxis(plant: MultiaxisPlant, report: StructureReport, regulator: Regulator, model: ForceModel,
+                       design: Design, q0=None, t_end_s: float = 1.0, corner: str = "hot",
+                       settle_share: float = 0.02) -> MultiaxisSimulation:
+    """Run the digital regulator against the nonlinear floater (module docstring)."""
+    n, k = plant.n_axes, plant.n_coils
+    T = regulator.dt
+    if T <= 0:
+        raise ValueError("simulate_multiaxis: the regulator is not discrete (passive design: nothing to simulate)")
+    q0 = default_start(plant, report, regulator) if q0 is None else np.asarray(q0, float).reshape(n)
+    M = plant.mass_matrix
+    Minv = np.linalg.inv(M)
+    I0 = plant.bias_currents_A
+    R = plant.resistance_hot_ohm if corner == "hot" else plant.resistance_cold_ohm
+    R0 = plant.resistance_hot_ohm
+    L = plant.inductance_H
+    Linv = np.linalg.inv(L) if k else np.zeros((0, 0))
+    Kc = plant.current_loop_gain_V_per_A
+    Vs = plant.supply_voltage_V
+    imax = plant.max_current_A
+    F00, T00, _, _ = model.wrench(np.zeros(n), I0)
+    W0 = np.concatenate([F00, T00])
+    idx = [AXES.index(a) for a in plant.free_axes]
+    drive = plant.drive
+
+    def wrench_free(q, i):
+        F, Tq, Fk, Tk = model.wrench(q, i)
+        W = np.concatenate([F, Tq]) - W0
+        G = np.concatenate([Fk, Tk], axis=1)  # (k, 6)
+        return W[idx], G[:, idx]
+
+    def deriv(x, cmd):
+        q, v = x[:n], x[n:2 * n]
+        i = x[2 * n:] if drive != "current" else cmd
+        W, G = wrench_free(q, i)
+        dx = np.empty_like(x)
+        dx[:n] = v
+        dx[n:2 * n] = Minv @ W
+        if drive == "voltage":
+            V = cmd
+            dx[2 * n:] = Linv @ (V - R * i - G @ v)
+        elif drive == "current_loop":
+            V = np.clip(R0 * cmd + Kc * (cmd - i), -Vs, Vs)
+            dx[2 * n:] = Linv @ (V - R * i - G @ v)
+        return dx
+
+    lam = np.max(np.abs(np.linalg.eigvals(plant.A))) if plant.A.size else 1.0
+    sub = max(1, math.ceil(T * lam / 1.0))
+    h = T / sub
+    steps = round(t_end_s / T)
+    x = np.concatenate([q0, np.zeros(n), I0 if drive != "current" else np.zeros(0)])
+    Rg = regulator.ss
+    xi = np.zeros(Rg.nstates)
+    Di = plant.sensor_current_matrix
+    # the reference reading is the model's own at the equilibrium, so that the fit's small
+    # offset does not become a position offset
+    y0 = _sensor_outputs(model, np.zeros(n), I0, design)
+    comp0 = Di @ I0
+    ts, qs, cs, vs, ys = [], [], [], [], []
+    events = []
+    sat = 0
+    lost = False
+    i_held = I0.copy()  # ideal current drive: the current applied over the last interval
+    for step in range(steps + 1):
+        q = x[:n]
+        i_now = x[2 * n:] if drive != "current" else i_held
+        if np.any(np.abs(q) > model.span * (1 + 1e-9)):
+            events.append(f"t = {step * T:.4g} s: the floater left the modelled box (+-span) on "
+                          f"{', '.join(a for a, d, s in zip(plant.free_axes, q, model.span) if abs(d) > s)}: lost")
+            lost = True
+            break
+        y = _sensor_outputs(model, q, np.asarray(i_now, float), design)
+        u_cmd = Rg.C @ xi
+        if drive == "voltage":
+            V = np.clip(plant.bias_voltages_V + u_cmd, -Vs, Vs)
+            applied = V - plant.bias_voltages_V
+            cmd = V
+            hit = np.any(np.abs(V) >= Vs * (1 - 1e-12))
+        else:
+            ic = np.clip(I0 + u_cmd, -imax, imax)
+            applied = ic - I0
+            cmd = ic
+            hit = np.any(np.abs(ic) >= imax * (1 - 1e-12))
+        sat += int(hit)
+        ycomp = (y - Di @ np.asarray(i_now, float)) - (y0 - comp0)
+        ts.append(step * T)
+        qs.append(q.copy())
+        cs.append(np.asarray(i_now, float).copy())
+        vs.append(cmd.copy() if drive == "voltage" else np.full(k, np.nan))
+        ys.append(y)
+        xi = Rg.A @ xi + Rg.B @ ycomp + regulator.antiwindup @ (applied - u_cmd)
+        for _ in range(sub):
+            x = _rk4(lambda z, c=cmd: deriv(z, c), x, h)
+        if drive == "current":
+            i_held = cmd
+        if not np.all(np.isfinite(x)):
+            events.append(f"t = {step * T:.4g} s: the state became non-finite: lost")
+            lost = True
+            break
+    q_t = np.array(qs).reshape(-1, n)
+    cur = np.array(cs).reshape(-1, k)
+    tail = max(1, int(0.05 * len(q_t)))
+    final = np.max(np.abs(q_t[-tail:]), axis=0)
+    # controlled axes: at least 1 % of the kinetic energy of a controlled unstable or neutral mode
+    ctrl = [m for m in report.modes if m.name in report.controlled and m.kind in ("unstable", "neutral")]
+    conv = {}
+    for j, a in enumerate(plant.free_axes):
+        if any(m.shares[a] >= 0.01 for m in ctrl):
+            conv[a] = bool(final[j] <= settle_share * max(abs(q0[j]), np.max(np.abs(q_t[:, j]))))
+    eta_start = _controlled_coordinates(plant, report, q0)
+    eta_end = np.max(np.abs(np.array([_controlled_coordinates(plant, report, qq) for qq in q_t[-tail:]])), axis=0)
+    held = (not lost) and bool(np.all(eta_end <= settle_share * np.maximum(np.abs(eta_start), 1e-300))) \
+        and all(conv.values())
+    if sat:
+        events.append(f"a drive was at its limit in {sat} of {len(ts)} samples")
+    return MultiaxisSimulation(np.array(ts), q_t, cur, np.array(vs).reshape(-1, k), np.array(ys).reshape(len(ts), -1),
+                               held, conv, final, np.max(np.abs(q_t), axis=0), sat / max(len(ts), 1),
+                               np.max(np.abs(cur), axis=0) if len(cur) else np.zeros(k), tuple(events),
+                               dict(model.relative_error))
+
+
+def _controlled_coordinates(plant: MultiaxisPlant, report: StructureReport, q: np.ndarray) -> np.ndarray:
+    names = [m for m in report.controlled if report.mode(m).kind in ("unstable", "neutral")]
+    if not names:
+        return np.zeros(0)
+    Phi = np.array([report.mode(nm).shape for nm in names])
+    return Phi @ plant.mass_matrix @ q
+
+
+def _sensor_outputs(model: ForceModel, q, i, design: Design) -> np.ndarray:
+    """Sensor outputs from the fit (Hall clipped at its range, blocked fraction at 0..1)."""
+    v = model.evaluate(q.reshape(1, -1))[0]
+    out = []
+    for s, (c0, w) in zip(design.sensors, model.sensor_columns):
+        if isinstance(s, HallSensor):
+            B = v[c0] + (v[c0 + 1:c0 + w] @ i if w > 1 else 0.0)
+            B = float(np.clip(B, -s.range_T, s.range_T))
+            out.append(B * s.sensitivity_V_per_T if s.sensitivity_V_per_T else B)
+        else:
+            f = float(np.clip(v[c0], 0.0, 1.0))
+            out.append(s.output_span_V * (1 - f) if s.output_span_V else f)
+    return np.array(out)
+
+
+def _rk4(f, x, h):
+    k1 = f(x)
+    k2 = f(x + 0.5 * h * k1)
+    k3 = f(x + 0.5 * h * k2)
+    k4 = f(x + h * k3)
+    return x + h / 6 * (k1 + 2 * k2 + 2 * k3 + k4)
