@@ -15,9 +15,9 @@ import numpy as np
 import pytest
 from helpers import REPULSIVE, ROOT, SUSPENSION
 
-from fields.analysis import core as analysis
+from fields import analysis
 from fields.control import multiaxis as mx
-from fields.devices.coil import resistance_and_cooling, steady_temperature_C
+from fields.devices.winding import resistance_and_cooling, steady_temperature_C
 from fields.input.geometry import load
 from fields.input.tables import COPPER_ALPHA_20C_PER_K
 from fields.model.design import HallSensor

@@ -20,10 +20,10 @@ import dataclasses
 
 import numpy as np
 
-from fields.devices.sensors import beam_blocked_fraction
+from fields.devices.beam import beam_blocked_fraction
 from fields.errors import GeometryError
 from fields.model.design import BeamGate, Design, HallSensor
-from fields.physics.sources import fixed_field_basis, floater_field_T
+from fields.physics.field_basis import fixed_field_basis, floater_field_T
 
 
 def sensor_unit(sensor) -> str:

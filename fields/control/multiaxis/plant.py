@@ -10,9 +10,9 @@ Model (n free axes, k coils, s sensors; SI; deviations from the equilibrium)::
     y     = Cq q + Di i                      sensors
 
 - ``M``: mass on the translations, the inertia tensor about the centre of mass on the rotations
-  (:func:`fields.analysis.core.mass_matrix`); ``K = -d(F, T)/dq`` at the bias currents
-  (:func:`fields.analysis.core.stiffness_matrix`); ``G = d(F, T)/dI`` at the pose
-  (:func:`fields.analysis.core.allocation_matrix`), rows of the free axes.
+  (:func:`fields.analysis.mass_matrix`); ``K = -d(F, T)/dq`` at the bias currents
+  (:func:`fields.analysis.stiffness_matrix`); ``G = d(F, T)/dI`` at the pose
+  (:func:`fields.analysis.allocation_matrix`), rows of the free axes.
 - Back-EMF by reciprocity: with the co-energy ``W'(q, I)``, ``F = dW'/dq`` and the flux linkage
   ``lambda = dW'/dI``, so ``d lambda_k / d q_j = dF_j / dI_k = G[j, k]`` and the motional EMF is
   ``G^T q'`` (Woodson & Melcher, Electromechanical Dynamics, Part I, 1968, ch. 3). It contains the
@@ -39,7 +39,7 @@ from dataclasses import dataclass, field
 import control
 import numpy as np
 
-from fields.analysis.core import (
+from fields.analysis import (
     AXES,
     STEP_ANGLE_RAD,
     STEP_LENGTH_M,
@@ -55,11 +55,12 @@ from fields.control.multiaxis.outputs import (
     sensor_scale,
     sensor_unit,
 )
-from fields.devices.coil import mutual_inductance_matrix, resistance_and_cooling, steady_temperature_C
+from fields.devices.inductance import mutual_inductance_matrix
+from fields.devices.winding import resistance_and_cooling, steady_temperature_C
 from fields.errors import GeometryError, SolverError
 from fields.input.tables import COPPER_ALPHA_20C_PER_K
 from fields.model.design import Design, HallSensor
-from fields.physics.forces import wrench_basis
+from fields.physics.wrench import wrench_basis
 
 DRIVES = ("voltage", "current_loop", "current")
 
@@ -392,8 +393,8 @@ def multiaxis_plant(design: Design, equilibrium, drive: str = "voltage",
     Parameters
     ----------
     design : Design
-    equilibrium : fields.analysis.core.Equilibrium
-        Pose and bias currents (e.g. from :func:`fields.analysis.core.find_equilibrium`).
+    equilibrium : fields.analysis.Equilibrium
+        Pose and bias currents (e.g. from :func:`fields.analysis.find_equilibrium`).
     drive : {"voltage", "current_loop", "current"}
         Coil voltages as inputs, current commands to per-coil analog current loops, or ideal
         current sources.
@@ -402,7 +403,7 @@ def multiaxis_plant(design: Design, equilibrium, drive: str = "voltage",
     control_rms_current_A : float or array_like, shape (k,)
         Expected r.m.s. control current per coil, added to the bias for the hot resistance.
     inductance_H : array_like, shape (k, k), optional
-        A precomputed inductance matrix (default :func:`fields.devices.coil.mutual_inductance_matrix`).
+        A precomputed inductance matrix (default :func:`fields.devices.inductance.mutual_inductance_matrix`).
     free_axes : tuple of str, optional
         Default the study's free axes.
 

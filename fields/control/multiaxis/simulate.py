@@ -39,13 +39,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from fields.analysis.core import AXES, displace
+from fields.analysis import AXES, displace
 from fields.control.multiaxis.design import Regulator
 from fields.control.multiaxis.outputs import beam_fraction_at_poses, hall_parts
 from fields.control.multiaxis.plant import MultiaxisPlant, jsonable
 from fields.control.multiaxis.structure import StructureReport
 from fields.model.design import Design, HallSensor
-from fields.physics.forces import wrench_basis
+from fields.physics.wrench import wrench_basis
 
 #: default box half-widths of the force model
 SPAN_LENGTH_M = 2e-3

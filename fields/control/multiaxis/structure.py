@@ -240,8 +240,8 @@ def _reference_amplitude(phi, dom_index, free):
 
 def _hall_suggestion(design, plant: MultiaxisPlant, phi: np.ndarray, eta_ref: float) -> SensorSuggestion | None:
     """Best Hall axis among candidate points for seeing a mode (finite differences along phi)."""
-    from fields.analysis.core import AXES, displace
-    from fields.physics.sources import fixed_field_basis, floater_field_T
+    from fields.analysis import AXES, displace
+    from fields.physics.field_basis import fixed_field_basis, floater_field_T
 
     cands = [np.asarray(s.position_m, float) for s in design.sensors if getattr(s, "kind", "") == "hall"]
     up = design.up
