@@ -96,7 +96,7 @@ def _core_mesh(design: Design, level: dict) -> tuple[RingMesh, np.ndarray]:
         zc = float(c.position_m[2])
         nr = int(level["nr"])
         r = graded_nodes(ri, ro, nr, level["grade"], "hi" if ri == 0.0 else "both")
-        nz = max(2, int(np.ceil(nr * h / (ro - ri) * level["aspect"])))
+        nz = max(1, int(np.ceil(nr * h / (ro - ri) * level["aspect"])))
         z = graded_nodes(zc - h / 2, zc + h / 2, nz, level["grade"], "both")
         V, C = rectangle_cells(r, z, off)
         verts.append(V)
@@ -115,7 +115,8 @@ class IronModel:
 
     Attributes
     ----------
-    design : Design
+    design : Design or None
+        None for a bare mesh model (:func:`cell_model`).
     level : str
     axis_xy_m : ndarray, shape (2,)
         The cores' common axis.
@@ -404,38 +405,76 @@ def _coaxial_sheets(design: Design, axis_xy, layers: int):
     return coils, mags
 
 
-def build_iron_model(design: Design, level: str = "coarse", curves=None) -> IronModel:
-    """Build and factor the cell system of a design's cores (use :func:`iron_model` for the cache).
+def cell_model(mesh: RingMesh, curves, cell_curve=None, axis_xy_m=(0.0, 0.0), settings=None,
+               design: Design | None = None, level: str = "custom") -> IronModel:
+    """Build and factor the cell system of a ring mesh (no sources attached).
 
     Parameters
     ----------
-    design : Design
-        Its cores must be cylinders or rings on one axis parallel to z.
-    level : str
-        Key of :data:`LEVELS`.
-    curves : sequence, optional
-        One B-H curve per core (:mod:`fields.physics.bh`); default: the Frohlich-Kennelly curve
-        of each core's ``relative_permeability`` and ``saturation_polarization_T``.
-    """
-    from fields.physics.sources import coil_field_per_ampere_T, magnet_field_T
+    mesh : RingMesh
+        c cells (:func:`fields.physics.iron_rings.ring_mesh`).
+    curves : sequence
+        B-H curves (:mod:`fields.physics.bh`), indexed by ``cell_curve``.
+    cell_curve : array_like of int, shape (c,), optional
+        Curve of each cell (default: ``mesh.body``).
+    axis_xy_m : array_like, shape (2,)
+        World position of the symmetry axis (parallel to z).
+    settings : dict, optional
+        ``face_points`` (Gauss points per face for flux integrals) and ``layers`` (coil layers);
+        default: the ``"fine"`` level's.
 
-    if level not in LEVELS:
-        raise GeometryError("iron_model", "level", f"one of {', '.join(LEVELS)}", level)
-    st = dict(LEVELS[level])
-    axis_xy = _axis_of_cores(design)
-    curves = _curves(design, curves)
-    mesh, body = _core_mesh(design, st)
+    Returns
+    -------
+    IronModel
+        With zero coil and magnet right-hand sides; use :meth:`IronModel.rhs_field` or
+        :meth:`IronModel.rhs_sheets` for sources.
+    """
+    st = dict(LEVELS["fine"]) if settings is None else dict(settings)
+    curves = tuple(curves)
+    body = np.asarray(mesh.body if cell_curve is None else cell_curve, dtype=int)
     L = edge_inductance_matrix(mesh.edges)
     C = mesh.incidence
     V2 = np.repeat(mesh.volume_m3, 2)
     D = np.diag(V2) - C.T @ L @ C / mu_0
     D = 0.5 * (D + D.T)
     chi = np.repeat(np.array([float(c.initial_susceptibility) for c in curves])[body], 2)
-    A = D + np.diag(V2 / chi)
-    factor = linalg.cho_factor(A, lower=False)
-    model = IronModel(design, level, axis_xy, mesh, curves, body, D, factor, np.zeros((0, 2 * body.size)),
-                      np.zeros(2 * body.size), np.zeros((0, 2 * body.size)), np.zeros(2 * body.size),
-                      np.zeros((0, mesh.edges.start_m.shape[0])), st)
+    factor = linalg.cho_factor(D + np.diag(V2 / chi), lower=False)
+    n = 2 * body.size
+    return IronModel(design, level, np.asarray(axis_xy_m, dtype=float), mesh, curves, body, D, factor,
+                     np.zeros((0, n)), np.zeros(n), np.zeros((0, n)), np.zeros(n),
+                     np.zeros((0, mesh.edges.start_m.shape[0])), st)
+
+
+def build_iron_model(design: Design, level="coarse", curves=None) -> IronModel:
+    """Build and factor the cell system of a design's cores (use :func:`iron_model` for the cache).
+
+    Parameters
+    ----------
+    design : Design
+        Its cores must be cylinders or rings on one axis parallel to z.
+    level : str or dict
+        Key of :data:`LEVELS`, or a dict with the same keys.
+    curves : sequence, optional
+        One B-H curve per core (:mod:`fields.physics.bh`); default: the Frohlich-Kennelly curve
+        of each core's ``relative_permeability`` and ``saturation_polarization_T``.
+    """
+    from fields.physics.sources import coil_field_per_ampere_T, magnet_field_T
+
+    if isinstance(level, dict):
+        st, name = dict(level), "custom"
+        missing = {"nr", "aspect", "grade", "face_points", "layers"} - set(st)
+        if missing:
+            raise GeometryError("iron_model", "level", "a dict with nr, aspect, grade, face_points, layers",
+                                sorted(missing))
+    elif level in LEVELS:
+        st, name = dict(LEVELS[level]), level
+    else:
+        raise GeometryError("iron_model", "level", f"one of {', '.join(LEVELS)}", level)
+    axis_xy = _axis_of_cores(design)
+    curves = _curves(design, curves)
+    mesh, body = _core_mesh(design, st)
+    model = cell_model(mesh, curves, body, axis_xy, st, design, name)
+    C = mesh.incidence
     coil_sheets, mag_sheets = _coaxial_sheets(design, axis_xy, st["layers"])
     k = len(design.coils)
     b_coils = np.zeros((k, 2 * body.size))
@@ -455,8 +494,8 @@ def build_iron_model(design: Design, level: str = "coarse", curves=None) -> Iron
             b_mag = model.rhs_sheets(mag_sheets)
         else:
             b_mag = model.rhs_field(lambda q: sum(magnet_field_T(m, q) for m in design.magnets)[None])[0]
-    Jc = linalg.cho_solve(factor, b_coils.T).T if k else np.zeros((0, 2 * body.size))
-    Jm = linalg.cho_solve(factor, b_mag)
+    Jc = model.solve_linear(b_coils) if k else np.zeros((0, 2 * body.size))
+    Jm = model.solve_linear(b_mag)
     return replace(model, b_coils=b_coils, b_magnets=b_mag, J_coils_T_per_A=Jc, J_magnets_T=Jm,
                    coil_face_flux=face_flux)
 

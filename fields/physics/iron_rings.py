@@ -45,9 +45,14 @@ NEAR_RATIO = 1.0
 #: pairs closer than this times the longer edge (and not near) use MID_ORDER, farther FAR_ORDER
 MID_RATIO = 3.0
 #: Gauss orders: near pairs (transformed rule), mid and far pairs (plain tensor rule)
-NEAR_ORDER = 12
+NEAR_ORDER = 16
 MID_ORDER = 6
 FAR_ORDER = 3
+#: near pairs longer than this times their smallest radius are halved (at most MAX_SPLITS times)
+SPLIT_RATIO = 1.0
+MAX_SPLITS = 8
+#: ... but not below this fraction of the mesh's largest radius
+SPLIT_FLOOR = 0.02
 #: below this parameter m = k^2 Maxwell's formula is summed as its hypergeometric series
 SERIES_M = 0.05
 
@@ -176,9 +181,8 @@ def _point_segment_distance(p, a, b):
     return np.linalg.norm(p - (a + t[..., None] * ab), axis=-1)
 
 
-def _pair_distance(e: Edges, i: np.ndarray, j: np.ndarray) -> np.ndarray:
-    """Distance (p,) between edges i and j (segments that do not cross)."""
-    s0, s1, t0, t1 = e.start_m[i], e.end_m[i], e.start_m[j], e.end_m[j]
+def _pair_distance(s0, s1, t0, t1) -> np.ndarray:
+    """Distance (p,) between segments s0-s1 and t0-t1 (p, 2) that do not cross."""
     return np.minimum(np.minimum(_point_segment_distance(s0, t0, t1), _point_segment_distance(s1, t0, t1)),
                       np.minimum(_point_segment_distance(t0, s0, s1), _point_segment_distance(t1, s0, s1)))
 
@@ -207,51 +211,122 @@ def _log_moment(x, q0, tau, ell) -> np.ndarray:
     return F(ell - u) - F(-u)
 
 
-def _tensor_pairs(e: Edges, i, j, ts, ws, tt, wt, regular: bool) -> np.ndarray:
-    """sum_ab ws_a wt_b K(s_a, t_b) * ell_i * ell_j for pairs (i, j), K = M or its regular part."""
-    ps = e.start_m[i][:, None, :] + ts[None, :, None] * (e.end_m[i] - e.start_m[i])[:, None, :]
-    pt = e.start_m[j][:, None, :] + tt[None, :, None] * (e.end_m[j] - e.start_m[j])[:, None, :]
-    a = np.broadcast_to(ps[:, :, None, 0], (i.size, ts.size, tt.size))
-    b = np.broadcast_to(pt[:, None, :, 0], a.shape)
-    d = ps[:, :, None, 1] - pt[:, None, :, 1]
-    K = (_loop_mutual_regular_H if regular else loop_mutual_H)(a.ravel(), b.ravel(), d.ravel()).reshape(a.shape)
-    return np.einsum("pab,a,b->p", K, ws, wt) * e.length_m[i] * e.length_m[j]
+def _along(p0, p1, t):
+    """Points (p, n, 2) at fractions t (n,) of segments p0-p1 (p, 2)."""
+    return p0[:, None, :] + t[None, :, None] * (p1 - p0)[:, None, :]
 
 
-def _near_pairs(e: Edges, i, j) -> np.ndarray:
-    """L for near, non-identical pairs: log part (inner closed form) plus regular part (tensor rule)."""
+def _tensor_pairs(s0, s1, t0, t1, ts, ws, regular: bool) -> np.ndarray:
+    """Tensor rule ``sum_ab w_a w_b K(s_a, t_b) ell_s ell_t``, K = M or its regular part."""
+    ps, pt = _along(s0, s1, ts), _along(t0, t1, ts)
+    shape = (s0.shape[0], ts.size, ts.size)
+    a = np.broadcast_to(ps[:, :, None, 0], shape).ravel()
+    b = np.broadcast_to(pt[:, None, :, 0], shape).ravel()
+    d = (ps[:, :, None, 1] - pt[:, None, :, 1]).ravel()
+    K = (_loop_mutual_regular_H(a, b, d) if regular else loop_mutual_H(a, b, d)).reshape(shape)
+    ls, lt = np.linalg.norm(s1 - s0, axis=1), np.linalg.norm(t1 - t0, axis=1)
+    return np.einsum("pab,a,b->p", K, ws, ws) * ls * lt
+
+
+def _near_pairs(s0, s1, t0, t1) -> np.ndarray:
+    """L of near, distinct segments: the log part with the inner integral in closed form and the
+    outer by the transformed rule, the regular part by the transformed tensor rule."""
     ts, ws = _sidi01(NEAR_ORDER)
-    reg = _tensor_pairs(e, i, j, ts, ws, ts, ws, regular=True)
-    ps = e.start_m[i][:, None, :] + ts[None, :, None] * (e.end_m[i] - e.start_m[i])[:, None, :]
-    g = _log_moment(ps, e.start_m[j][:, None, :], e.tangent[j][:, None, :], e.length_m[j][:, None])
-    return reg - mu_0 * (g @ ws) * e.length_m[i]
+    reg = _tensor_pairs(s0, s1, t0, t1, ts, ws, regular=True)
+    lt = np.linalg.norm(t1 - t0, axis=1)
+    ls = np.linalg.norm(s1 - s0, axis=1)
+    g = _log_moment(_along(s0, s1, ts), t0[:, None, :], ((t1 - t0) / lt[:, None])[:, None, :], lt[:, None])
+    return reg - mu_0 * (g @ ws) * ls
 
 
-def _self_pairs(e: Edges, i) -> np.ndarray:
-    """L of an edge with itself: regular part in u = s - t (singular line on the rule's end), log part
-    with the inner integral in closed form."""
-    ell = e.length_m[i]
-    tau = e.tangent[i]
+def _self_pairs(q0, q1) -> np.ndarray:
+    """L of a segment with itself: regular part in u = s - t (the singular line on the rule's end),
+    log part with the inner integral in closed form."""
+    ell = np.linalg.norm(q1 - q0, axis=1)
+    tau = (q1 - q0) / ell[:, None]
     tu, wu = _sidi01(NEAR_ORDER)
     tv, wv = _gauss01(NEAR_ORDER)
     # s = u + t, t in [0, ell - u]: both orderings give the same value (symmetric kernel), factor 2
     U = tu[None, :, None] * ell[:, None, None]  # (p, a, 1)
     T = tv[None, None, :] * (ell[:, None, None] - U)  # (p, a, b)
     S = T + U
-    q0 = e.start_m[i]
     pS = q0[:, None, None, :] + S[..., None] * tau[:, None, None, :]
     pT = q0[:, None, None, :] + T[..., None] * tau[:, None, None, :]
     dU = np.broadcast_to(U, S.shape).ravel()  # exact loop distance (the radii's difference loses digits)
     K = _loop_mutual_regular_H(pS[..., 0].ravel(), pT[..., 0].ravel(), (pS[..., 1] - pT[..., 1]).ravel(),
                                dU).reshape(S.shape)
     reg = 2.0 * np.einsum("pab,a,b,pa->p", K, wu, wv, ell[:, None] - U[:, :, 0]) * ell
-    ps = q0[:, None, :] + (tu[None, :] * ell[:, None])[..., None] * tau[:, None, :]
-    g = _log_moment(ps, q0[:, None, :], tau[:, None, :], ell[:, None])
+    g = _log_moment(_along(q0, q1, tu), q0[:, None, :], tau[:, None, :], ell[:, None])
     return reg - mu_0 * (g @ wu) * ell
 
 
+def _pair_values(s0, s1, t0, t1, same, r_floor: float, allow_split: bool = True) -> tuple[np.ndarray, np.ndarray]:
+    """Values (p,) of the pairs that need no split, and a mask (p,) of those that do.
+
+    A near or identical pair is split when a segment is longer than ``SPLIT_RATIO`` times the
+    smallest radius on the pair (or than their distance, or ``r_floor``): the logarithm describes
+    ``M`` only on scales below the loops' radius, so near the axis the pair is cut down to that
+    scale; below ``r_floor`` (a small fraction of the largest radius) ``M ~ r^4`` is negligible.
+    """
+    ls, lt = np.linalg.norm(s1 - s0, axis=1), np.linalg.norm(t1 - t0, axis=1)
+    lmax = np.maximum(ls, lt)
+    dist = np.where(same, 0.0, _pair_distance(s0, s1, t0, t1))
+    rmin = np.minimum(np.minimum(s0[:, 0], s1[:, 0]), np.minimum(t0[:, 0], t1[:, 0]))
+    close = same | (dist < NEAR_RATIO * lmax)
+    split = close & (lmax > SPLIT_RATIO * np.maximum(np.maximum(rmin, dist), r_floor)) & allow_split
+    out = np.zeros(s0.shape[0])
+    m = ~split & same
+    if np.any(m):
+        out[m] = _self_pairs(s0[m], s1[m])
+    m = ~split & close & ~same
+    if np.any(m):
+        out[m] = _near_pairs(s0[m], s1[m], t0[m], t1[m])
+    mid = ~close & (dist < MID_RATIO * lmax)
+    for mask, order in ((mid, MID_ORDER), (~close & ~mid, FAR_ORDER)):
+        if np.any(mask):
+            t, w = _gauss01(order)
+            out[mask] = _tensor_pairs(s0[mask], s1[mask], t0[mask], t1[mask], t, w, regular=False)
+    return out, split
+
+
+def _split_pairs(s0, s1, t0, t1, same, idx, wt):
+    """Children of split pairs: halves of both segments (a self pair gives two self pairs and its
+    cross pair twice)."""
+    sm, tm = 0.5 * (s0 + s1), 0.5 * (t0 + t1)
+    S0, S1, T0, T1, SAME, IDX, WT = [], [], [], [], [], [], []
+    for a0, a1 in ((s0, sm), (sm, s1)):
+        for b0, b1 in ((t0, tm), (tm, t1)):
+            S0.append(a0)
+            S1.append(a1)
+            T0.append(b0)
+            T1.append(b1)
+            IDX.append(idx)
+            WT.append(wt)
+            SAME.append(np.zeros(idx.size, dtype=bool))
+    # for identical segments the two diagonal children are self pairs
+    SAME[0] = same.copy()
+    SAME[3] = same.copy()
+    cat = [np.concatenate(x) for x in (S0, S1, T0, T1, SAME, IDX, WT)]
+    return cat
+
+
+def _pairs_L(s0, s1, t0, t1, same, r_floor: float) -> np.ndarray:
+    """``int_S int_T M dl dl`` (p,) for segment pairs, splitting near pairs adaptively."""
+    total = np.zeros(s0.shape[0])
+    idx = np.arange(s0.shape[0])
+    wt = np.ones(s0.shape[0])
+    for depth in range(MAX_SPLITS + 1):
+        val, split = _pair_values(s0, s1, t0, t1, same, r_floor, allow_split=depth < MAX_SPLITS)
+        np.add.at(total, idx[~split], (wt * val)[~split])
+        if not np.any(split):
+            break
+        s0, s1, t0, t1, same, idx, wt = _split_pairs(s0[split], s1[split], t0[split], t1[split], same[split],
+                                                     idx[split], wt[split])
+    return total
+
+
 def edge_inductance_matrix(edges: Edges) -> np.ndarray:
-    """``L_ef = int_e int_f M dl dl`` (H m^2) for all pairs of edges: symmetric (e, e).
+    """``L_ef = int_e int_f M dl dl`` for all pairs of edges: symmetric (e, e).
 
     Notes
     -----
@@ -264,24 +339,11 @@ def edge_inductance_matrix(edges: Edges) -> np.ndarray:
         raise GeometryError("edge_inductance_matrix", "edge lengths", "positive", float(edges.length_m.min()))
     iu, ju = np.triu_indices(n)
     L = np.empty(iu.size)
+    r_floor = SPLIT_FLOOR * float(max(edges.start_m[:, 0].max(), edges.end_m[:, 0].max()))
     for s in range(0, iu.size, PAIR_CHUNK):
         i, j = iu[s:s + PAIR_CHUNK], ju[s:s + PAIR_CHUNK]
-        out = np.empty(i.size)
-        same = i == j
-        dist = _pair_distance(edges, i, j)
-        lmax = np.maximum(edges.length_m[i], edges.length_m[j])
-        near = ~same & (dist < NEAR_RATIO * lmax)
-        mid = ~same & ~near & (dist < MID_RATIO * lmax)
-        far = ~same & ~near & ~mid
-        if np.any(same):
-            out[same] = _self_pairs(edges, i[same])
-        if np.any(near):
-            out[near] = _near_pairs(edges, i[near], j[near])
-        for mask, order in ((mid, MID_ORDER), (far, FAR_ORDER)):
-            if np.any(mask):
-                t, w = _gauss01(order)
-                out[mask] = _tensor_pairs(edges, i[mask], j[mask], t, w, t, w, regular=False)
-        L[s:s + PAIR_CHUNK] = out
+        L[s:s + PAIR_CHUNK] = _pairs_L(edges.start_m[i], edges.end_m[i], edges.start_m[j], edges.end_m[j], i == j,
+                                       r_floor)
     M = np.empty((n, n))
     M[iu, ju] = L
     M[ju, iu] = L
@@ -420,4 +482,40 @@ def rectangle_cells(r_nodes, z_nodes, vertex_offset: int = 0) -> tuple[np.ndarra
     i, j = np.meshgrid(np.arange(r.size - 1), np.arange(z.size - 1), indexing="ij")
     v00 = (i * nz1 + j).ravel()
     cells = np.stack((v00, v00 + nz1, v00 + nz1 + 1, v00 + 1), axis=1) + vertex_offset
+    return V, cells
+
+
+def sphere_cells(radius_m: float, radial: int, polar: int, centre_z_m: float = 0.0,
+                 volume_matched: bool = True) -> tuple[np.ndarray, np.ndarray]:
+    """Vertices (v, 2) and counter-clockwise cells (c, 4) of a ball's half-disc cross-section.
+
+    Cells lie between ``radial`` uniform shells and ``polar`` uniform polar angles; the innermost
+    are triangles. The boundary is the polygon through the nodes on the sphere; with
+    ``volume_matched`` all radii are scaled so that the polygon's body of revolution has the
+    ball's volume (Pappus's centroid theorem).
+    """
+    rho = radius_m * np.arange(1, radial + 1) / radial
+    th = np.pi * np.arange(polar + 1) / polar
+    R, T = np.meshgrid(rho, th, indexing="ij")
+    V = np.concatenate(([[0.0, 0.0]], np.stack((R.ravel() * np.sin(T.ravel()), R.ravel() * np.cos(T.ravel())), axis=1)))
+    V[:, 0] = np.abs(V[:, 0])
+    V[np.abs(V[:, 0]) < 1e-15 * radius_m, 0] = 0.0
+
+    def vid(i, j):  # shell i >= 1, angle j
+        return 1 + (i - 1) * (polar + 1) + j
+
+    cells = []
+    for j in range(polar):
+        cells.append([0, vid(1, j + 1), vid(1, j), vid(1, j)])
+        for i in range(1, radial):
+            cells.append([vid(i, j + 1), vid(i + 1, j + 1), vid(i + 1, j), vid(i, j)])
+    cells = np.array(cells)
+    area, cen = _cell_area_centroid(V[cells])
+    flip = area < 0.0
+    cells[flip] = cells[flip][:, ::-1]
+    if volume_matched:
+        area, cen = _cell_area_centroid(V[cells])
+        vol = 2.0 * np.pi * np.sum(area * cen[:, 0])
+        V = V * (4.0 / 3.0 * np.pi * radius_m ** 3 / vol) ** (1.0 / 3.0)
+    V[:, 1] += centre_z_m
     return V, cells
