@@ -167,3 +167,47 @@ def polarization_and_tensor(curve, h_T: np.ndarray) -> tuple[np.ndarray, np.ndar
     eye = np.eye(h.shape[-1])
     T = slope[..., None, None] * uu + sec[..., None, None] * (eye - uu)
     return J, T
+
+
+def field_of_polarization_T(curve, J_mag_T) -> np.ndarray:
+    """The inverse curve: ``h = mu0 |H|`` (T) at which the curve reaches ``|J|`` (T).
+
+    ``|J|`` must lie below the curve's saturation (the inverse tends to infinity there). The
+    Frohlich-Kennelly inverse is ``h = |J| / (chi (1 - |J|/Js))``; a table is inverted by bisection
+    on its monotone interpolant (60 halvings: to rounding).
+    """
+    J = np.asarray(J_mag_T, dtype=float)
+    if isinstance(curve, FrohlichKennelly):
+        return J / (curve.chi * (1.0 - J / curve.saturation_T))
+    lo = np.zeros(J.shape)
+    hi = np.full(J.shape, mu_0 * float(curve.H_A_per_m[-1]))
+    for _ in range(60):
+        mid = 0.5 * (lo + hi)
+        below = curve.polarization_T(mid) < J
+        lo = np.where(below, mid, lo)
+        hi = np.where(below, hi, mid)
+    return 0.5 * (lo + hi)
+
+
+def field_and_inverse_tensor(curve, J_T: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Inverse vector law: ``h`` (c, d) parallel to ``J`` (c, d) and ``dh/dJ`` (c, d, d).
+
+    ``dh/dJ = (1/s) ĵĵ^T + (|h|/|J|)(I - ĵĵ^T)``, the inverse of the differential susceptibility
+    tensor of :func:`polarization_and_tensor`; ``|J|`` below saturation.
+    """
+    J = np.asarray(J_T, dtype=float)
+    mag = np.linalg.norm(J, axis=-1)
+    h = field_of_polarization_T(curve, mag)
+    s = curve.slope(h)
+    sec = curve.secant(h)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        u = np.where(mag[..., None] > 0.0, J / np.where(mag > 0.0, mag, 1.0)[..., None], 0.0)
+    uu = u[..., :, None] * u[..., None, :]
+    eye = np.eye(J.shape[-1])
+    Tinv = (1.0 / s)[..., None, None] * uu + (1.0 / sec)[..., None, None] * (eye - uu)
+    return h[..., None] * u, Tinv
+
+
+def saturation_of(curve) -> float:
+    """The largest polarization the curve reaches (T): ``Js`` or the table's last ``B - mu0 H``."""
+    return float(curve.saturation_T)

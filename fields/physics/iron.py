@@ -38,9 +38,9 @@ import numpy as np
 from scipy import linalg
 from scipy.constants import mu_0
 
-from fields.errors import GeometryError, SolverError
+from fields.errors import GeometryError
 from fields.model.design import Design, Magnet, rotation_matrix
-from fields.physics.bh import FrohlichKennelly, polarization_and_tensor
+from fields.physics.bh import FrohlichKennelly
 from fields.physics.iron_rings import (Edges, RingMesh, edge_inductance_matrix, edge_loop_inductance,
                                        graded_nodes, loop_mutual_H, rectangle_cells, ring_mesh)
 from fields.physics.sources import AxialSheets, axial_sheets, sheet_disc_flux_Wb
@@ -55,11 +55,6 @@ LEVELS: dict[str, dict] = {
 }
 #: Newton stops when the largest polarization update is below this (T)
 NEWTON_TOL_T = 1e-10
-NEWTON_MAX_STEPS = 40
-#: chord steps (with the linear factor) are kept while each shrinks the update at least this much
-CHORD_RATE = 0.3
-#: cells above this fraction of their saturation polarization are reported as saturated
-SATURATION_FRACTION = 0.8
 #: observers per vectorised block of the field of the cell sheets
 FIELD_CHUNK = 400_000
 
@@ -129,7 +124,9 @@ class IronModel:
     D : ndarray, shape (2c, 2c)
         Cell demagnetizing operator ``diag(V) - G`` (m^3).
     A_factor : tuple
-        Cholesky factor of the linear system ``diag(V / chi) + D``.
+        Cholesky factor of the linear system ``A = diag(V / chi) + D``.
+    A_inv : ndarray, shape (2c, 2c)
+        ``A^-1`` (its columns serve the low-rank Newton updates).
     b_coils : ndarray, shape (k, 2c)
         Right-hand side per ampere of each coil (T m^3 / A).
     b_magnets : ndarray, shape (2c,)
@@ -149,6 +146,7 @@ class IronModel:
     cell_curve: np.ndarray
     D: np.ndarray
     A_factor: tuple
+    A_inv: np.ndarray
     b_coils: np.ndarray
     b_magnets: np.ndarray
     J_coils_T_per_A: np.ndarray
@@ -217,14 +215,17 @@ class IronModel:
             J = J[None] + self.solve_linear(np.atleast_2d(b_floater))
         return np.atleast_2d(J).reshape(-1, self.cells, 2)
 
-    def solve(self, b, J_start=None, tol_T: float = NEWTON_TOL_T) -> "IronSolution":
-        """Saturable polarizations for one right-hand side ``b`` (2c,), by Newton's method.
+    def solve(self, b, J_start=None, tol_T: float = NEWTON_TOL_T):
+        """Saturable polarizations for one right-hand side ``b`` (2c,), by Newton's method
+        (:func:`fields.physics.iron_newton.newton_solve`).
 
         Returns
         -------
         IronSolution
         """
-        return _newton(self, np.asarray(b, dtype=float), J_start, tol_T)
+        from fields.physics.iron_newton import newton_solve
+
+        return newton_solve(self, np.asarray(b, dtype=float), J_start, tol_T)
 
     # ----------------------------------------------------------------- fields of the cells
 
@@ -249,35 +250,6 @@ class IronModel:
     def coil_linkage_Wb(self, J_T) -> np.ndarray:
         """Flux linkage (k,) or (n, k) of each coil with the cells' field (Wb), by reciprocity."""
         return self.face_currents(J_T) @ self.coil_face_flux.T / mu_0
-
-
-@dataclass(frozen=True)
-class IronSolution:
-    """Result of a saturable cell solve.
-
-    Attributes
-    ----------
-    J_T : ndarray, shape (c, 2)
-        Cell polarizations ``(J_r, J_z)`` (T).
-    h_T : ndarray, shape (c, 2)
-        Cell-mean ``mu0 H`` (T).
-    saturated : ndarray of bool, shape (c,)
-        ``|J| > SATURATION_FRACTION Js`` (the force is no longer affine in current there).
-    steps : int
-        Newton (plus chord) steps taken.
-    update_T : float
-        Largest polarization change of the last step (T): below the tolerance on return.
-    """
-
-    J_T: np.ndarray
-    h_T: np.ndarray
-    saturated: np.ndarray
-    steps: int
-    update_T: float
-
-    @property
-    def any_saturated(self) -> bool:
-        return bool(np.any(self.saturated))
 
 
 def _cell_volume_rule(mesh: RingMesh, axis_xy, order: int, angles: int):
@@ -440,7 +412,8 @@ def cell_model(mesh: RingMesh, curves, cell_curve=None, axis_xy_m=(0.0, 0.0), se
     chi = np.repeat(np.array([float(c.initial_susceptibility) for c in curves])[body], 2)
     factor = linalg.cho_factor(D + np.diag(V2 / chi), lower=False)
     n = 2 * body.size
-    return IronModel(design, level, np.asarray(axis_xy_m, dtype=float), mesh, curves, body, D, factor,
+    A_inv = linalg.cho_solve(factor, np.eye(n))
+    return IronModel(design, level, np.asarray(axis_xy_m, dtype=float), mesh, curves, body, D, factor, 0.5 * (A_inv + A_inv.T),
                      np.zeros((0, n)), np.zeros(n), np.zeros((0, n)), np.zeros(n),
                      np.zeros((0, mesh.edges.start_m.shape[0])), st)
 
@@ -516,71 +489,3 @@ def iron_model(design: Design, level: str = "coarse", curves=None) -> IronModel:
         return _cached(design, level)
     except TypeError:  # an unhashable design
         return build_iron_model(design, level)
-
-
-# --------------------------------------------------------------------------- Newton
-
-
-def _newton(model: IronModel, b: np.ndarray, J_start, tol: float) -> IronSolution:
-    c = model.cells
-    V = np.repeat(model.mesh.volume_m3, 2)
-    D = model.D
-    cell_curve = model.cell_curve
-    groups = [(np.nonzero(cell_curve == i)[0], cv) for i, cv in enumerate(model.curves)]
-    chi0 = model.chi_cells
-
-    def law(h2):
-        h = h2.reshape(c, 2)
-        J = np.empty_like(h)
-        T = np.empty((c, 2, 2))
-        for idx, cv in groups:
-            J[idx], T[idx] = polarization_and_tensor(cv, h[idx])
-        return J.reshape(-1), T
-
-    def h_of(J):
-        return (b - D @ J) / V
-
-    J = model.solve_linear(b) if J_start is None else np.asarray(J_start, dtype=float).reshape(-1).copy()
-    steps = 0
-    last = np.inf
-    chord = True
-    upd = np.inf
-    while steps < NEWTON_MAX_STEPS:
-        Jc, T = law(h_of(J))
-        F = J - Jc
-        if chord:
-            dJ = -model.solve_linear(V * F / chi0)
-        else:
-            Jac = np.eye(2 * c) + (_block_apply(T, D) / V[None, :].T)
-            dJ = linalg.solve(Jac, -F)
-        # backtracking on the residual norm keeps Newton safe where the curve bends sharply
-        f0 = np.linalg.norm(F)
-        lam = 1.0
-        for _ in range(12):
-            Jn = J + lam * dJ
-            Fn = Jn - law(h_of(Jn))[0]
-            if np.linalg.norm(Fn) <= (1.0 - 1e-4 * lam) * f0 or f0 == 0.0:
-                break
-            lam *= 0.5
-        upd = float(np.max(np.abs(lam * dJ))) if dJ.size else 0.0
-        J = Jn
-        steps += 1
-        if upd <= tol:
-            break
-        if chord and (upd > CHORD_RATE * last or lam < 1.0):
-            chord = False
-        last = upd
-    else:
-        raise SolverError(f"iron solve: Newton did not reach {tol:g} T in {NEWTON_MAX_STEPS} steps; "
-                          f"last update {upd:g} T")
-    h = h_of(J).reshape(c, 2)
-    Js = model.saturation_cells_T
-    sat = np.linalg.norm(J.reshape(c, 2), axis=1) > SATURATION_FRACTION * Js
-    return IronSolution(J.reshape(c, 2), h, sat, steps, upd)
-
-
-def _block_apply(T: np.ndarray, D: np.ndarray) -> np.ndarray:
-    """``T D`` for block-diagonal T (c, 2, 2) and D (2c, 2c)."""
-    c = T.shape[0]
-    Dr = D.reshape(c, 2, -1)
-    return np.einsum("cij,cjk->cik", T, Dr).reshape(2 * c, -1)

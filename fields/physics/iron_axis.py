@@ -145,10 +145,9 @@ def axial_iron_forces(model: IronModel, gaps_m, currents_A, saturable: bool = Tr
     steps = np.zeros((g, I.shape[0]), dtype=int)
     if saturable:
         for a in range(g):
-            start = None
             for ci in range(I.shape[0]):
                 b = model.b_magnets + I[ci] @ model.b_coils + b_f[a]
-                sol = model.solve(b, J_start=start)
+                sol = model.solve(b)
                 J = sol.J_T.reshape(-1)
                 Fz[a, ci] = Phi_m[a] @ q + (I[ci] @ Phi_c[a]) @ q + Cq[a] @ J
                 link[a, ci] = model.coil_linkage_Wb(J) + fl_link[a]
