@@ -7,9 +7,11 @@ polarization is parallel to H. Two kinds:
   (Frohlich, Electrician 25 (1881); Kennelly, Trans. AIEE 8 (1891) 485; the form used for
   saturable iron in e.g. Jiles, Introduction to Magnetism and Magnetic Materials, 2nd ed., 1998,
   sec. 4.3). It starts with slope ``chi = mu_r - 1`` and tends to ``Js``.
-- :class:`TableCurve`, measured ``(H, B)`` pairs interpolated monotonically (Fritsch and Carlson,
-  SIAM J. Numer. Anal. 17 (1980) 238, ``scipy.interpolate.PchipInterpolator``) and continued with
-  slope ``mu0`` (constant polarization) beyond the last point.
+- :class:`TableCurve`, measured ``(H, B)`` pairs: the polarization ``J = B - mu0 H`` is
+  interpolated monotonically in ``H`` (Fritsch and Carlson, SIAM J. Numer. Anal. 17 (1980) 238,
+  ``scipy.interpolate.PchipInterpolator``), so that both ``J`` and ``B`` stay monotone between the
+  points (interpolating ``B`` can overshoot ``J`` near saturation), and continued with slope
+  ``mu0`` in ``B`` (constant polarization) beyond the last point.
 
 :func:`polarization_and_tensor` turns a curve into the vector law ``J(h)`` and its differential
 susceptibility tensor ``dJ/dh = s ĥĥ^T + (|J| / |h|)(I - ĥĥ^T)`` (``s = d|J|/dh``), the local part
@@ -76,7 +78,7 @@ class FrohlichKennelly:
 
 @dataclass(frozen=True, eq=False)
 class TableCurve:
-    """A measured B-H curve: ``B(H)`` by monotone cubic interpolation, slope ``mu0`` beyond the table.
+    """A measured B-H curve: ``B - mu0 H`` by monotone cubic interpolation, slope ``mu0`` beyond the table.
 
     Attributes
     ----------
@@ -112,25 +114,22 @@ class TableCurve:
         J = B - mu_0 * H
         if np.any(np.diff(J) < 0.0):
             raise GeometryError(where, "B - mu0 H", "non-decreasing (slope of B at least mu0)", float(np.diff(J).min()))
-        f = PchipInterpolator(H, B, extrapolate=False)
+        f = PchipInterpolator(H, J, extrapolate=False)
         return cls(H, B, float(J[-1]), f, f.derivative())
 
     @property
     def initial_susceptibility(self) -> float:
-        return float(self._slope(0.0) / mu_0 - 1.0)
+        return float(self._slope(0.0) / mu_0)
 
     def polarization_T(self, h_T) -> np.ndarray:
-        h = np.asarray(h_T, dtype=float)
-        H = h / mu_0
+        H = np.asarray(h_T, dtype=float) / mu_0
         inside = H <= self.H_A_per_m[-1]
-        B = np.where(inside, self._interp(np.minimum(H, self.H_A_per_m[-1])), 0.0)
-        return np.where(inside, B - h, self.saturation_T)
+        return np.where(inside, self._interp(np.minimum(H, self.H_A_per_m[-1])), self.saturation_T)
 
     def slope(self, h_T) -> np.ndarray:
-        h = np.asarray(h_T, dtype=float)
-        H = h / mu_0
+        H = np.asarray(h_T, dtype=float) / mu_0
         inside = H <= self.H_A_per_m[-1]
-        return np.where(inside, self._slope(np.minimum(H, self.H_A_per_m[-1])) / mu_0 - 1.0, 0.0)
+        return np.where(inside, self._slope(np.minimum(H, self.H_A_per_m[-1])) / mu_0, 0.0)
 
     def secant(self, h_T) -> np.ndarray:
         h = np.asarray(h_T, dtype=float)
