@@ -5,11 +5,14 @@ Every check names its source. Tolerances are named constants with their reason.
 
 from __future__ import annotations
 
+import json
 from dataclasses import replace
+from pathlib import Path
 
 import magpylib as magpy
 import numpy as np
 import pytest
+from helpers import SUSPENSION
 from scipy import optimize
 from scipy.constants import mu_0
 from scipy.interpolate import PchipInterpolator
@@ -22,8 +25,6 @@ from fields.physics.iron import LEVELS, build_iron_model, cell_model, iron_model
 from fields.physics.iron_axis import axial_iron_forces
 from fields.physics.iron_rings import loop_mutual_H, rectangle_cells, ring_mesh, sphere_cells
 from fields.physics.sources import coil_field_per_ampere_T, magnet_field_T
-
-from helpers import SUSPENSION
 
 #: one-cell demagnetizing factor: the cell kernels' quadrature is converged to about 1e-8
 ONE_CELL_RTOL = 1e-6
@@ -130,8 +131,7 @@ def test_saturated_sphere_against_scalar_equation():
     V, c = sphere_cells(0.01, 8, 16)
     m = cell_model(ring_mesh(V, c), [curve])
     sol = m.solve(m.rhs_field(uniform_field([0, 0, B0]))[0])
-    Jr, Jz = cell_mean(m, sol.J_T)
-    assert Jz == pytest.approx(J_exact, rel=SPHERE_RTOL)
+    assert cell_mean(m, sol.J_T)[1] == pytest.approx(J_exact, rel=SPHERE_RTOL)
     assert sol.update_T < 1e-9
 
 
@@ -167,7 +167,7 @@ def test_curves_limits_and_tensor():
     far = mu_0 * np.array([2e4, 1e5])
     np.testing.assert_allclose(tc.polarization_T(far), 1.8 - mu_0 * 1e4, rtol=1e-12)
     h = np.array([[0.003, -0.002]])
-    J, T = polarization_and_tensor(fk, h)
+    _, T = polarization_and_tensor(fk, h)
     eps = 1e-9
     for j in range(2):
         dh = np.zeros_like(h)
@@ -293,3 +293,93 @@ def test_errors_name_the_rule(suspension):
     tilted = replace(suspension, cores=(replace(suspension.cores[0], axis=(1.0, 0.0, 0.0)),))
     with pytest.raises(GeometryError, match="axis along z"):
         build_iron_model(tilted)
+
+
+def test_field_basis_charge_force_matches_disc_flux_route(suspension):
+    """Two routes to the iron's pull on the on-axis floater: (a) the face sheets' B field
+    (magpylib cylinder and loop kernels) summed over the floater's cap charges
+    (fields.physics.forces.floater_surface_rule, Gauss-Legendre in r), (b) the closed-form
+    loop-loop mutual inductance of the sheets with the cap discs (Maxwell, Treatise, art. 701).
+    Equal by Stokes' theorem (flux through a disc = line integral of A over its rim)."""
+    from fields.physics.forces import floater_surface_rule
+    from fields.physics.iron_basis import iron_field_basis
+
+    d = suspension
+    m = iron_model(d, "coarse")
+    gaps = np.array([0.005, 0.012])
+    P = d.study.floater_origin_m(gaps)
+    xf, s = floater_surface_rule(d.floater, "high", axisymmetric=True)
+    fb = iron_field_basis(m, xf[None] + P[:, None, :], P, np.zeros((2, 3)))
+    F0 = np.einsum("q,nq->n", s, fb.B0_T[..., 2])
+    Fk = np.einsum("q,nkq->nk", s, fb.Bk_T_per_A[..., 2])
+    ref = axial_iron_forces(m, gaps, np.zeros((1, 1)), saturable=False)
+    np.testing.assert_allclose(F0, ref.F0_N, rtol=1e-6)
+    np.testing.assert_allclose(Fk, ref.Fk_N_per_A, rtol=1e-6)
+    assert np.all(fb.axisymmetric)
+
+
+# --------------------------------------------------------------------------- finite-element reference
+
+FE_FILE = Path(__file__).parent / "reference_data" / "fe_suspension.json"
+#: targets of the method (rated currents 0.5 %, deep saturation 3 %) on the Richardson value of the
+#: coarse and fine levels; forces below FE_SMALL_N are compared in absolute terms (the reference's
+#: own Maxwell-stress error there is about 1e-4 N, i.e. up to 1 %)
+FE_RTOL_RATED = 5e-3
+FE_RTOL_DEEP = 3e-2
+FE_SMALL_N = 0.05
+
+
+@pytest.fixture(scope="module")
+def fe_reference():
+    return json.loads(FE_FILE.read_text())
+
+
+@pytest.mark.slow
+def test_suspension_forces_against_finite_elements(suspension, fe_reference):
+    """Against an independent axisymmetric A_phi finite-element solve (quadratic triangles,
+    scikit-fem; Maxwell-stress force; Frohlich-Kennelly iron by Newton), tests/reference_data/
+    fe_suspension.json with its provenance block."""
+    ref = fe_reference
+    gaps = np.array(ref["gaps_m"])
+    I = np.array(ref["currents_A"])
+    F_ref = np.array(ref["Fz_N"])
+    F_err = np.array(ref["Fz_error_N"])
+    Fl_ref = np.array(ref["Fz_linear_N"])
+    out = {}
+    for lv in ("coarse", "fine"):
+        r = axial_iron_forces(iron_model(suspension, lv), gaps, I[:, None])
+        out[lv] = r
+    rich = out["fine"].Fz_N + (out["fine"].Fz_N - out["coarse"].Fz_N) / 3.0
+    rich_lin = out["fine"].Fz_linear_N + (out["fine"].Fz_linear_N - out["coarse"].Fz_linear_N) / 3.0
+    rated = np.abs(I) <= 1.2
+    for F, Fr in ((rich, F_ref), (rich_lin, Fl_ref)):
+        tol = np.where(rated[None, :], FE_RTOL_RATED, FE_RTOL_DEEP) * np.abs(Fr)
+        tol = np.maximum(tol, np.where(np.abs(Fr) < FE_SMALL_N, 3 * F_err + 1e-4, 0.0))
+        assert np.all(np.abs(F - Fr) <= tol), np.max(np.abs(F - Fr) / tol)
+    # the error estimate (fine - coarse) bounds the fine level's error against the reference
+    est = np.abs(out["fine"].Fz_N - out["coarse"].Fz_N)
+    assert np.all(np.abs(out["fine"].Fz_N - F_ref) <= est + 3 * F_err)
+
+
+@pytest.mark.slow
+def test_suspension_hover_and_force_per_ampere_against_finite_elements(suspension, fe_reference):
+    """Hover current, k_i = dF/dI there and F at 0, nominal and maximum current at the operating gap,
+    from cubic splines through the FE reference's currents (the same spline on both sides)."""
+    from scipy.interpolate import CubicSpline
+
+    ref = fe_reference
+    g = ref["gaps_m"].index(suspension.study.operating_gap_m)
+    I = np.array(ref["currents_A"])[:5]
+    W = suspension.weight_N
+
+    def summary(F):
+        s = CubicSpline(I, F)
+        ih = optimize.brentq(lambda x: s(x) - W, I[0], I[-1])
+        c = suspension.coils[0]
+        return np.array([ih, s(ih, 1), s(0.0), s(c.nominal_current_A), s(c.max_current_A)])
+
+    Fr = np.array(ref["Fz_N"])[g, :5]
+    r = [axial_iron_forces(iron_model(suspension, lv), [suspension.study.operating_gap_m], I[:, None]).Fz_N[0]
+         for lv in ("coarse", "fine")]
+    rich = r[1] + (r[1] - r[0]) / 3.0
+    np.testing.assert_allclose(summary(rich), summary(Fr), rtol=FE_RTOL_RATED)

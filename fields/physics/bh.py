@@ -101,7 +101,7 @@ class TableCurve:
     _slope: PchipInterpolator
 
     @classmethod
-    def from_points(cls, H_A_per_m, B_T, where: str = "TableCurve") -> "TableCurve":
+    def from_points(cls, H_A_per_m, B_T, where: str = "TableCurve") -> TableCurve:
         """Validate the points and build the interpolant (``where`` names the input in errors)."""
         H = np.asarray(H_A_per_m, dtype=float).reshape(-1)
         B = np.asarray(B_T, dtype=float).reshape(-1)

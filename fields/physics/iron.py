@@ -39,10 +39,17 @@ from scipy import linalg
 from scipy.constants import mu_0
 
 from fields.errors import GeometryError
-from fields.model.design import Design, Magnet, rotation_matrix
+from fields.model.design import Design, rotation_matrix
 from fields.physics.bh import FrohlichKennelly
-from fields.physics.iron_rings import (Edges, RingMesh, edge_inductance_matrix, edge_loop_inductance,
-                                       graded_nodes, loop_mutual_H, rectangle_cells, ring_mesh)
+from fields.physics.iron_rings import (
+    Edges,
+    RingMesh,
+    edge_inductance_matrix,
+    edge_loop_inductance,
+    graded_nodes,
+    rectangle_cells,
+    ring_mesh,
+)
 from fields.physics.sources import AxialSheets, axial_sheets, sheet_disc_flux_Wb
 
 #: discretisation levels: radial cells across a core's wall, axial cells per radial cell of

@@ -129,7 +129,7 @@ def axial_iron_forces(model: IronModel, gaps_m, currents_A, saturable: bool = Tr
     # iron: flux of unit face sheets through every cap disc at every gap
     Lq = edge_loop_inductance(model.mesh.edges, np.tile(rad, g), zd.reshape(-1),
                               model.settings["face_points"]).reshape(-1, g, nd)  # (e, g, d)
-    Cq = np.einsum("ec,egd,d->gc", model.mesh.incidence, Lq, q) / mu_0  # force per unit cell polarization (N/T)
+    Cq = (model.mesh.incidence.T @ (Lq @ q)).T / mu_0  # force per unit cell polarization (g, 2c) (N/T)
     b_f = floater_rhs_axis(model, P[:, 2])
     J_f = model.solve_linear(b_f)  # (g, 2c)
     F0 = Phi_m @ q + np.einsum("gc,gc->g", Cq, J_f + model.J_magnets_T[None])
