@@ -56,7 +56,7 @@ def cell_mean(model, J):
 
 def test_loop_mutual_inductance_against_neumann_integral():
     """Maxwell's formula vs Neumann's double line integral M = mu0/(4 pi) oint oint dl.dl'/|x - x'|
-    (Jackson, Classical Electrodynamics, 3rd ed., 1999, problem 5.33), trapezoid rule in the angle
+    (Neumann's formula, e.g. Grover, Inductance Calculations, 1946, ch. 1; from memory), trapezoid rule in the angle
     difference (spectral for periodic integrands; Trefethen and Weideman, SIAM Rev. 56 (2014) 385)."""
     for a, b, d in ((0.01, 0.02, 0.005), (0.003, 0.0031, 0.0002), (0.001, 0.01, 0.05)):
         psi = 2 * np.pi * np.arange(4096) / 4096
@@ -94,7 +94,7 @@ def test_one_cell_ring_is_the_demagnetizing_factor_model():
 
 def test_permeable_sphere_in_uniform_field():
     """J = 3 chi / (chi + 3) B0 inside a permeable sphere (Jackson, Classical Electrodynamics, 3rd ed.,
-    sec. 5.11, eq. 5.115 with M = 3 (mu - 1)/(mu + 2) H0)."""
+    sec. 5.11: M = 3 (mu - 1)/(mu + 2) H0 inside; equation number from memory, eq. 5.115)."""
     chi, B0 = 999.0, 0.01
     V, c = sphere_cells(0.01, 8, 16)
     m = cell_model(ring_mesh(V, c), [linear(chi)])
@@ -122,7 +122,7 @@ def test_saturated_sphere_against_scalar_equation():
     """A sphere of nonlinear isotropic material in a uniform field has a uniform interior field
     (the uniformly magnetized sphere's demagnetizing field is uniform: Jackson sec. 5.10), so
     h_in = B0 - J/3 with J = J(h_in): one scalar equation, solved here with scipy's brentq.
-    Frohlich-Kennelly curve (Jiles, Introduction to Magnetism and Magnetic Materials, 1998, sec. 4.3)."""
+    Frohlich-Kennelly curve (Kennelly, Trans. AIEE 8 (1891) 485, from memory)."""
     chi, Js, B0 = 999.0, 1.6, 0.5
     curve = FrohlichKennelly(chi, Js)
     h = optimize.brentq(lambda h: h - (B0 - curve.polarization_T(h) / 3.0), 0.0, B0, xtol=1e-15)
@@ -157,7 +157,7 @@ def test_table_curve_sphere_against_scalar_equation():
 
 
 def test_curves_limits_and_tensor():
-    """Frohlich-Kennelly: slope chi at h = 0, J -> Js as h -> inf (its definition); a table curve
+    """Frohlich-Kennelly: slope chi at h = 0, J -> Js as h -> inf (the curve's definition); a table curve
     keeps B - mu0 H constant beyond the last point (slope mu0, common practice, no source); the
     differential tensor equals finite differences of the vector law."""
     fk = FrohlichKennelly(999.0, 1.6)
@@ -212,7 +212,7 @@ def test_magnet_above_permeable_slab_matches_image_method():
     """Force on an axially polarized disc magnet above a large linear slab vs its image (Jackson,
     Classical Electrodynamics, 3rd ed., sec. 4.4 and 5.9: a magnetic charge above a half-space of
     permeability mu has the image -(mu - 1)/(mu + 1) q; Furlani, Permanent Magnet and
-    Electromechanical Devices, 2001, sec. 3.x image method). The image force is evaluated with
+    Electromechanical Devices, Academic Press, 2001, method of images). The image force is evaluated with
     magpylib's cylinder field integrated over the magnet's charged caps (Gauss-Legendre in r)."""
     D, H, J, gap, mu_r = 0.010, 0.005, 1.2, 0.002, 10.0
     zc = gap + H / 2
@@ -256,7 +256,7 @@ def test_coil_flux_route_matches_volume_rule(suspension):
 def test_force_obeys_newtons_third_law(suspension):
     """The iron's pull on the floater (charges of the floater's caps in the iron's field) equals the
     floater's pull on the iron's bound currents, F_z = -sum K int 2 pi r B_r dl (Lorentz force on
-    azimuthal currents, Jackson sec. 5.7), with the floater's B_r from magpylib's cylinder kernel."""
+    azimuthal currents, F = int J x B dV, Jackson 3rd ed. eq. 5.12, from memory), with the floater's B_r from magpylib's cylinder kernel."""
     d = suspension
     m = iron_model(d, "coarse")
     gap = 0.006

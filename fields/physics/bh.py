@@ -4,9 +4,8 @@ A curve maps ``h = mu0 |H|`` (T) to ``|J|`` (T) for an isotropic, anhysteretic m
 polarization is parallel to H. Two kinds:
 
 - :class:`FrohlichKennelly`, the two-parameter curve ``|J| = chi h / (1 + chi h / Js)``
-  (Frohlich, Electrician 25 (1881); Kennelly, Trans. AIEE 8 (1891) 485; the form used for
-  saturable iron in e.g. Jiles, Introduction to Magnetism and Magnetic Materials, 2nd ed., 1998,
-  sec. 4.3). It starts with slope ``chi = mu_r - 1`` and tends to ``Js``.
+  (Frohlich 1881 and Kennelly, Trans. AIEE 8 (1891) 485; references from memory). It starts with
+  slope ``chi = mu_r - 1`` and tends to ``Js``.
 - :class:`TableCurve`, measured ``(H, B)`` pairs: the polarization ``J = B - mu0 H`` is
   interpolated monotonically in ``H`` (Fritsch and Carlson, SIAM J. Numer. Anal. 17 (1980) 238,
   ``scipy.interpolate.PchipInterpolator``), so that both ``J`` and ``B`` stay monotone between the
