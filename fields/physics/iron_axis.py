@@ -1,0 +1,171 @@
+"""Axial force and flux linkage of an on-axis floater under solved soft-iron cores.
+
+For a floater on the cores' axis, untilted, with axially polarized cylinder or ring magnets, the
+whole problem is axisymmetric. The axial force on the floater is the sum over its charged cap
+discs of ``sigma Phi`` (surface-charge force, ``F = oint sigma B dA`` with ``sigma = J . n / mu0``,
+integrated over a disc: the flux ``Phi`` of everything else through the disc). ``Phi`` is the
+closed-form disc flux of the coil layers and fixed magnets
+(:func:`fields.physics.sources.axial_disc_flux_Wb`) plus the flux of the iron's face sheets
+(Maxwell's loop-loop mutual inductance along each face). The floater's own field enters the
+iron solve through its solenoid sheets (closed-form right-hand side per gap); the iron's field
+at the floater, not the floater's own, enters the force.
+
+Flux linkage of coil ``k``: its air-core self-linkage is not included here; the iron's share is
+``sum_e K_e int_e Phi_k dl`` and the floater's ``K_f int Phi_k dz`` over its sheets (reciprocity:
+the linkage of the coil with a loop equals the coil's flux through that loop).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+
+import numpy as np
+from scipy.constants import mu_0
+
+from fields.errors import GeometryError
+from fields.model.design import rotation_matrix
+from fields.physics.iron import IronModel, _coaxial_sheets
+from fields.physics.iron_rings import edge_loop_inductance
+from fields.physics.sources import axial_disc_flux_Wb, axial_sheets, gauss_legendre, sheet_disc_flux_Wb
+
+
+@dataclass(frozen=True)
+class AxialIronForces:
+    """Axial force on an on-axis floater at g gaps and c coil-current sets.
+
+    Attributes
+    ----------
+    gaps_m : ndarray, shape (g,)
+    currents_A : ndarray, shape (c, k)
+    Fz_N : ndarray, shape (g, c)
+        Force along +z on the floater with saturable iron (N).
+    Fz_linear_N : ndarray, shape (g, c)
+        The same with linear iron (initial susceptibility): ``F0 + sum_k I_k Fk``.
+    F0_N : ndarray, shape (g,)
+    Fk_N_per_A : ndarray, shape (g, k)
+    linkage_Wb : ndarray, shape (g, c, k)
+        Flux linkage of each coil from the iron and the floater (air-core self part excluded).
+    linkage_linear_Wb : ndarray, shape (g, c, k)
+    saturated_cells : ndarray of int, shape (g, c)
+        Cells above the saturation fraction in the saturable solve.
+    newton_steps : ndarray of int, shape (g, c)
+    """
+
+    gaps_m: np.ndarray
+    currents_A: np.ndarray
+    Fz_N: np.ndarray
+    Fz_linear_N: np.ndarray
+    F0_N: np.ndarray
+    Fk_N_per_A: np.ndarray
+    linkage_Wb: np.ndarray
+    linkage_linear_Wb: np.ndarray
+    saturated_cells: np.ndarray
+    newton_steps: np.ndarray
+
+
+def _floater_sheets(model: IronModel):
+    """Solenoid sheets of the floater's magnets in the floater frame (centre_z relative to its origin)."""
+    d = model.design
+    fl = d.floater
+    for m in fl.magnets:
+        R = rotation_matrix(m.rotvec_rad)
+        if np.hypot(*m.position_m[:2]) > 0.0 or abs(abs(R[2, 2]) - 1.0) > 1e-12:
+            raise GeometryError(f"floater magnet {m.name}", "position and axis", "on the floater's z axis, along z",
+                                (tuple(m.position_m), tuple(m.rotvec_rad)))
+    return axial_sheets(replace(d, cores=(), coils=(), magnets=fl.magnets), coils=False)
+
+
+def floater_rhs_axis(model: IronModel, floater_z_m) -> np.ndarray:
+    """Right-hand sides (n, 2c) of the on-axis floater with its frame origin at heights (n,) (m)."""
+    sh = _floater_sheets(model)
+    z = np.asarray(floater_z_m, dtype=float).reshape(-1)
+    p, w = model.mesh.edges.points(model.settings["face_points"])
+    Phi = sheet_disc_flux_Wb(sh.radius_m, sh.half_height_m, sh.J_T, p[None, ..., 0, None],
+                             p[None, ..., 1, None] - sh.centre_z_m - z[:, None, None, None])  # (n, e, q, s)
+    face = np.einsum("neqs,eq->ne", Phi, w)
+    return face @ model.mesh.incidence
+
+
+def axial_iron_forces(model: IronModel, gaps_m, currents_A, saturable: bool = True) -> AxialIronForces:
+    """Axial force and coil flux linkage of the on-axis floater at gaps and currents.
+
+    Parameters
+    ----------
+    model : IronModel
+    gaps_m : array_like, shape (g,)
+        Gaps as defined by the design's study (floater origin ``study.floater_origin_m(gap)``).
+    currents_A : array_like, shape (c, k) or (c,) for one coil
+    saturable : bool
+        Also solve the saturable iron (Newton per gap and current); False returns the linear
+        force in ``Fz_N`` too.
+
+    Returns
+    -------
+    AxialIronForces
+    """
+    from fields.physics.forces import floater_cap_discs
+
+    d = model.design
+    gaps = np.asarray(gaps_m, dtype=float).reshape(-1)
+    k = len(d.coils)
+    I = np.asarray(currents_A, dtype=float)
+    I = I.reshape(-1, 1) if (I.ndim == 1 and k == 1) else np.atleast_2d(I)
+    if I.shape[1] != k:
+        raise GeometryError("axial_iron_forces", "currents_A", f"rows of {k} currents (one per coil)", I.shape)
+    P = d.study.floater_origin_m(gaps)
+    if (np.any(np.abs(P[:, :2] - model.axis_xy_m) > 1e-12) or np.any(np.asarray(d.study.floater_rotvec_rad) != 0.0)):
+        raise GeometryError("axial_iron_forces", "floater poses", "on the cores' axis and untilted", P[0].tolist())
+    coil_sheets, mag_sheets = _coaxial_sheets(d, model.axis_xy_m, model.settings["layers"])
+    if any(s is None for s in coil_sheets) or (d.magnets and mag_sheets is None):
+        raise GeometryError("axial_iron_forces", "coils and magnets", "coaxial with the cores", None)
+    rad, zf, q = floater_cap_discs(d.floater)
+    zd = P[:, 2:3] + zf[None, :]  # (g, d)
+    g, nd = zd.shape
+    # sources' disc flux (closed form)
+    Phi_c = np.zeros((g, k, nd))
+    for i, sh in enumerate(coil_sheets):
+        Phi_c[:, i] = axial_disc_flux_Wb(sh, rad, zd).sum(axis=-1)
+    Phi_m = axial_disc_flux_Wb(mag_sheets, rad, zd).sum(axis=-1) if mag_sheets is not None else np.zeros((g, nd))
+    # iron: flux of unit face sheets through every cap disc at every gap
+    Lq = edge_loop_inductance(model.mesh.edges, np.tile(rad, g), zd.reshape(-1),
+                              model.settings["face_points"]).reshape(-1, g, nd)  # (e, g, d)
+    Cq = (model.mesh.incidence.T @ (Lq @ q)).T / mu_0  # force per unit cell polarization (g, 2c) (N/T)
+    b_f = floater_rhs_axis(model, P[:, 2])
+    J_f = model.solve_linear(b_f)  # (g, 2c)
+    F0 = Phi_m @ q + np.einsum("gc,gc->g", Cq, J_f + model.J_magnets_T[None])
+    Fk = np.einsum("gkd,d->gk", Phi_c, q) + Cq @ model.J_coils_T_per_A.T
+    Flin = F0[:, None] + Fk @ I.T
+    # flux linkage: iron share by reciprocity; floater share over its sheets
+    fl_link = _floater_linkage(model, coil_sheets, P[:, 2])  # (g, k)
+    Jlin = (J_f[:, None, :] + model.J_magnets_T[None, None] + np.einsum("ck,kx->cx", I, model.J_coils_T_per_A)[None])
+    link_lin = model.coil_linkage_Wb(Jlin) + fl_link[:, None, :]
+    Fz = Flin.copy()
+    link = link_lin.copy()
+    nsat = np.zeros((g, I.shape[0]), dtype=int)
+    steps = np.zeros((g, I.shape[0]), dtype=int)
+    if saturable:
+        for a in range(g):
+            for ci in range(I.shape[0]):
+                b = model.b_magnets + I[ci] @ model.b_coils + b_f[a]
+                sol = model.solve(b)
+                J = sol.J_T.reshape(-1)
+                Fz[a, ci] = Phi_m[a] @ q + (I[ci] @ Phi_c[a]) @ q + Cq[a] @ J
+                link[a, ci] = model.coil_linkage_Wb(J) + fl_link[a]
+                nsat[a, ci] = int(sol.saturated.sum())
+                steps[a, ci] = sol.steps
+    return AxialIronForces(gaps, I, Fz, Flin, F0, Fk, link, link_lin, nsat, steps)
+
+
+def _floater_linkage(model: IronModel, coil_sheets, floater_z_m) -> np.ndarray:
+    """Flux linkage (n, k) of each coil with the on-axis floater: ``K_f int Phi_coil dz`` per sheet."""
+    sh = _floater_sheets(model)
+    z = np.asarray(floater_z_m, dtype=float).reshape(-1)
+    t, w = gauss_legendre(24, -1.0, 1.0)
+    out = np.zeros((z.size, len(coil_sheets)))
+    for j in range(sh.radius_m.size):
+        zz = z[:, None] + sh.centre_z_m[j] + sh.half_height_m[j] * t[None, :]  # (n, t)
+        for i, cs in enumerate(coil_sheets):
+            Phi = sheet_disc_flux_Wb(cs.radius_m, cs.half_height_m, cs.J_T, sh.radius_m[j],
+                                     zz[..., None] - cs.centre_z_m).sum(axis=-1)
+            out[:, i] += sh.J_T[j] / mu_0 * (Phi @ w) * sh.half_height_m[j]
+    return out

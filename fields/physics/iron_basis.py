@@ -1,0 +1,191 @@
+"""The field of the fixed sources with solved iron, split by linearity in the coil currents.
+
+``B(I) = B0 + sum_k I_k Bk`` at observers of n floater poses, with the same meaning as
+:class:`fields.physics.sources.FieldBasis` (``B0_T`` fixed magnets plus the iron magnetized by
+them and by the floater at its pose; ``Bk_T_per_A`` coil ``k`` per ampere plus the iron's response
+to it), for linear iron at the initial susceptibility. :func:`iron_field_at_currents` gives the
+saturable field at one set of currents (Newton per pose) and which cells saturate.
+
+The ring cells carry the azimuthally symmetric (``m = 0``) magnetization only: exact when the
+floater is on the cores' axis and untilted (its right-hand side is then the closed-form sheet
+flux); for other poses the iron responds to the floater's azimuthal mean field only, and
+``axisymmetric`` is False for those poses.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from fields.errors import GeometryError
+from fields.physics.iron import IronModel
+from fields.physics.iron_axis import floater_rhs_axis
+from fields.physics.sources import coil_field_per_ampere_T, floater_field_T, magnet_field_T
+
+
+@dataclass(frozen=True)
+class IronFieldBasis:
+    """Field of coils, fixed magnets and solved (linear) iron at observers of n poses.
+
+    Attributes
+    ----------
+    B0_T : ndarray, shape (n, q, 3)
+    Bk_T_per_A : ndarray, shape (n, k, q, 3)
+    J0_T : ndarray, shape (n, c, 2)
+        Cell polarizations at zero current (fixed magnets and floater).
+    Jk_T_per_A : ndarray, shape (k, c, 2)
+        Cell polarizations per ampere of each coil (pose independent).
+    axisymmetric : ndarray of bool, shape (n,)
+        The pose is on the axis and untilted: the iron response is exact (no ``m >= 1`` part).
+    saturation_T : ndarray, shape (c,)
+        Saturation polarization of each cell.
+    """
+
+    B0_T: np.ndarray
+    Bk_T_per_A: np.ndarray
+    J0_T: np.ndarray
+    Jk_T_per_A: np.ndarray
+    axisymmetric: np.ndarray
+    saturation_T: np.ndarray
+
+    def field_T(self, currents_A) -> np.ndarray:
+        """Linear field (n, q, 3) at currents (k,)."""
+        I = np.asarray(currents_A, dtype=float).reshape(-1)
+        return self.B0_T + np.einsum("k,nkqi->nqi", I, self.Bk_T_per_A)
+
+    def saturation_ratio(self, currents_A) -> np.ndarray:
+        """Largest ``|J| / Js`` over the cells (n,) of the linear solution at currents (k,)."""
+        I = np.asarray(currents_A, dtype=float).reshape(-1)
+        J = self.J0_T + np.einsum("k,kci->ci", I, self.Jk_T_per_A)[None]
+        return np.max(np.linalg.norm(J, axis=-1) / self.saturation_T[None], axis=1)
+
+
+def _poses(positions_m, rotvecs_rad):
+    P = np.atleast_2d(np.asarray(positions_m, dtype=float))
+    Rv = np.atleast_2d(np.asarray(rotvecs_rad, dtype=float))
+    if Rv.shape[0] == 1 and P.shape[0] > 1:
+        Rv = np.repeat(Rv, P.shape[0], axis=0)
+    if P.shape != Rv.shape or P.shape[1] != 3:
+        raise GeometryError("iron_field_basis", "positions_m and rotvecs_rad", "arrays of shape (n, 3)",
+                            (P.shape, Rv.shape))
+    return P, Rv
+
+
+def floater_rhs(model: IronModel, positions_m, rotvecs_rad) -> tuple[np.ndarray, np.ndarray]:
+    """Right-hand sides (n, 2c) of the floater at n poses and the mask (n,) of exact (on-axis) poses."""
+    d = model.design
+    P, Rv = _poses(positions_m, rotvecs_rad)
+    axial = (np.all(np.abs(P[:, :2] - model.axis_xy_m) <= 1e-12, axis=1) & np.all(Rv == 0.0, axis=1))
+    b = np.zeros((P.shape[0], 2 * model.cells))
+    if np.any(axial):
+        try:
+            b[axial] = floater_rhs_axis(model, P[axial, 2])
+        except GeometryError:  # magnets off the floater axis: not axisymmetric after all
+            axial[:] = False
+    other = ~axial
+    if np.any(other):
+        b[other] = model.rhs_field(lambda q: floater_field_T(d, q, P[other], Rv[other]))
+    return b, axial
+
+
+def iron_field_basis(model: IronModel, points_m, positions_m, rotvecs_rad) -> IronFieldBasis:
+    """Linear field basis with solved iron at observers (n, q, 3) of n floater poses.
+
+    Parameters
+    ----------
+    model : IronModel
+        From :func:`fields.physics.iron.iron_model`.
+    points_m : ndarray, shape (n, q, 3) or (q, 3)
+        Observers, world frame (m); they must keep clear of the cores by about a cell size.
+    positions_m, rotvecs_rad : ndarray, shape (n, 3)
+        Floater poses (frame origin and rotation vector).
+
+    Returns
+    -------
+    IronFieldBasis
+    """
+    d = model.design
+    P, Rv = _poses(positions_m, rotvecs_rad)
+    pts = np.asarray(points_m, dtype=float)
+    if pts.ndim == 2:
+        pts = np.broadcast_to(pts, (P.shape[0],) + pts.shape)
+    n, q = pts.shape[:2]
+    if n != P.shape[0]:
+        raise GeometryError("iron_field_basis", "points_m", f"{P.shape[0]} poses like positions_m", n)
+    flat = pts.reshape(-1, 3)
+    k = len(d.coils)
+    layers = model.settings["layers"]
+    B0 = np.zeros((n * q, 3))
+    for m in d.magnets:
+        B0 += magnet_field_T(m, flat)
+    Bk = np.stack([coil_field_per_ampere_T(c, flat, layers) for c in d.coils]) if k else np.zeros((0, n * q, 3))
+    b_f, axial = floater_rhs(model, P, Rv)
+    J0 = model.J_magnets_T[None] + model.solve_linear(b_f)  # (n, 2c)
+    # the iron's field is linear in the face currents: evaluate per pose (observers move with it)
+    B0 = B0.reshape(n, q, 3)
+    Bk = Bk.reshape(k, n, q, 3).transpose(1, 0, 2, 3).copy()
+    for i in range(n):
+        Js = np.vstack((J0[i][None], model.J_coils_T_per_A)) if k else J0[i][None]
+        B = _cells_field_many(model, Js, pts[i])
+        B0[i] += B[0]
+        Bk[i] += B[1:]
+    return IronFieldBasis(B0, Bk, J0.reshape(n, -1, 2), model.J_coils_T_per_A.reshape(k, -1, 2), axial,
+                          model.saturation_cells_T)
+
+
+def _cells_field_many(model: IronModel, Js: np.ndarray, points_m: np.ndarray) -> np.ndarray:
+    """B (s, q, 3) of s polarization sets (s, 2c) at points (q, 3): one kernel pass per face group."""
+    return np.stack([model.field_T(J, points_m) for J in Js])
+
+
+@dataclass(frozen=True)
+class IronFieldAtCurrents:
+    """Saturable field at one set of currents.
+
+    Attributes
+    ----------
+    B_T : ndarray, shape (n, q, 3)
+    J_T : ndarray, shape (n, c, 2)
+    saturated_cells : tuple of ndarray of int
+        Per pose, the cells above the saturation fraction (where the force stops being affine in
+        current).
+    axisymmetric : ndarray of bool, shape (n,)
+    newton_steps : ndarray of int, shape (n,)
+    """
+
+    B_T: np.ndarray
+    J_T: np.ndarray
+    saturated_cells: tuple
+    axisymmetric: np.ndarray
+    newton_steps: np.ndarray
+
+
+def iron_field_at_currents(model: IronModel, points_m, positions_m, rotvecs_rad, currents_A) -> IronFieldAtCurrents:
+    """Field with saturable iron (Newton per pose) at observers (n, q, 3) and currents (k,)."""
+    d = model.design
+    P, Rv = _poses(positions_m, rotvecs_rad)
+    I = np.asarray(currents_A, dtype=float).reshape(-1)
+    if I.size != len(d.coils):
+        raise GeometryError("iron_field_at_currents", "currents_A", f"{len(d.coils)} values (one per coil)", I.size)
+    pts = np.asarray(points_m, dtype=float)
+    if pts.ndim == 2:
+        pts = np.broadcast_to(pts, (P.shape[0],) + pts.shape)
+    n, q = pts.shape[:2]
+    flat = pts.reshape(-1, 3)
+    B = np.zeros((n * q, 3))
+    for m in d.magnets:
+        B += magnet_field_T(m, flat)
+    for Ik, c in zip(I, d.coils):
+        B += Ik * coil_field_per_ampere_T(c, flat, model.settings["layers"])
+    B = B.reshape(n, q, 3)
+    b_f, axial = floater_rhs(model, P, Rv)
+    Js = np.zeros((n, model.cells, 2))
+    sat, steps = [], np.zeros(n, dtype=int)
+    for i in range(n):
+        sol = model.solve(model.b_magnets + I @ model.b_coils + b_f[i])
+        Js[i] = sol.J_T
+        B[i] += model.field_T(sol.J_T, pts[i])
+        sat.append(np.nonzero(sol.saturated)[0])
+        steps[i] = sol.steps
+    return IronFieldAtCurrents(B, Js, tuple(sat), axial, steps)
