@@ -24,7 +24,8 @@ from fields.physics.demag import cylinder_demag_factors, ring_demag_factors
 from fields.physics.iron import LEVELS, build_iron_model, cell_model, iron_model
 from fields.physics.iron_axis import axial_iron_forces
 from fields.physics.iron_rings import loop_mutual_H, rectangle_cells, ring_mesh, sphere_cells
-from fields.physics.sources import coil_field_per_ampere_T, magnet_field_T
+from fields.physics.coils import coil_field_per_ampere_T
+from fields.physics.magnets import magnet_field_T
 
 #: one-cell demagnetizing factor: the cell kernels' quadrature is converged to about 1e-8
 ONE_CELL_RTOL = 1e-6
@@ -246,7 +247,7 @@ def suspension():
 def test_coil_flux_route_matches_volume_rule(suspension):
     """Stokes' theorem: int B . phi dV over a cell equals the flux linked by the test function's
     bound currents. The closed-form sheet flux route must equal a volume Gauss rule of magpylib's
-    field of the coil (fields.physics.sources.coil_field_per_ampere_T)."""
+    field of the coil (fields.physics.coils.coil_field_per_ampere_T)."""
     m = iron_model(suspension, "coarse")
     coil = suspension.coils[0]
     b_vol = m.rhs_field(lambda q: coil_field_per_ampere_T(coil, q, LEVELS["coarse"]["layers"])[None])[0]
@@ -298,10 +299,10 @@ def test_errors_name_the_rule(suspension):
 def test_field_basis_charge_force_matches_disc_flux_route(suspension):
     """Two routes to the iron's pull on the on-axis floater: (a) the face sheets' B field
     (magpylib cylinder and loop kernels) summed over the floater's cap charges
-    (fields.physics.forces.floater_surface_rule, Gauss-Legendre in r), (b) the closed-form
+    (fields.physics.charges.floater_surface_rule, Gauss-Legendre in r), (b) the closed-form
     loop-loop mutual inductance of the sheets with the cap discs (Maxwell, Treatise, art. 701).
     Equal by Stokes' theorem (flux through a disc = line integral of A over its rim)."""
-    from fields.physics.forces import floater_surface_rule
+    from fields.physics.charges import floater_surface_rule
     from fields.physics.iron_basis import iron_field_basis
 
     d = suspension

@@ -17,7 +17,7 @@ changes with the pose.
 
 Right-hand sides of coaxial sources (coil layers, axially polarized cylinders and rings on the
 axis, the floater on the axis) are line integrals of their closed-form disc flux
-(:func:`fields.physics.sources.sheet_disc_flux_Wb`) along the cell faces (``int B . phi dV``
+(:func:`fields.physics.axial.sheet_disc_flux_Wb`) along the cell faces (``int B . phi dV``
 equals the flux linked by the test function's bound currents). Other sources are averaged over
 the cells by a volume Gauss rule (the azimuthal mean: the ring cells hold the ``m = 0`` part of
 the magnetization only, exact for an axisymmetric excitation).
@@ -50,7 +50,7 @@ from fields.physics.iron_rings import (
     rectangle_cells,
     ring_mesh,
 )
-from fields.physics.sources import AxialSheets, axial_sheets, sheet_disc_flux_Wb
+from fields.physics.axial import AxialSheets, axial_sheets, sheet_disc_flux_Wb
 
 #: discretisation levels: radial cells across a core's wall, axial cells per radial cell of
 #: height (aspect), grading (end cells are 1 - grade of the mean spacing), Gauss points per face
@@ -438,7 +438,8 @@ def build_iron_model(design: Design, level="coarse", curves=None) -> IronModel:
         One B-H curve per core (:mod:`fields.physics.bh`); default: the Frohlich-Kennelly curve
         of each core's ``relative_permeability`` and ``saturation_polarization_T``.
     """
-    from fields.physics.sources import coil_field_per_ampere_T, magnet_field_T
+    from fields.physics.coils import coil_field_per_ampere_T
+    from fields.physics.magnets import magnet_field_T
 
     if isinstance(level, dict):
         st, name = dict(level), "custom"

@@ -5,7 +5,7 @@ whole problem is axisymmetric. The axial force on the floater is the sum over it
 discs of ``sigma Phi`` (surface-charge force, ``F = oint sigma B dA`` with ``sigma = J . n / mu0``,
 integrated over a disc: the flux ``Phi`` of everything else through the disc). ``Phi`` is the
 closed-form disc flux of the coil layers and fixed magnets
-(:func:`fields.physics.sources.axial_disc_flux_Wb`) plus the flux of the iron's face sheets
+(:func:`fields.physics.axial.axial_disc_flux_Wb`) plus the flux of the iron's face sheets
 (Maxwell's loop-loop mutual inductance along each face). The floater's own field enters the
 iron solve through its solenoid sheets (closed-form right-hand side per gap); the iron's field
 at the floater, not the floater's own, enters the force.
@@ -26,7 +26,8 @@ from fields.errors import GeometryError
 from fields.model.design import rotation_matrix
 from fields.physics.iron import IronModel, _coaxial_sheets
 from fields.physics.iron_rings import edge_loop_inductance
-from fields.physics.sources import axial_disc_flux_Wb, axial_sheets, gauss_legendre, sheet_disc_flux_Wb
+from fields.physics.axial import axial_disc_flux_Wb, axial_sheets, sheet_disc_flux_Wb
+from fields.physics.quadrature import gauss_legendre
 
 
 @dataclass(frozen=True)
@@ -103,7 +104,7 @@ def axial_iron_forces(model: IronModel, gaps_m, currents_A, saturable: bool = Tr
     -------
     AxialIronForces
     """
-    from fields.physics.forces import floater_cap_discs
+    from fields.physics.axial import floater_cap_discs
 
     d = model.design
     gaps = np.asarray(gaps_m, dtype=float).reshape(-1)

@@ -1,7 +1,7 @@
 """The field of the fixed sources with solved iron, split by linearity in the coil currents.
 
 ``B(I) = B0 + sum_k I_k Bk`` at observers of n floater poses, with the same meaning as
-:class:`fields.physics.sources.FieldBasis` (``B0_T`` fixed magnets plus the iron magnetized by
+:class:`fields.physics.field_basis.FieldBasis` (``B0_T`` fixed magnets plus the iron magnetized by
 them and by the floater at its pose; ``Bk_T_per_A`` coil ``k`` per ampere plus the iron's response
 to it), for linear iron at the initial susceptibility. :func:`iron_field_at_currents` gives the
 saturable field at one set of currents (Newton per pose) and which cells saturate.
@@ -21,7 +21,8 @@ import numpy as np
 from fields.errors import GeometryError
 from fields.physics.iron import IronModel
 from fields.physics.iron_axis import floater_rhs_axis
-from fields.physics.sources import coil_field_per_ampere_T, floater_field_T, magnet_field_T
+from fields.physics.coils import coil_field_per_ampere_T
+from fields.physics.magnets import floater_field_T, magnet_field_T
 
 
 @dataclass(frozen=True)
