@@ -156,6 +156,9 @@ class MeshSpec:
     domain_m: float = 2.0
     #: body edges (and the graded device box) only count within this of the floater (m)
     near_m: float = 0.2
+    #: optional extra node lines at r = d and z = z_m +- d (m): a larger domain with these lines
+    #: has the same nodes inside d as the domain of size d, so the two differ by truncation only
+    inner_domain_m: float | None = None
 
 
 def _box_gap(a, b) -> float:
@@ -169,7 +172,7 @@ def _box_gap(a, b) -> float:
 
 
 def _curl(v, r):
-    return -v.grad[1], v.grad[0] + v.value / r
+    return -v.grad[1], v.grad[0] + np.asarray(v) / r
 
 
 @BilinearForm
@@ -177,7 +180,7 @@ def _stiffness(u, v, w):
     r = w.x[0]
     ur, uz = _curl(u, r)
     vr, vz = _curl(v, r)
-    return TWO_PI * r * w["nu"].value * (ur * vr + uz * vz)
+    return TWO_PI * r * np.asarray(w["nu"]) * (ur * vr + uz * vz)
 
 
 @BilinearForm
@@ -185,26 +188,26 @@ def _tangent(u, v, w):
     r = w.x[0]
     ur, uz = _curl(u, r)
     vr, vz = _curl(v, r)
-    return TWO_PI * r * (w["nrr"].value * ur * vr + w["nrz"].value * (ur * vz + uz * vr)
-                         + w["nzz"].value * uz * vz)
+    return TWO_PI * r * (np.asarray(w["nrr"]) * ur * vr + np.asarray(w["nrz"]) * (ur * vz + uz * vr)
+                         + np.asarray(w["nzz"]) * uz * vz)
 
 
 @LinearForm
 def _field_load(v, w):
     r = w.x[0]
     vr, vz = _curl(v, r)
-    return TWO_PI * r * (w["Hr"].value * vr + w["Hz"].value * vz)
+    return TWO_PI * r * (np.asarray(w["Hr"]) * vr + np.asarray(w["Hz"]) * vz)
 
 
 @LinearForm
 def _current_load(v, w):
-    return TWO_PI * w.x[0] * v.value
+    return TWO_PI * w.x[0] * np.asarray(v)
 
 
 @LinearForm
 def _axial_magnetization_load(v, w):
     r = w.x[0]
-    return TWO_PI * r * (v.grad[0] + v.value / r)
+    return TWO_PI * r * (v.grad[0] + np.asarray(v) / r)
 
 
 @Functional
@@ -212,7 +215,7 @@ def _stress_force(w):
     r = w.x[0]
     A = w["A"]
     Br = -A.grad[1]
-    Bz = A.grad[0] + A.value / r
+    Bz = A.grad[0] + np.asarray(A) / r
     wr, wz = w["wt"].grad
     Trz = Br * Bz / mu_0
     Tzz = 0.5 * (Bz * Bz - Br * Br) / mu_0
@@ -221,7 +224,7 @@ def _stress_force(w):
 
 @Functional
 def _weighted_potential(w):
-    return TWO_PI * w.x[0] * w["A"].value
+    return TWO_PI * w.x[0] * np.asarray(w["A"])
 
 
 # --------------------------------------------------------------------------- the model
@@ -281,6 +284,9 @@ class Model:
                 keep_z += [fbox[2] - d, fbox[3] + d]
         R = spec.domain_m
         zmid = 0.5 * (dev_z[0] + dev_z[1])
+        if spec.inner_domain_m is not None:
+            keep_r.append(spec.inner_domain_m)
+            keep_z += [zmid - spec.inner_domain_m, zmid + spec.inner_domain_m]
         kw = dict(h_min=spec.h_min, growth=spec.growth, h_max=spec.h_max, far_ratio=spec.far_ratio)
         rn = graded_nodes(0.0, R, r_ref, keep_r, device=dev_r, **kw)
         zn = graded_nodes(zmid - R, zmid + R, z_ref, keep_z, device=dev_z, **kw)
@@ -316,7 +322,7 @@ class Model:
             iron_mask[self._body_elems[("iron", i)]] = True
         self._iron_bases = [sub(self._body_elems[("iron", i)]) for i in range(len(case.irons))]
         lin = sub(np.flatnonzero(~iron_mask))
-        self.K0 = asm(_stiffness, lin, nu=np.full(lin.global_coordinates().value[0].shape, 1.0 / mu_0))
+        self.K0 = asm(_stiffness, lin, nu=np.full(lin.global_coordinates()[0].shape, 1.0 / mu_0))
         self._coil_bases = [sub(self._body_elems[("coil", i)]) for i in range(len(case.coils))]
         self.f_coil_per_A = [asm(_current_load, cb) * (c.turns / c.area_m2)
                              for cb, c in zip(self._coil_bases, case.coils)]
@@ -350,9 +356,9 @@ class Model:
         K = None
         for ib, body in zip(self._iron_bases, self.case.irons):
             Af = ib.interpolate(A)
-            r = ib.global_coordinates().value[0]
+            r = ib.global_coordinates()[0]
             Br = -Af.grad[1]
-            Bz = Af.grad[0] + Af.value / r
+            Bz = Af.grad[0] + np.asarray(Af) / r
             Hr, Hz, nrr, nrz, nzz = body.material.field_and_tangent(Br, Bz)
             load += asm(_field_load, ib, Hr=Hr, Hz=Hz)
             if tangent:
@@ -363,7 +369,7 @@ class Model:
     def _linear_matrix(self):
         K = self.K0.copy()
         for ib, body in zip(self._iron_bases, self.case.irons):
-            shape = ib.global_coordinates().value[0].shape
+            shape = ib.global_coordinates()[0].shape
             K = K + asm(_stiffness, ib, nu=np.full(shape, 1.0 / (mu_0 * body.material.mu_r)))
         return K
 
