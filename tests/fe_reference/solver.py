@@ -342,6 +342,7 @@ class Model:
                 ex = np.maximum.reduce([ref_dofs[0] - fbox[1], fbox[0] - ref_dofs[0],
                                         fbox[2] - ref_dofs[1], ref_dofs[1] - fbox[3]])
                 wt = np.clip(1.0 - np.maximum(ex, 0.0) / d, 0.0, 1.0)
+            wt = np.where(wt > 1.0 - 1e-9, 1.0, np.where(wt < 1e-9, 0.0, wt))  # rounding at the edges
             el_w = wt[self.basis.element_dofs]  # (6, t)
             active = np.flatnonzero(el_w.max(axis=0) - el_w.min(axis=0) > 0)
             if np.any(label[active] >= 0):
