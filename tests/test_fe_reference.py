@@ -19,7 +19,7 @@ import pytest
 from scipy.constants import mu_0
 
 from fields.input.geometry import load
-from fields.physics.forces import wrench
+from fields.physics.wrench import wrench
 
 from fe_reference.analytic import coil_magnet_flux_linkage_Wb, image_force_N, sphere_coil_force_N
 from fe_reference.cases import coil_only_sphere_case, design_case, slab_image_case
