@@ -20,7 +20,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fields.devices.linearity import LINEARITY_TOLERANCE, SLOPE_STEP_M, InverseTable, inverse_table, linear_range
+from fields.devices.linearity import (LINEARITY_TOLERANCE, SLOPE_STEP_M, InverseTable, inverse_table, linear_range,
+                                      sensor_gaps)
 from fields.devices.notices import Notice
 from fields.errors import InputError
 from fields.model.design import BeamGate, Design, rotation_matrix
@@ -321,22 +322,10 @@ def beam_response(design: Design, sensor: BeamGate, gaps_m=None, operating_gap_m
                   linearity_tolerance: float = LINEARITY_TOLERANCE) -> BeamResponse:
     """Beam-gate output, slope, gain at the operating gap and linear range.
 
-    Parameters
-    ----------
-    design : Design
-    sensor : BeamGate
-    gaps_m : array_like, shape (g,), optional
-        Default the study's gap grid.
-    operating_gap_m : float, optional
-        Default ``study.operating_gap_m``.
-    linearity_tolerance : float
-
-    Returns
-    -------
-    BeamResponse
+    The gap grid and the operating gap default to the study's (:func:`fields.devices.linearity.sensor_gaps`);
+    returns a :class:`BeamResponse`.
     """
-    gaps = design.study.gaps() if gaps_m is None else np.sort(np.atleast_1d(np.asarray(gaps_m, dtype=float)))
-    g0 = float(design.study.operating_gap_m if operating_gap_m is None else operating_gap_m)
+    gaps, g0 = sensor_gaps(design, gaps_m, operating_gap_m)
     f = beam_blocked_fraction(design, sensor, gaps)
     h = SLOPE_STEP_M
     slope = (beam_blocked_fraction(design, sensor, gaps + h) - beam_blocked_fraction(design, sensor, gaps - h)) / (2 * h)
@@ -359,5 +348,4 @@ def beam_response(design: Design, sensor: BeamGate, gaps_m=None, operating_gap_m
 def beam_inverse_table(design: Design, sensor: BeamGate, gaps_m=None) -> InverseTable:
     """gap(blocked fraction) of a beam gate."""
     gaps = design.study.gaps() if gaps_m is None else np.asarray(gaps_m, dtype=float)
-    return inverse_table(gaps, beam_blocked_fraction(design, sensor, gaps))
     return inverse_table(gaps, beam_blocked_fraction(design, sensor, gaps))

@@ -12,7 +12,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fields.devices.linearity import LINEARITY_TOLERANCE, SLOPE_STEP_M, InverseTable, inverse_table, linear_range
+from fields.devices.linearity import (LINEARITY_TOLERANCE, SLOPE_STEP_M, InverseTable, inverse_table, linear_range,
+                                      sensor_gaps)
 from fields.devices.notices import Notice
 from fields.errors import InputError
 from fields.model.design import Design, HallSensor
@@ -143,8 +144,7 @@ def hall_response(design: Design, sensor: HallSensor, gaps_m=None, operating_gap
 
     ax = unit_axis(sensor.axis, f"sensor {sensor.name}")
     p = np.asarray(sensor.position_m, dtype=float).reshape(1, 3)
-    gaps = design.study.gaps() if gaps_m is None else np.sort(np.atleast_1d(np.asarray(gaps_m, dtype=float)))
-    g0 = float(design.study.operating_gap_m if operating_gap_m is None else operating_gap_m)
+    gaps, g0 = sensor_gaps(design, gaps_m, operating_gap_m)
     h = SLOPE_STEP_M
     allg = np.concatenate([gaps, gaps - h, gaps + h, [g0 - h, g0, g0 + h]])
     Bf, B0, Bk, _ = hall_readings(design, p, ax, allg)

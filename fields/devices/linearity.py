@@ -18,6 +18,24 @@ LINEARITY_TOLERANCE = 0.1
 SLOPE_STEP_M = 1e-6
 
 
+def sensor_gaps(design, gaps_m=None, operating_gap_m: float | None = None) -> tuple[np.ndarray, float]:
+    """The sorted gap grid (default the study's) and the operating gap (default the study's).
+
+    Parameters
+    ----------
+    design : Design
+    gaps_m : array_like, shape (g,), optional
+    operating_gap_m : float, optional
+
+    Returns
+    -------
+    (gaps_m, operating_gap_m) : tuple of ndarray, shape (g,), and float
+    """
+    st = design.study
+    gaps = st.gaps() if gaps_m is None else np.sort(np.atleast_1d(np.asarray(gaps_m, dtype=float)))
+    return gaps, float(st.operating_gap_m if operating_gap_m is None else operating_gap_m)
+
+
 def linear_range(gaps_m, slopes, operating_gap_m: float, slope_at_operating,
                  tolerance: float = LINEARITY_TOLERANCE) -> tuple[float, float]:
     """Gap interval around the operating gap where the slope stays within ``tolerance``.
@@ -59,7 +77,6 @@ def linear_range(gaps_m, slopes, operating_gap_m: float, slope_at_operating,
     if lo == hi:
         return float("nan"), float("nan")
     return lo, hi
-
 
 
 @dataclass(frozen=True)

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fields.devices.hall import hall_readings, unit_axis
-from fields.devices.linearity import LINEARITY_TOLERANCE, SLOPE_STEP_M, linear_range
+from fields.devices.linearity import LINEARITY_TOLERANCE, SLOPE_STEP_M, linear_range, sensor_gaps
 from fields.errors import InputError
 from fields.model.design import Design
 
@@ -91,8 +91,7 @@ def placement_table(design: Design, candidates_m, axis, operating_gap_m: float |
     C = np.asarray(candidates_m, dtype=float).reshape(-1, 3)
     if C.shape[0] == 0:
         raise InputError(f"placement_table: candidates_m must hold at least one position; got shape {C.shape}.")
-    gaps = design.study.gaps() if gaps_m is None else np.sort(np.atleast_1d(np.asarray(gaps_m, dtype=float)))
-    g0 = float(design.study.operating_gap_m if operating_gap_m is None else operating_gap_m)
+    gaps, g0 = sensor_gaps(design, gaps_m, operating_gap_m)
     h = SLOPE_STEP_M
     ng = gaps.size
     allg = np.concatenate([gaps - h, gaps + h, gaps, [g0 - h, g0, g0 + h]])

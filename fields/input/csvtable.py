@@ -166,6 +166,11 @@ def show_value(v: Any) -> str:
     return s if len(s) < 60 else s[:57] + "..."
 
 
+def file_error(file: str, path: str, rule: str, got: Any, what: str = "the value") -> GeometryError:
+    """GeometryError "<file>: <path>: <what> must be <rule>; got <got>" (``got`` shown by :func:`show_value`)."""
+    return GeometryError(f"{file}: {path}", what, rule, show_value(got))
+
+
 def check_keys(data: dict, allowed: tuple[str, ...], file: str, path: str, known_by: str = "the format") -> None:
     """Raise on a key of ``data`` not in ``allowed``, suggesting the nearest valid one.
 

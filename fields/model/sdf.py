@@ -129,6 +129,18 @@ def sdf_sphere(points_m, radius_m: float) -> np.ndarray:
     return np.linalg.norm(p, axis=-1) - radius_m
 
 
+def _per_point_over_triangles(points_m, vertices_m, faces, kernel) -> np.ndarray:
+    """``kernel(q, tri)`` over chunks of points: q (c, 1, 3), tri (f, 3, 3) -> (c,); shape (...)."""
+    p = np.asarray(points_m, dtype=float)
+    flat = p.reshape(-1, 3)
+    tri = np.asarray(vertices_m, dtype=float)[np.asarray(faces, dtype=np.intp)]
+    out = np.empty(flat.shape[0])
+    step = max(1, CHUNK_ELEMENTS // max(1, tri.shape[0]))
+    for i in range(0, flat.shape[0], step):
+        out[i : i + step] = kernel(flat[i : i + step, None, :], tri)
+    return out.reshape(p.shape[:-1])
+
+
 def winding_number(points_m, vertices_m, faces) -> np.ndarray:
     """Generalized winding number of a closed triangle mesh at query points.
 
@@ -154,14 +166,7 @@ def winding_number(points_m, vertices_m, faces) -> np.ndarray:
     by ``4 pi`` (Jacobson, Kavan and Sorkine-Hornung, "Robust inside-outside segmentation using
     generalized winding numbers", ACM TOG 32(4), 2013).
     """
-    p = np.asarray(points_m, dtype=float)
-    shape = p.shape[:-1]
-    flat = p.reshape(-1, 3)
-    tri = np.asarray(vertices_m, dtype=float)[np.asarray(faces, dtype=np.intp)]
-    out = np.empty(flat.shape[0])
-    step = max(1, CHUNK_ELEMENTS // max(1, tri.shape[0]))
-    for i in range(0, flat.shape[0], step):
-        q = flat[i : i + step, None, :]
+    def solid_angles(q, tri):
         a = tri[None, :, 0, :] - q
         b = tri[None, :, 1, :] - q
         c = tri[None, :, 2, :] - q
@@ -175,8 +180,9 @@ def winding_number(points_m, vertices_m, faces) -> np.ndarray:
             + np.einsum("...i,...i->...", a, c) * lb
             + np.einsum("...i,...i->...", b, c) * la
         )
-        out[i : i + step] = 2.0 * np.arctan2(num, den).sum(axis=1) / (4.0 * np.pi)
-    return out.reshape(shape)
+        return 2.0 * np.arctan2(num, den).sum(axis=1) / (4.0 * np.pi)
+
+    return _per_point_over_triangles(points_m, vertices_m, faces, solid_angles)
 
 
 def triangle_distance_m(points_m, vertices_m, faces) -> np.ndarray:
@@ -201,9 +207,6 @@ def triangle_distance_m(points_m, vertices_m, faces) -> np.ndarray:
     (the region analysis of Ericson, *Real-Time Collision Detection*, 2005, 5.1.5). Brute force
     over all triangles, chunked: cost ``q * f``.
     """
-    p = np.asarray(points_m, dtype=float)
-    shape = p.shape[:-1]
-    flat = p.reshape(-1, 3)
     tri = np.asarray(vertices_m, dtype=float)[np.asarray(faces, dtype=np.intp)]
     A, B, C = tri[:, 0], tri[:, 1], tri[:, 2]
     e0, e1 = B - A, C - A
@@ -217,10 +220,8 @@ def triangle_distance_m(points_m, vertices_m, faces) -> np.ndarray:
     inv_den = np.where(ok, 1.0 / np.where(ok, den, 1.0), 0.0)
     inv_nn = np.where(nn > 1e-300, 1.0 / np.where(nn > 1e-300, nn, 1.0), 0.0)
     segs = ((A, B - A), (B, C - B), (C, A - C))
-    out = np.empty(flat.shape[0])
-    step = max(1, CHUNK_ELEMENTS // max(1, tri.shape[0]))
-    for i in range(0, flat.shape[0], step):
-        q = flat[i : i + step, None, :]
+
+    def nearest(q, _tri):
         v = q - A[None]
         d20 = np.einsum("qfi,fi->qf", v, e0)
         d21 = np.einsum("qfi,fi->qf", v, e1)
@@ -236,25 +237,14 @@ def triangle_distance_m(points_m, vertices_m, faces) -> np.ndarray:
             t = np.clip(np.einsum("qfi,fi->qf", w, D) / np.where(dd > 0, dd, 1.0), 0.0, 1.0)
             r = w - t[..., None] * D[None]
             edge2 = np.minimum(edge2, np.einsum("qfi,qfi->qf", r, r))
-        d2 = np.where(inside, plane2, edge2)
-        out[i : i + step] = np.sqrt(d2.min(axis=1))
-    return out.reshape(shape)
+        return np.sqrt(np.where(inside, plane2, edge2).min(axis=1))
+
+    return _per_point_over_triangles(points_m, vertices_m, faces, nearest)
 
 
 def sdf_mesh(points_m, vertices_m, faces) -> np.ndarray:
-    """Signed distance to a closed, outward-oriented triangle mesh.
-
-    Parameters
-    ----------
-    points_m : array_like, shape (..., 3)
-    vertices_m : array_like, shape (v, 3)
-    faces : array_like of int, shape (f, 3)
-
-    Returns
-    -------
-    ndarray, shape (...)
-        :func:`triangle_distance_m`, negated where :func:`winding_number` exceeds 1/2.
-    """
+    """Signed distance (...) to a closed, outward-oriented triangle mesh (arguments as
+    :func:`triangle_distance_m`): the distance, negated where :func:`winding_number` exceeds 1/2."""
     d = triangle_distance_m(points_m, vertices_m, faces)
     w = winding_number(points_m, vertices_m, faces)
     return np.where(w > 0.5, -d, d)

@@ -21,7 +21,8 @@ from typing import Any
 import numpy as np
 
 from fields.errors import GeometryError
-from fields.input.sweepfile import SweepSpec, set_path
+from fields.input.keypaths import set_path
+from fields.input.sweepfile import SweepSpec
 
 
 def unit_samples(spec: SweepSpec) -> np.ndarray:
