@@ -12,11 +12,9 @@ from __future__ import annotations
 import dataclasses
 import json
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
-from scipy.constants import mu_0
 
 from fields.input.geometry import load
 from fields.physics.wrench import wrench
@@ -25,7 +23,7 @@ from fe_reference.analytic import coil_magnet_flux_linkage_Wb, image_force_N, sp
 from fe_reference.cases import coil_only_sphere_case, design_case, slab_image_case
 from fe_reference.make import SPEC, richardson
 from fe_reference.material import FrohlichKennelly
-from fe_reference.solver import MeshSpec, Model
+from fe_reference.solver import Model
 from helpers import ROOT, SUSPENSION
 
 FE_TOL_REL = 1e-4

@@ -108,7 +108,10 @@ def cylinders_axial_force_reference(R1, L1, z1, R2, L2, z2, J1, J2):
     for s1, za in ((1, z1 + L1 / 2), (-1, z1 - L1 / 2)):
         for s2, zb in ((1, z2 + L2 / 2), (-1, z2 - L2 / 2)):
             d = zb - za
-            f = lambda k: special.j1(k * R1) * special.j1(k * R2) * np.exp(-k * d) / k
+
+            def f(k, d=d):
+                return special.j1(k * R1) * special.j1(k * R2) * np.exp(-k * d) / k
+
             val = integrate.quad(f, 0, np.inf, epsabs=0, epsrel=1e-12, limit=2000)[0]
             total += s1 * s2 * (J1 / mu_0) * (J2 / mu_0) * mu_0 * np.pi * R1 * R2 * val
     return total
@@ -488,7 +491,10 @@ def discs_axial_force_reference(discs_a, discs_b, offset_m):
     for Ra, za, sa in discs_a:
         for Rb, zb, sb in discs_b:
             d = zb - za
-            f = lambda k: special.j1(k * Ra) * special.j1(k * Rb) * special.j0(k * offset_m) * np.exp(-k * abs(d)) / k
+
+            def f(k, Ra=Ra, Rb=Rb, d=d):
+                return special.j1(k * Ra) * special.j1(k * Rb) * special.j0(k * offset_m) * np.exp(-k * abs(d)) / k
+
             br = np.concatenate(([0.0], np.geomspace(1.0, 60.0 / abs(d), 80)))
             val = sum(integrate.quad(f, a, b, epsabs=1e-16, epsrel=1e-11, limit=400)[0] for a, b in zip(br[:-1], br[1:]))
             total += np.sign(d) * sa * sb * mu_0 * np.pi * Ra * Rb * val

@@ -21,7 +21,6 @@ from typing import Any
 import numpy as np
 
 from fields import __version__
-from fields.errors import GeometryError
 from fields.input.csvtable import check_keys, file_error as _err, read_toml
 from fields.input.sweep_parameters import NUMBER_THEN_UNIT, Parameter, read_parameters
 from fields.input.units import UnitParseError, parse

@@ -2,8 +2,8 @@
 
 Any frozen dataclass (nested dataclasses, numpy arrays and scalars, enums, tuples, lists and
 dicts inside) turns into plain JSON types with :func:`to_data`; non-finite floats become
-``None`` (JSON ``null``). Three field options, set with :func:`internal`, :func:`optional` and
-:func:`flattened`, say how a field is written:
+``None`` (JSON ``null``). Three field options (:mod:`fields.studies.result_fields`), set with
+:func:`internal`, :func:`optional` and :func:`flattened`, say how a field is written:
 
 - ``internal``: kept on the object for the caller (solver objects, arrays the CLI prints), never
   written;
@@ -36,28 +36,16 @@ from typing import Any
 
 import numpy as np
 
-_KEY = "hoverfield_serialize"
+from fields.studies.result_fields import OPTION_KEY, flattened, internal, optional
 
-
-def internal(default: Any = None, **kwargs) -> Any:
-    """A dataclass field that :func:`to_data` never writes (default ``None``)."""
-    return dataclasses.field(default=default, repr=False, compare=False, metadata={_KEY: "internal"}, **kwargs)
-
-
-def optional(default: Any = None) -> Any:
-    """A dataclass field that :func:`to_data` leaves out when its value is ``None``."""
-    return dataclasses.field(default=default, metadata={_KEY: "optional"})
-
-
-def flattened(**kwargs) -> Any:
-    """A dataclass field holding a dataclass whose fields :func:`to_data` writes one level up."""
-    return dataclasses.field(metadata={_KEY: "flatten"}, **kwargs)
+#: the field options, defined beside the result dataclasses that use them
+__all__ = ["csv_table", "flat_row", "flattened", "internal", "optional", "to_data", "to_json"]
 
 
 def _fields(obj) -> dict[str, Any]:
     out: dict[str, Any] = {}
     for f in dataclasses.fields(obj):
-        how = f.metadata.get(_KEY)
+        how = f.metadata.get(OPTION_KEY)
         value = getattr(obj, f.name)
         if how == "internal" or (how == "optional" and value is None):
             continue

@@ -9,9 +9,8 @@ from pathlib import Path
 import numpy as np
 
 from fields import analysis
-from fields.io.export import header_lines, write_csv, write_json
-from fields.io.serialize import flattened, optional, to_data
 from fields.model.design import Design
+from fields.studies.result_fields import flattened, optional
 from fields.studies.stages.common import file_list
 
 
@@ -52,7 +51,7 @@ class CoilResult:
 
 
 def _heat_at(cd, eq, current_A: float) -> OperatingHeat:
-    from fields.devices import coil as coilmod, drive, inductance, winding  # noqa: F401
+    from fields.devices import winding
 
     T, run = winding.steady_temperature_C([current_A], cd.resistance_20C_ohm, cd.convection_W_per_m2K * cd.surface_area_m2,
                                           cd.ambient_temperature_C)
@@ -63,7 +62,8 @@ def _heat_at(cd, eq, current_A: float) -> OperatingHeat:
 
 
 def _sheet(design: Design, k: int, c: analysis.AxialCurves, eq, ax) -> tuple[CoilSheet, list[str]]:
-    from fields.devices import coil as coilmod, drive, inductance, winding  # noqa: F401
+    from fields.devices import coil as coilmod
+    from fields.devices import drive
     from fields.io.wording import coil_prose, headroom_rate_note, notices_text, prefixed
 
     coil = design.coils[k]
@@ -87,6 +87,9 @@ def _sheet(design: Design, k: int, c: analysis.AxialCurves, eq, ax) -> tuple[Coi
 
 
 def _write_heat_table(design: Design, c: analysis.AxialCurves, sheets: tuple[CoilSheet, ...], out: Path) -> None:
+    from fields.io.export import header_lines, write_csv
+    from fields.io.serialize import to_data
+
     cols = ["gap_m"]
     for coil in design.coils:
         cols += [f"{coil.name}_hover_current_A", f"{coil.name}_power_W", f"{coil.name}_temperature_C"]
@@ -102,7 +105,8 @@ def run_coil(design: Design, out: Path, curves=None, stability=None) -> CoilResu
 
     ``curves`` and ``stability`` are the results of :func:`run_curves` and :func:`run_stability`
     when the caller has them; computed (the stability without maps) otherwise."""
-    from fields.devices import coil as coilmod, drive, inductance, winding  # noqa: F401
+    from fields.devices import inductance
+    from fields.io.export import write_json
     from fields.io.wording import group_coil_warnings
     from fields.studies.stages.stability import run_stability
 

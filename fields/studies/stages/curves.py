@@ -9,9 +9,8 @@ from pathlib import Path
 import numpy as np
 
 from fields import analysis
-from fields.io.export import header_lines, write_csv, write_json, write_png
-from fields.io.serialize import internal
 from fields.model.design import Design
+from fields.studies.result_fields import internal
 from fields.studies.stages.common import close_figure, file_list
 
 
@@ -65,6 +64,8 @@ def all_equilibria(design: Design, c: analysis.AxialCurves) -> list[analysis.Equ
 
 
 def _write_tables(design: Design, c: analysis.AxialCurves, out: Path) -> None:
+    from fields.io.export import header_lines, write_csv
+
     cols = ["gap_m", "height_m"] + [f"Fup_N_at_{I:g}A" for I in c.currents_A] + [
         "F0_N", "ki_N_per_A", "kz0_N_per_m", "kz_at_hover_N_per_m", "hover_current_A", "hover_within_limit",
         "max_total_mass_kg", "min_total_mass_kg", "max_payload_kg", "min_payload_kg", "contact", "error_F_N"]
@@ -90,6 +91,7 @@ def _at_operating_gap(design: Design, c: analysis.AxialCurves) -> AtOperatingGap
 def run_curves(design: Design, out: Path) -> CurvesResult:
     """Axial force-gap-current curves: curves.csv, kz_table.csv, curves.json, curves.png."""
     from fields.io import plots
+    from fields.io.export import write_json, write_png
     from fields.io.wording import curve_warnings, equilibrium_label
 
     out = Path(out)

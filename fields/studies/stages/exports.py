@@ -8,7 +8,6 @@ from pathlib import Path
 
 import numpy as np
 
-from fields.io.export import header_lines, write_atomic, write_csv, write_json
 from fields.model.design import Design
 
 
@@ -24,6 +23,7 @@ class ExportsResult:
 def _tables(design: Design, c, exp: Path) -> list[str]:
     """Force, stiffness, force-per-ampere and inverse tables on a (gap, current) grid: CSV + C header."""
     from fields.io import formats
+    from fields.io.export import header_lines, write_atomic, write_csv
 
     files = []
     imax = c.max_current_A
@@ -65,6 +65,7 @@ def _tables(design: Design, c, exp: Path) -> list[str]:
 def _spice(design: Design, control, exp: Path) -> list[str]:
     """The control axis's plant as a SPICE subcircuit."""
     from fields.io import formats
+    from fields.io.export import write_atomic
 
     t, prm = control.table, control.params
     sp = formats.spice_subcircuit(design.name, "hf_plant", t.positions_m, t.F0_N, t.Fk_N_per_A,
@@ -78,6 +79,7 @@ def _meshes(design: Design, exp: Path):
     """Every body as one STL and as a GLB scene of named nodes; returns (files, the joined mesh)."""
     import trimesh
 
+    from fields.io.export import write_atomic
     from fields.model import meshes as bodies
 
     meshes = bodies.body_meshes(design)
@@ -95,6 +97,8 @@ def run_exports(design: Design, out: Path, curves, control=None) -> ExportsResul
 
     ``curves`` is the result of :func:`fields.studies.stages.curves.run_curves`, ``control`` of
     :func:`fields.studies.stages.control.run_control` (the SPICE plant needs it; left out without it)."""
+    from fields.io.export import write_json
+
     exp = Path(out) / "exports"
     files = _tables(design, curves.curves, exp)
     if control is not None:

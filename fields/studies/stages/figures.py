@@ -7,8 +7,6 @@ import shutil
 import subprocess
 from pathlib import Path
 
-from fields.io.export import write_atomic
-
 ROOT = Path(__file__).resolve().parents[3]
 
 #: example file -> (figure written by the report, name in the README's folder)
@@ -23,6 +21,7 @@ PICKS = {
 
 def _collect(out_dir: Path, work_dir: Path, progress: bool) -> list[str]:
     from fields.input.geometry import load
+    from fields.io.export import write_atomic
     from fields.studies.stages.report import run_report
 
     written = []
@@ -38,6 +37,8 @@ def _collect(out_dir: Path, work_dir: Path, progress: bool) -> list[str]:
 
 
 def _screenshot(out_dir: Path, work_dir: Path) -> list[str]:
+    from fields.io.export import write_atomic
+
     browser = shutil.which("chromium") or shutil.which("chromium-browser")
     if not browser:
         return []

@@ -11,9 +11,8 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from fields.errors import HoverfieldError
-from fields.io.export import write_atomic, write_json, write_png
-from fields.io.serialize import internal
 from fields.model.design import Design
+from fields.studies.result_fields import internal
 from fields.studies.stages.common import close_figure
 
 STAGES = ("check", "curves", "stability", "coil", "sensors", "control", "exports")
@@ -41,6 +40,7 @@ class ReportRun:
 def run_check(design: Design, out: Path) -> CheckResult:
     """Design summary (design.json) and the drawing to scale (design.png)."""
     from fields.io import plots
+    from fields.io.export import write_json, write_png
     from fields.io.summary import design_summary
 
     out = Path(out)
@@ -104,6 +104,7 @@ def run_report(design: Design, out: Path, progress: bool = True, geometry_text: 
     """Run every analysis, write every file, then the HTML report (report.html) and run_status.json."""
     import json
 
+    from fields.io.export import write_atomic, write_json
     from fields.io.report_builder import build_report
 
     out = Path(out)

@@ -9,9 +9,8 @@ from pathlib import Path
 import numpy as np
 
 from fields.errors import HoverfieldError
-from fields.io.export import header_lines, write_csv, write_json, write_png
-from fields.io.serialize import flattened, internal, optional
 from fields.model.design import Design
+from fields.studies.result_fields import flattened, internal, optional
 from fields.studies.stages.common import close_figure, slug
 
 
@@ -62,6 +61,8 @@ def _responses(design: Design, gaps):
 
 
 def _write_curves(design: Design, gaps, beams, halls, out: Path) -> None:
+    from fields.io.export import header_lines, write_csv
+
     cols = ["gap_m"]
     data = [gaps]
     for b in beams:
@@ -79,6 +80,7 @@ def _write_curves(design: Design, gaps, beams, halls, out: Path) -> None:
 
 def _placement(design: Design, gaps, out: Path):
     from fields.devices import placement
+    from fields.io.export import header_lines, write_csv
 
     a, b, n = design.study.sensor_line
     axis = next((np.asarray(s.axis) for s in design.sensors if s.kind == "hall"), design.up)
@@ -92,6 +94,7 @@ def _placement(design: Design, gaps, out: Path):
 
 def _inverse_tables(design: Design, gaps, halls, out: Path) -> tuple[list[str], list[str]]:
     from fields.devices import hall
+    from fields.io.export import header_lines, write_csv
 
     files, warnings = [], []
     for h in halls:
@@ -110,6 +113,7 @@ def _inverse_tables(design: Design, gaps, halls, out: Path) -> tuple[list[str], 
 def run_sensors(design: Design, out: Path) -> SensorsResult:
     """Sensor curves (sensors.csv, sensors.png), Hall decomposition, placement table."""
     from fields.io import plots
+    from fields.io.export import write_json, write_png
 
     out = Path(out)
     gaps = design.study.gaps()

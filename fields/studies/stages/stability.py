@@ -10,9 +10,8 @@ import numpy as np
 
 from fields import analysis
 from fields.analysis.operating import OperatingPoint, operating_point
-from fields.io.export import header_lines, write_csv, write_json, write_png
-from fields.io.serialize import internal, optional
 from fields.model.design import Design
+from fields.studies.result_fields import internal, optional
 from fields.studies.stages.common import close_figure, file_list
 
 
@@ -89,6 +88,8 @@ class StabilityResult:
 
 
 def _write_stiffness(design: Design, S: analysis.Stiffness, out: Path) -> None:
+    from fields.io.export import header_lines, write_csv
+
     rows = [[analysis.AXES[i], *S.K[i], *S.error[i]] for i in range(6)]
     write_csv(out / "stiffness.csv", ["row"] + [f"K_{a}" for a in analysis.AXES] + [f"err_{a}" for a in analysis.AXES], rows,
               header_lines(design.name, "6x6 stiffness K = -d(F, T)/d(x, y, z, rx, ry, rz) about the centre of mass; "
@@ -96,6 +97,7 @@ def _write_stiffness(design: Design, S: analysis.Stiffness, out: Path) -> None:
 
 
 def _allocation(design: Design, eq: analysis.Equilibrium, out: Path) -> AllocationSummary:
+    from fields.io.export import header_lines, write_csv
     from fields.io.wording import allocation_text
 
     A = analysis.allocation_matrix(design, eq.position_m, eq.rotvec_rad)
@@ -108,6 +110,8 @@ def _allocation(design: Design, eq: analysis.Equilibrium, out: Path) -> Allocati
 
 def write_map(path: Path, design: Design, mp: analysis.PoseMap) -> None:
     """One pose map (gap x offset or tilt) as CSV: force, torque, restoring, passively centred, contact."""
+    from fields.io.export import header_lines, write_csv
+
     G, S = mp.restoring.shape
     unit = "m" if mp.kind == "lateral" else "rad"
     name = "offset_x" if mp.kind == "lateral" else "tilt_y"
@@ -124,6 +128,7 @@ MAP_FILES = ("map_lateral.csv", "map_tilt.csv", "stiffness_vs_gap.csv", "maps.pn
 
 def _maps(design: Design, eq: analysis.Equilibrium, out: Path) -> PoseMaps:
     from fields.io import plots
+    from fields.io.export import header_lines, write_csv, write_png
 
     lat = analysis.pose_map(design, "lateral", currents_A=eq.currents_A)
     tilt = analysis.pose_map(design, "tilt", currents_A=eq.currents_A)
@@ -152,6 +157,7 @@ def run_stability(design: Design, out: Path, curves: analysis.AxialCurves | None
 
     ``curves`` are the axial curves when the caller has them (the report does)."""
     from fields.io import wording
+    from fields.io.export import write_json
 
     out = Path(out)
     op = operating_point(design, curves)
