@@ -3,30 +3,14 @@
 from __future__ import annotations
 
 from fields.cli.common import add_file_command, load_design, out_dir, print_files, print_warnings
+from fields.io.wording import COIL_SHEET_ROWS
 
 HELP = "coil datasheet: winding, resistance, inductance, heat at the hover current, drive headroom"
-
-#: (label, CoilData attribute, unit shown, scale from SI)
-ROWS = [
-    ("turns", "turns", "", 1.0),
-    ("bare wire diameter", "wire_diameter_m", "mm", 1e3),
-    ("copper fill factor", "copper_fill_factor", "", 1.0),
-    ("mean turn length", "mean_turn_length_m", "mm", 1e3),
-    ("wire length", "wire_length_m", "m", 1.0),
-    ("copper mass", "copper_mass_kg", "g", 1e3),
-    ("resistance at 20 C", "resistance_20C_ohm", "ohm", 1.0),
-    ("self-inductance (core included)", "inductance_H", "mH", 1e3),
-    ("electrical time constant L/R", "time_constant_20C_s", "ms", 1e3),
-    ("current density at nominal", "current_density_nominal_A_per_mm2", "A/mm^2", 1.0),
-    ("current density at max", "current_density_max_A_per_mm2", "A/mm^2", 1.0),
-    ("cooling surface", "surface_area_m2", "cm^2", 1e4),
-]
-
 
 def _print_sheet(sheet) -> None:
     d = sheet.datasheet
     print(f"  {d.name}:")
-    for label, key, unit, scale in ROWS:
+    for label, key, unit, scale in COIL_SHEET_ROWS:
         v = getattr(d, key, None)
         if v is not None:
             print(f"    {label:<34} {v * scale:>10.4g} {unit}")

@@ -59,22 +59,16 @@ NDFEB_DENSITY = 7500.0
 #: density of sintered hard ferrite, typical (kg/m^3); from memory
 FERRITE_DENSITY = 4900.0
 
+#: (grade, remanence min T, remanence max T) of each family
+_NDFEB_REMANENCE_T = (("N35", 1.17, 1.22), ("N38", 1.22, 1.25), ("N40", 1.25, 1.28), ("N42", 1.28, 1.32),
+                      ("N45", 1.32, 1.38), ("N48", 1.38, 1.42), ("N50", 1.40, 1.45), ("N52", 1.43, 1.48))
+_FERRITE_REMANENCE_T = (("C5", 0.36, 0.40), ("C8", 0.38, 0.41), ("HF24/23", 0.35, 0.37), ("HF28/26", 0.37, 0.39))
+
 GRADES: dict[str, Grade] = {
-    g.name.upper(): g
-    for g in [
-        Grade("N35", "NdFeB", 1.17, 1.22, NDFEB_DENSITY, _NDFEB_SRC),
-        Grade("N38", "NdFeB", 1.22, 1.25, NDFEB_DENSITY, _NDFEB_SRC),
-        Grade("N40", "NdFeB", 1.25, 1.28, NDFEB_DENSITY, _NDFEB_SRC),
-        Grade("N42", "NdFeB", 1.28, 1.32, NDFEB_DENSITY, _NDFEB_SRC),
-        Grade("N45", "NdFeB", 1.32, 1.38, NDFEB_DENSITY, _NDFEB_SRC),
-        Grade("N48", "NdFeB", 1.38, 1.42, NDFEB_DENSITY, _NDFEB_SRC),
-        Grade("N50", "NdFeB", 1.40, 1.45, NDFEB_DENSITY, _NDFEB_SRC),
-        Grade("N52", "NdFeB", 1.43, 1.48, NDFEB_DENSITY, _NDFEB_SRC),
-        Grade("C5", "ferrite", 0.36, 0.40, FERRITE_DENSITY, _FERRITE_SRC),
-        Grade("C8", "ferrite", 0.38, 0.41, FERRITE_DENSITY, _FERRITE_SRC),
-        Grade("HF24/23", "ferrite", 0.35, 0.37, FERRITE_DENSITY, _FERRITE_SRC),
-        Grade("HF28/26", "ferrite", 0.37, 0.39, FERRITE_DENSITY, _FERRITE_SRC),
-    ]
+    name.upper(): Grade(name, family, lo, hi, density, source)
+    for family, density, source, rows in (("NdFeB", NDFEB_DENSITY, _NDFEB_SRC, _NDFEB_REMANENCE_T),
+                                          ("ferrite", FERRITE_DENSITY, _FERRITE_SRC, _FERRITE_REMANENCE_T))
+    for name, lo, hi in rows
 }
 
 

@@ -6,7 +6,7 @@ from pathlib import Path
 
 from fields import __version__
 from fields.io.report import esc, img, num, page, table
-from fields.io.wording import SAFETY_POINTS
+from fields.io.wording import COIL_SHEET_ROWS, SAFETY_POINTS
 
 #: the JSON files the report reads, by the names the sections use
 _FILES = ("stability.json", "curves.json", "coil.json", "sensors.json", "control.json")
@@ -25,7 +25,7 @@ def _mode_class(m: dict) -> str:
 
 def _verdict(J: dict, failed: dict) -> list[str]:
     """The verdict first, then what failed, the warnings and the safety points."""
-    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
+    stab, ctrl = J["stability.json"], J["control.json"]
     S: list[str] = []
     v = ['<div class="verdict"><h2 style="margin-top:0;border:0">Verdict</h2>']
     if stab:
@@ -44,7 +44,7 @@ def _verdict(J: dict, failed: dict) -> list[str]:
             f"<li><b>{esc(k)}</b>: {esc(msg)}</li>" for k, msg in failed.items()) + "</ul>"
                  "<p>Everything else in this report and its files was completed.</p></div>")
     warnings = []
-    for src in (curves, coil, sens):
+    for src in (J["curves.json"], J["coil.json"], J["sensors.json"]):
         if src:
             warnings += src.get("warnings", [])
     if stab:
@@ -60,8 +60,7 @@ def _verdict(J: dict, failed: dict) -> list[str]:
 
 def _key_numbers(J: dict, out: Path) -> list[str]:
     """The key numbers table and the drawing."""
-    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
-    S: list[str] = []
+    stab, curves, coil, ctrl = (J[k] for k in ("stability.json", "curves.json", "coil.json", "control.json"))
     rows = []
     if curves:
         rows.append(["floater mass", num(curves["mass_kg"], "curves.json", "mass_kg", "g", scale=1e3)])
@@ -86,103 +85,83 @@ def _key_numbers(J: dict, out: Path) -> list[str]:
             if "drive_headroom" in c:
                 rows.append([f"{esc(c['name'])}: supply needed (R I + L dI/dt)",
                              num(c["drive_headroom"]["voltage_required_V"], "coil.json", f"coils[{i}].drive_headroom.voltage_required_V", "V")])
-    S.append("<h2>Key numbers</h2>" + table(["quantity", "value"], rows))
-    S.append("<h2>The design</h2>" + img(out / "design.png", "design drawn to scale"))
+    return ["<h2>Key numbers</h2>" + table(["quantity", "value"], rows),
+            "<h2>The design</h2>" + img(out / "design.png", "design drawn to scale")]
+
+
+def _curves(curves: dict, out: Path) -> list[str]:
+    """Axial force versus gap (curves.json)."""
+    S = ["<h2>Axial force versus gap</h2>" + img(out / "curves.png", "force versus gap")]
+    eq_rows = [[num(e["current_A"], "curves.json", f"equilibria[{i}].current_A", "A"),
+                num(e["gap_m"], "curves.json", f"equilibria[{i}].gap_m", "mm", scale=1e3),
+                num(e["kz_N_per_m"], "curves.json", f"equilibria[{i}].kz_N_per_m", "N/m"), esc(e["label"])]
+               for i, e in enumerate(curves["equilibria"])]
+    if eq_rows:
+        S.append("<h3>Equilibria (force = weight)</h3>" + table(["current", "gap", "k_z", "kind"], eq_rows, left_cols=0))
+    S.append('<p>Data: <code>curves.csv</code>, <code>kz_table.csv</code>, <code>curves.json</code>. The payload '
+             'envelope (heaviest and lightest floater that can hover within the current limit) is in '
+             '<code>curves.csv</code> (max_payload_kg, min_payload_kg).</p>')
     return S
 
 
-def _curves(J: dict, out: Path) -> list[str]:
-    """Axial force versus gap."""
-    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
-    S: list[str] = []
-    if curves:
-        S.append("<h2>Axial force versus gap</h2>" + img(out / "curves.png", "force versus gap"))
-        eq_rows = [[num(e["current_A"], "curves.json", f"equilibria[{i}].current_A", "A"),
-                    num(e["gap_m"], "curves.json", f"equilibria[{i}].gap_m", "mm", scale=1e3),
-                    num(e["kz_N_per_m"], "curves.json", f"equilibria[{i}].kz_N_per_m", "N/m"), esc(e["label"])]
-                   for i, e in enumerate(curves["equilibria"])]
-        if eq_rows:
-            S.append("<h3>Equilibria (force = weight)</h3>" + table(["current", "gap", "k_z", "kind"], eq_rows, left_cols=0))
-        S.append('<p>Data: <code>curves.csv</code>, <code>kz_table.csv</code>, <code>curves.json</code>. The payload '
-                 'envelope (heaviest and lightest floater that can hover within the current limit) is in '
-                 '<code>curves.csv</code> (max_payload_kg, min_payload_kg).</p>')
+def _stability(stab: dict, out: Path) -> list[str]:
+    """Stiffness matrix, Earnshaw check, maps (stability.json)."""
+    S = ["<h2>Stability at the operating point</h2>"]
+    axes = ["x", "y", "z", "rx", "ry", "rz"]
+    K = stab["stiffness_matrix"]
+    E = stab["stiffness_error"]
+    krows = [[esc(a)] + [num(K[i][j], "stability.json", f"stiffness_matrix[{i}][{j}]", digits=4) +
+                         f' <small>&plusmn;{num(E[i][j], "stability.json", f"stiffness_error[{i}][{j}]", digits=1)}</small>'
+                         for j in range(6)] for i, a in enumerate(axes)]
+    S.append("<p>Stiffness matrix K = -d(F, T)/d(x, y, z, rx, ry, rz) about the centre of mass "
+             "(N/m, N/rad, N m/m, N m/rad), with the Richardson error bar of each entry. "
+             f"{esc(stab['step_rule'])}.</p>" + table(["row"] + axes, krows))
+    S.append(f"<p>Earnshaw check: trace of the translational block "
+             f"{num(stab['earnshaw_trace_N_per_m'], 'stability.json', 'earnshaw_trace_N_per_m', 'N/m')} "
+             f"({num(stab['earnshaw_residual'], 'stability.json', 'earnshaw_residual', digits=2)} of the largest diagonal entry); "
+             f"{esc(stab['earnshaw_note'])}.</p>")
+    if "allocation" in stab:
+        S.append(f"<p>Coils to force/torque: {esc(stab['allocation']['text'])} (<code>allocation.csv</code>).</p>")
+    S.append(img(out / "maps.png", "sideways and tilt maps") + img(out / "stiffness_vs_gap.png", "stiffness versus gap"))
     return S
 
 
-def _stability(J: dict, out: Path) -> list[str]:
-    """Stiffness matrix, Earnshaw check, maps."""
-    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
-    S: list[str] = []
-    if stab:
-        S.append("<h2>Stability at the operating point</h2>")
-        axes = ["x", "y", "z", "rx", "ry", "rz"]
-        K = stab["stiffness_matrix"]
-        E = stab["stiffness_error"]
-        krows = [[esc(a)] + [num(K[i][j], "stability.json", f"stiffness_matrix[{i}][{j}]", digits=4) +
-                             f' <small>&plusmn;{num(E[i][j], "stability.json", f"stiffness_error[{i}][{j}]", digits=1)}</small>'
-                             for j in range(6)] for i, a in enumerate(axes)]
-        S.append("<p>Stiffness matrix K = -d(F, T)/d(x, y, z, rx, ry, rz) about the centre of mass "
-                 "(N/m, N/rad, N m/m, N m/rad), with the Richardson error bar of each entry. "
-                 f"{esc(stab['step_rule'])}.</p>" + table(["row"] + axes, krows))
-        S.append(f"<p>Earnshaw check: trace of the translational block "
-                 f"{num(stab['earnshaw_trace_N_per_m'], 'stability.json', 'earnshaw_trace_N_per_m', 'N/m')} "
-                 f"({num(stab['earnshaw_residual'], 'stability.json', 'earnshaw_residual', digits=2)} of the largest diagonal entry); "
-                 f"{esc(stab['earnshaw_note'])}.</p>")
-        if "allocation" in stab:
-            S.append(f"<p>Coils to force/torque: {esc(stab['allocation']['text'])} (<code>allocation.csv</code>).</p>")
-        S.append(img(out / "maps.png", "sideways and tilt maps") + img(out / "stiffness_vs_gap.png", "stiffness versus gap"))
-    return S
+def _coil(coil: dict, out: Path) -> list[str]:
+    """Coil datasheet (coil.json)."""
+    hdr = ["quantity"] + [esc(c["name"]) for c in coil["coils"]]
+    crow = []
+    for label, key, unit, sc in COIL_SHEET_ROWS:
+        crow.append([label] + [num(c.get(key), "coil.json", f"coils[{i}].{key}", unit, scale=sc) for i, c in enumerate(coil["coils"])])
+    crow.append(["dL/dgap"] + [esc(c["dL_dgap_note"]) for c in coil["coils"]])
+    return ["<h2>Coil datasheet</h2>", table(hdr, crow) + "<p>Power and steady temperature at the hover current of "
+            "every gap: <code>coil_heat.csv</code>. Copper data: IEC 60028. Thermal classes: IEC 60085.</p>"]
 
 
-def _coil(J: dict, out: Path) -> list[str]:
-    """Coil datasheet."""
-    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
-    S: list[str] = []
-    if coil:
-        S.append("<h2>Coil datasheet</h2>")
-        spec = [("turns", "turns", "", 1), ("bare wire diameter", "wire_diameter_m", "mm", 1e3),
-                ("copper fill factor", "copper_fill_factor", "", 1), ("wire length", "wire_length_m", "m", 1),
-                ("copper mass", "copper_mass_kg", "g", 1e3), ("resistance at 20 C", "resistance_20C_ohm", "ohm", 1),
-                ("self-inductance", "inductance_H", "mH", 1e3), ("L/R at 20 C", "time_constant_20C_s", "ms", 1e3),
-                ("current density at max current", "current_density_max_A_per_mm2", "A/mm^2", 1),
-                ("cooling surface", "surface_area_m2", "cm^2", 1e4),
-                ("convection coefficient", "convection_W_per_m2K", "W/m^2K", 1)]
-        hdr = ["quantity"] + [esc(c["name"]) for c in coil["coils"]]
-        crow = []
-        for label, key, unit, sc in spec:
-            crow.append([label] + [num(c.get(key), "coil.json", f"coils[{i}].{key}", unit, scale=sc) for i, c in enumerate(coil["coils"])])
-        crow.append(["dL/dgap"] + [esc(c["dL_dgap_note"]) for c in coil["coils"]])
-        S.append(table(hdr, crow) + "<p>Power and steady temperature at the hover current of every gap: "
-                 "<code>coil_heat.csv</code>. Copper data: IEC 60028. Thermal classes: IEC 60085.</p>")
-    return S
-
-
-def _sensors(J: dict, out: Path) -> list[str]:
-    """Sensor curves and placement."""
-    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
-    S: list[str] = []
-    if sens and sens.get("sensors"):
-        S.append("<h2>Sensors</h2>" + img(out / "sensors.png", "sensor curves"))
-        srows = []
-        for i, s in enumerate(sens["sensors"]):
-            if s["kind"] == "beam":
-                srows.append([esc(s["name"]), "optical beam gate",
-                              "gain " + num(s["gain_per_mm"], "sensors.json", f"sensors[{i}].gain_per_mm", "per mm"),
-                              num(s["linear_range_m"][0], "sensors.json", f"sensors[{i}].linear_range_m[0]", "", scale=1e3) + " .. "
-                              + num(s["linear_range_m"][1], "sensors.json", f"sensors[{i}].linear_range_m[1]", "mm", scale=1e3)])
-            else:
-                srows.append([esc(s["name"]), "Hall sensor",
-                              "sensitivity " + num(s["sensitivity_at_operating_T_per_m"], "sensors.json",
-                                                   f"sensors[{i}].sensitivity_at_operating_T_per_m", "mT/mm", scale=1.0),
-                              num(s["linear_range_m"][0], "sensors.json", f"sensors[{i}].linear_range_m[0]", "", scale=1e3) + " .. "
-                              + num(s["linear_range_m"][1], "sensors.json", f"sensors[{i}].linear_range_m[1]", "mm", scale=1e3)])
-        S.append(table(["sensor", "kind", "at the operating gap", "linear range"], srows, left_cols=2))
-        if "placement" in sens:
-            p = sens["placement"]["best_position_m"]
-            S.append(f"<p>Hall placement: best candidate at ({num(p[0], 'sensors.json', 'placement.best_position_m[0]', '', scale=1e3)}, "
-                     f"{num(p[1], 'sensors.json', 'placement.best_position_m[1]', '', scale=1e3)}, "
-                     f"{num(p[2], 'sensors.json', 'placement.best_position_m[2]', 'mm', scale=1e3)}) by the stated rule "
-                     "(widest linear range, then least cross-talk); all candidates in <code>placement.csv</code>.</p>")
+def _sensors(sens: dict, out: Path) -> list[str]:
+    """Sensor curves and placement (sensors.json)."""
+    if not sens.get("sensors"):
+        return []
+    S = ["<h2>Sensors</h2>" + img(out / "sensors.png", "sensor curves")]
+    srows = []
+    for i, s in enumerate(sens["sensors"]):
+        if s["kind"] == "beam":
+            srows.append([esc(s["name"]), "optical beam gate",
+                          "gain " + num(s["gain_per_mm"], "sensors.json", f"sensors[{i}].gain_per_mm", "per mm"),
+                          num(s["linear_range_m"][0], "sensors.json", f"sensors[{i}].linear_range_m[0]", "", scale=1e3) + " .. "
+                          + num(s["linear_range_m"][1], "sensors.json", f"sensors[{i}].linear_range_m[1]", "mm", scale=1e3)])
+        else:
+            srows.append([esc(s["name"]), "Hall sensor",
+                          "sensitivity " + num(s["sensitivity_at_operating_T_per_m"], "sensors.json",
+                                               f"sensors[{i}].sensitivity_at_operating_T_per_m", "mT/mm", scale=1.0),
+                          num(s["linear_range_m"][0], "sensors.json", f"sensors[{i}].linear_range_m[0]", "", scale=1e3) + " .. "
+                          + num(s["linear_range_m"][1], "sensors.json", f"sensors[{i}].linear_range_m[1]", "mm", scale=1e3)])
+    S.append(table(["sensor", "kind", "at the operating gap", "linear range"], srows, left_cols=2))
+    if "placement" in sens:
+        p = sens["placement"]["best_position_m"]
+        S.append(f"<p>Hall placement: best candidate at ({num(p[0], 'sensors.json', 'placement.best_position_m[0]', '', scale=1e3)}, "
+                 f"{num(p[1], 'sensors.json', 'placement.best_position_m[1]', '', scale=1e3)}, "
+                 f"{num(p[2], 'sensors.json', 'placement.best_position_m[2]', 'mm', scale=1e3)}) by the stated rule "
+                 "(widest linear range, then least cross-talk); all candidates in <code>placement.csv</code>.</p>")
     return S
 
 
@@ -252,10 +231,9 @@ def _control(J: dict, out: Path) -> list[str]:
     return S
 
 
-def _accuracy(J: dict, out: Path) -> list[str]:
+def _accuracy(J: dict) -> list[str]:
     """Numerical accuracy estimates."""
-    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
-    S: list[str] = []
+    stab, curves, coil = (J[k] for k in ("stability.json", "curves.json", "coil.json"))
     acc = []
     if curves:
         acc.append(["force quadrature (two rule orders), largest over the gaps",
@@ -266,12 +244,12 @@ def _accuracy(J: dict, out: Path) -> list[str]:
     if coil:
         for i, c in enumerate(coil["coils"]):
             acc.append([f"{esc(c['name'])}: inductance quadrature", num(c["inductance_error_H"], "coil.json", f"coils[{i}].inductance_error_H", "H", digits=2)])
-    if acc:
-        S.append("<h2>Numerical accuracy</h2>" + table(["estimate", "value"], acc)
-                 + "<p>Iron cores use an iron-free approximation (a uniformly magnetized equivalent body with the "
-                 "published demagnetizing factor of its shape): treat results with cores as estimates, especially at gaps "
-                 "small compared with the core diameter or near saturation.</p>")
-    return S
+    if not acc:
+        return []
+    return ["<h2>Numerical accuracy</h2>" + table(["estimate", "value"], acc)
+            + "<p>Iron cores use an iron-free approximation (a uniformly magnetized equivalent body with the "
+            "published demagnetizing factor of its shape): treat results with cores as estimates, especially at gaps "
+            "small compared with the core diameter or near saturation.</p>"]
 
 
 def _files_and_inputs(out: Path, input_lines, geometry_text: str | None) -> list[str]:
@@ -283,7 +261,6 @@ def _files_and_inputs(out: Path, input_lines, geometry_text: str | None) -> list
         S.append("<h2>Inputs (as read, with units)</h2><pre>" + esc("\n".join(input_lines)) + "</pre>")
     if geometry_text:
         S.append("<h3>Geometry file</h3><pre>" + esc(geometry_text) + "</pre>")
-
     return S
 
 
@@ -313,8 +290,11 @@ def build_report(design, out: Path, failed: dict, load, geometry_text: str | Non
                     + "</p>"]
     if design.description:
         S.append(f"<p>{esc(design.description)}</p>")
-    S += _verdict(J, failed)
-    for section in (_key_numbers, _curves, _stability, _coil, _sensors, _control, _accuracy):
-        S += section(J, out)
+    S += _verdict(J, failed) + _key_numbers(J, out)
+    for name, section in (("curves.json", _curves), ("stability.json", _stability), ("coil.json", _coil),
+                          ("sensors.json", _sensors)):
+        if J[name]:
+            S += section(J[name], out)
+    S += _control(J, out) + _accuracy(J)
     S += _files_and_inputs(out, input_lines, geometry_text)
     return page(f"{design.name}: hoverfield report", S)

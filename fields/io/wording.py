@@ -252,6 +252,20 @@ def notices_text(notices) -> tuple[str, ...]:
     return tuple(notice_text(n) for n in notices)
 
 
+#: the rows of a coil datasheet as the command line and the report show it:
+#: (label, CoilData attribute, unit shown, scale from SI)
+COIL_SHEET_ROWS: tuple[tuple[str, str, str, float], ...] = (
+    ("turns", "turns", "", 1.0), ("bare wire diameter", "wire_diameter_m", "mm", 1e3),
+    ("copper fill factor", "copper_fill_factor", "", 1.0), ("mean turn length", "mean_turn_length_m", "mm", 1e3),
+    ("wire length", "wire_length_m", "m", 1.0), ("copper mass", "copper_mass_kg", "g", 1e3),
+    ("resistance at 20 C", "resistance_20C_ohm", "ohm", 1.0),
+    ("self-inductance (core included)", "inductance_H", "mH", 1e3), ("L/R at 20 C", "time_constant_20C_s", "ms", 1e3),
+    ("current density at nominal current", "current_density_nominal_A_per_mm2", "A/mm^2", 1.0),
+    ("current density at max current", "current_density_max_A_per_mm2", "A/mm^2", 1.0),
+    ("cooling surface", "surface_area_m2", "cm^2", 1e4), ("convection coefficient", "convection_W_per_m2K", "W/m^2K", 1.0),
+)
+
+
 def coil_prose(cd) -> dict:
     """The explanatory fields of a coil datasheet (:class:`fields.devices.coil.CoilData`)."""
     from fields.devices.winding import CONVECTION_SOURCE, CURRENT_DENSITY_SOURCE

@@ -48,19 +48,8 @@ def primitive_sdf_xyz(shape: str, size, x, y, z):
 
 
 def sdf_cylinder(points_m, radius_m: float, height_m: float) -> np.ndarray:
-    """Signed distance to a solid cylinder in its own frame (axis z, centre at origin).
-
-    Parameters
-    ----------
-    points_m : array_like, shape (..., 3)
-        Query points in the cylinder's own frame (m).
-    radius_m, height_m : float
-        Radius and full height (m).
-
-    Returns
-    -------
-    ndarray, shape (...)
-        Signed distance (m), negative inside.
+    """Signed distance (...) to a solid cylinder of ``radius_m`` and full ``height_m`` at points (..., 3)
+    in its own frame (axis z, centre at origin).
 
     Notes
     -----
@@ -74,19 +63,9 @@ def sdf_cylinder(points_m, radius_m: float, height_m: float) -> np.ndarray:
 
 
 def sdf_ring(points_m, inner_radius_m: float, outer_radius_m: float, height_m: float) -> np.ndarray:
-    """Signed distance to a ring (annular cylinder) in its own frame (axis z, centre at origin).
-
-    Parameters
-    ----------
-    points_m : array_like, shape (..., 3)
-        Query points in the ring's own frame (m).
-    inner_radius_m, outer_radius_m, height_m : float
-        Bore radius, outer radius and full height (m). ``inner_radius_m = 0`` gives a cylinder.
-
-    Returns
-    -------
-    ndarray, shape (...)
-        Signed distance (m), negative inside the material.
+    """Signed distance (...) to a ring (annular cylinder) at points (..., 3) in its own frame (axis z,
+    centre at origin): bore radius ``inner_radius_m`` (0 gives a cylinder), ``outer_radius_m``, full
+    ``height_m``; negative inside the material.
 
     Notes
     -----
@@ -99,19 +78,8 @@ def sdf_ring(points_m, inner_radius_m: float, outer_radius_m: float, height_m: f
 
 
 def sdf_cuboid(points_m, dimensions_m) -> np.ndarray:
-    """Signed distance to a cuboid in its own frame (edges on the axes, centre at origin).
-
-    Parameters
-    ----------
-    points_m : array_like, shape (..., 3)
-        Query points (m).
-    dimensions_m : array_like, shape (3,)
-        Edge lengths along own x, y, z (m).
-
-    Returns
-    -------
-    ndarray, shape (...)
-        Signed distance (m), negative inside.
+    """Signed distance (...) to a cuboid of edges ``dimensions_m`` (3,) along own x, y, z at points
+    (..., 3) in its own frame (edges on the axes, centre at origin).
 
     Notes
     -----
