@@ -32,6 +32,7 @@ from dataclasses import replace
 import numpy as np
 
 from fields.model.design import Coil, Design, Floater, Magnet, Study
+from fields.input.tables import G_STANDARD
 from fields.physics.levels import LEVELS
 from fields.physics.wrench import wrench_basis
 
@@ -47,7 +48,7 @@ def build_design() -> Design:
     floater = Floater("disc floater", (disc,), 0.0, (0.0, 0.0, 0.0), disc.mass_kg, (0.0, 0.0, 0.0),
                       ((1.0, 0.0, 0.0), (0.0, 1.0, 0.0), (0.0, 0.0, 1.0)))
     study = Study(0.003, 0.025, N_POSES, "coil", (0.0, 0.0, 0.010), (0.0, 0.0, -1.0), 0.010, (CURRENT_A,),
-                  0.0, 1, 0.0, 1, (0.0, 0.0, -9.80665), 12.0)
+                  0.0, 1, 0.0, 1, (0.0, 0.0, -G_STANDARD), 12.0)
     return Design("bench (invented)", "invented suspension levitator", "benchmarks/bench_force.py",
                   (coil,), (), (), floater, (), study)
 

@@ -96,6 +96,7 @@ def naive_seconds_per_design(n_designs: int = 3) -> tuple[float, float]:
 
     from fields.input import geometry
     from fields.analysis.poses import pose_at_gap
+    from fields.input.tables import G_STANDARD
 
     d = geometry.load(BASE)
     c = d.coils[0]
@@ -117,7 +118,7 @@ def naive_seconds_per_design(n_designs: int = 3) -> tuple[float, float]:
         F, _ = magpy.getFT(coil, disc, meshing=(8, 3, 3))
         F = np.reshape(F, (-1, 3))
         ki = F[0, 2]  # N per ampere (no core, no fixed magnet: the force is I times this)
-        ih = 9.80665 * d.floater.mass_kg / ki
+        ih = G_STANDARD * d.floater.mass_kg / ki
         kz = -(F[1, 2] - F[2, 2]) * ih / (2 * h)
         assert np.isfinite(kz)
         times.append(time.perf_counter() - t0)

@@ -17,6 +17,7 @@ from scipy.spatial import cKDTree
 from scipy.spatial.transform import Rotation
 
 from fields.errors import GeometryError, InputError
+from fields.input.tables import G_STANDARD
 from fields.model import clearance as C
 from fields.model import meshes as M
 from fields.model import outlines as O
@@ -42,7 +43,7 @@ def make_study(gap_m=0.003):
     return Study(gap_min_m=0.001, gap_max_m=0.01, gap_points=5, gap_reference="base",
                  gap_origin_m=(0.0, 0.0, 0.0), gap_direction=(0.0, 0.0, 1.0), operating_gap_m=gap_m,
                  currents_A=(0.0,), lateral_span_m=0.0, lateral_points=1, tilt_span_rad=0.0,
-                 tilt_points=1, gravity_m_per_s2=(0.0, 0.0, -9.80665), supply_voltage_V=12.0)
+                 tilt_points=1, gravity_m_per_s2=(0.0, 0.0, -G_STANDARD), supply_voltage_V=12.0)
 
 
 def make_design(fixed=(), floater=(), coils=(), cores=(), gap_m=0.003):

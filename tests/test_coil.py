@@ -27,7 +27,7 @@ def make_design(coils=(), cores=(), hconv=10.0, ambient=25.0, op=0.01):
     fl = Floater("floater", (Magnet("disc", "cylinder", (0.02, 0.005), (0.0, 0.0, 1.3)),), 0.0, (0, 0, 0), 0.02,
                  (0, 0, 0), ((1e-6, 0, 0), (0, 1e-6, 0), (0, 0, 1e-6)))
     st = Study(0.005, 0.02, 16, "coil", (0.0, 0.0, 0.0), (0.0, 0.0, -1.0), op, (0.0,), 0.0, 1, 0.0, 1,
-               (0.0, 0.0, -9.80665), 12.0, convection_W_per_m2K=hconv, ambient_temperature_C=ambient)
+               (0.0, 0.0, -tables.G_STANDARD), 12.0, convection_W_per_m2K=hconv, ambient_temperature_C=ambient)
     return Design("test", "invented test design", "tests", tuple(coils), tuple(cores), (), fl, (), st)
 
 

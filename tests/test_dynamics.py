@@ -18,12 +18,13 @@ import pytest
 from fields.control.circuits import E_SERIES, SecondStage, analog_lead_network, e_series, snap_to_e_series
 from fields.control.design import Discretisation, design_controller
 from fields.control.margins import loop_margins, loop_transfer, proportional_only
+from fields.input.tables import G_STANDARD
 from fields.control.plant import ForceTable, PlantParameters, linear_plant
 from fields.control.simulate import Outcome, Scenario, simulate
 from fields.control.studies import capture_range, hysteresis_study
 from fields.errors import ContactError, GeometryError, SolverError
 
-G = 9.80665  # standard gravity, CGPM 1901
+G = G_STANDARD  # standard gravity, 9.80665 m/s^2 (3rd CGPM, 1901)
 M_KG = 0.011
 I0_A = 0.4
 KS_N_PER_M = -20.0

@@ -14,6 +14,7 @@ from scipy.constants import mu_0
 from scipy.spatial.transform import Rotation
 
 from fields.errors import InputError
+from fields.input.tables import G_STANDARD
 from fields.model.design import Coil, Core, Design, Floater, Magnet, Study
 from fields.physics.axial import on_axis_mask
 from fields.physics.levels import LEVELS, RuleLevel
@@ -34,7 +35,7 @@ def make_design(fl_magnets, coils=(), magnets=(), cores=(), com=(0.0, 0.0, 0.0))
     fl = Floater("floater", tuple(fl_magnets), 0.0, (0.0, 0.0, 0.0), mass, com,
                  ((1.0, 0.0, 0.0), (0.0, 1.0, 0.0), (0.0, 0.0, 1.0)))
     st = Study(0.003, 0.02, 5, "coil", (0.0, 0.0, 0.0), (0.0, 0.0, -1.0), 0.005, (0.0,), 0.0, 1, 0.0, 1,
-               (0.0, 0.0, -9.80665), 12.0)
+               (0.0, 0.0, -G_STANDARD), 12.0)
     return Design("test (invented)", "", "tests", tuple(coils), tuple(cores), tuple(magnets), fl, (), st)
 
 

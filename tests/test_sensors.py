@@ -13,6 +13,7 @@ from fields.devices.hall import hall_response
 from fields.devices.linearity import inverse_table
 from fields.devices.placement import placement_table
 from fields.errors import InputError, SolverError
+from fields.input.tables import G_STANDARD
 from fields.model.design import BeamGate, Coil, Design, Floater, HallSensor, Magnet, Study
 from fields.model.polygon import circle_rectangle_area
 
@@ -22,7 +23,7 @@ def make_design(floater_magnets, coils=(), magnets=(), gap_origin=(0.0, 0.0, 0.0
     fl = Floater("floater", tuple(floater_magnets), 0.0, (0, 0, 0), 0.02, (0, 0, 0),
                  ((1e-6, 0, 0), (0, 1e-6, 0), (0, 0, 1e-6)))
     st = Study(0.005, 0.02, 31, "coil", gap_origin, (0.0, 0.0, -1.0), op, (0.0,), 0.0, 1, 0.0, 1,
-               (0.0, 0.0, -9.80665), 12.0)
+               (0.0, 0.0, -G_STANDARD), 12.0)
     return Design("test", "invented test design", "tests", tuple(coils), (), tuple(magnets), fl, (), st)
 
 

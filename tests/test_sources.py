@@ -9,6 +9,7 @@ from scipy.constants import mu_0
 from scipy.spatial.transform import Rotation
 
 from fields.errors import InputError
+from fields.input.tables import G_STANDARD
 from fields.model.design import Coil, Core, Design, Floater, Magnet, Study
 from fields.physics.axial import (
     CEL_CHUNK,
@@ -152,7 +153,7 @@ def test_sphere_and_cuboid_and_mesh():
 def _design(coils=(), magnets=(), cores=(), fl=None):
     fl = fl or Magnet("disc", "cylinder", (0.0127, 0.00635), (0.0, 0.0, 1.3))
     F = Floater("f", (fl,), 0.0, (0, 0, 0), fl.mass_kg, (0, 0, 0), ((1, 0, 0), (0, 1, 0), (0, 0, 1)))
-    st = Study(0.003, 0.02, 5, "coil", (0, 0, 0), (0, 0, -1), 0.005, (0.0,), 0, 1, 0, 1, (0, 0, -9.80665), 12.0)
+    st = Study(0.003, 0.02, 5, "coil", (0, 0, 0), (0, 0, -1), 0.005, (0.0,), 0, 1, 0, 1, (0, 0, -G_STANDARD), 12.0)
     return Design("t (invented)", "", "tests", tuple(coils), tuple(cores), tuple(magnets), F, (), st)
 
 

@@ -31,8 +31,6 @@ from fields.model.design import Coil, Design
 #: copper-area fill factor assumed when a coil gives turns but no wire: random-wound enamelled
 #: round wire reaches about 0.5-0.6 (common practice, no source)
 DEFAULT_FILL_FACTOR = 0.6
-#: densest packing of equal round wires (hexagonal): pi / (2 sqrt 3)
-HEXAGONAL_FILL = np.pi / (2.0 * np.sqrt(3.0))
 #: copper fill above which a random winding is hard to achieve (common practice, no source)
 HIGH_FILL_WARNING = 0.75
 #: continuous-duty current density for natural-convection coils, upper end of the usual
@@ -135,9 +133,9 @@ def coil_wire(coil: Coil) -> tuple[Wire, tuple[Notice, ...]]:
     if not (np.isfinite(d) and d > 0):
         raise InputError(f"coil {coil.name}: the wire diameter must be positive; got {d!r}.")
     fill = N * np.pi * d * d / 4.0 / area
-    if fill > HEXAGONAL_FILL:
+    if fill > tables.HEXAGONAL_FILL:
         raise InputError(f"coil {coil.name}: the copper fill factor N pi d^2 / (4 (b - a) h) must be at most "
-                         f"{HEXAGONAL_FILL:.4f} (hexagonal packing of round wire); got {round(fill, 4)}.")
+                         f"{tables.HEXAGONAL_FILL:.4f} (hexagonal packing of round wire); got {round(fill, 4)}.")
     if fill > HIGH_FILL_WARNING:
         notices.append(Notice("high_fill", coil.name, {"fill": float(fill), "limit": HIGH_FILL_WARNING}))
     if coil.fill_factor is not None and abs(fill - float(coil.fill_factor)) > 0.02:

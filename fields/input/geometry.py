@@ -172,16 +172,16 @@ def _coil(t: _Table, i: int) -> Coil:
         wire_d = tables.awg_diameter_m(n)
     elif t.has("wire_diameter"):
         wire_d = t.quantity("wire_diameter", "length", positive=True)
-    fill = t.number("fill_factor", None, positive=True, maximum=0.9069) if t.has("fill_factor") else None
+    fill = t.number("fill_factor", None, positive=True, maximum=tables.HEXAGONAL_FILL) if t.has("fill_factor") else None
     area = (b - a) * h
     if t.has("turns"):
         turns = t.number("turns", positive=True, integer=True)
         if wire_d is not None:
             copper = turns * math.pi * wire_d**2 / 4
             implied = copper / area
-            # hexagonal packing of round wire is the densest possible: pi / (2 sqrt 3) = 0.9069
-            if implied > 0.9069:
-                raise t.fail("turns", f"at most {int(0.9069 * area / (math.pi * wire_d**2 / 4))} for this winding "
+            # hexagonal packing of round wire is the densest possible
+            if implied > tables.HEXAGONAL_FILL:
+                raise t.fail("turns", f"at most {int(tables.HEXAGONAL_FILL * area / (math.pi * wire_d**2 / 4))} for this winding "
                               f"cross-section and wire (copper would fill {implied:.0%} of it; round wire packs "
                               "at most 90.7 %)", turns)
             if fill is not None and abs(implied - fill) > 0.02:

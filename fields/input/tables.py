@@ -129,10 +129,13 @@ THERMAL_CLASSES_C = (105.0, 120.0, 130.0, 155.0, 180.0, 200.0, 220.0, 240.0)
 THERMAL_CLASS_SOURCE = "IEC 60085 thermal classes as used by the IEC 60317 magnet-wire series"
 
 MU_0 = constants.mu_0
-G_STANDARD = constants.g  # standard acceleration of gravity, 9.80665 m/s^2 (CGPM 1901)
+#: standard acceleration of gravity, 9.80665 m/s^2 (3rd CGPM, 1901), the one name the package uses
+G_STANDARD = constants.g
+#: densest packing of equal round wires (hexagonal): pi / (2 sqrt 3) = 0.9069
+HEXAGONAL_FILL = constants.pi / (2.0 * 3.0**0.5)
 
 __all__ = [
     "Grade", "GRADES", "lookup_grade", "awg_diameter_m", "parse_gauge", "AWG_SOURCE",
     "COPPER_RESISTIVITY_20C_OHM_M", "COPPER_ALPHA_20C_PER_K", "COPPER_DENSITY_KG_PER_M3",
-    "THERMAL_CLASSES_C", "MU_0", "G_STANDARD",
+    "THERMAL_CLASSES_C", "MU_0", "G_STANDARD", "HEXAGONAL_FILL",
 ]

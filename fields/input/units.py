@@ -13,6 +13,7 @@ import math
 import re
 
 from fields.errors import HoverfieldError, InputError
+from fields.input.tables import G_STANDARD
 
 #: the SI unit each kind of quantity is converted to, with the pint dimensionality it must have
 KINDS: dict[str, tuple[str, str]] = {
@@ -38,7 +39,7 @@ KINDS: dict[str, tuple[str, str]] = {
 #: an example unit for each kind, used in error messages
 EXAMPLES = {
     "length": "12.7 mm", "mass": "25 g", "current": "0.8 A", "flux_density": "1.32 T",
-    "angle": "5 deg", "voltage": "12 V", "acceleration": "9.81 m/s^2",
+    "angle": "5 deg", "voltage": "12 V", "acceleration": f"{G_STANDARD:g} m/s^2",
     "density": "7500 kg/m^3", "heat_transfer": "10 W/m^2/K", "temperature": "40 degC",
     "time": "1 ms", "frequency": "10 kHz", "power": "5 W", "force": "0.3 N",
     "resistance": "10 ohm", "inductance": "20 mH", "volt_per_tesla": "25 mV/mT",

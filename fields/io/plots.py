@@ -3,12 +3,14 @@
 from __future__ import annotations
 
 import matplotlib
+import numpy as np
 
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
-from fields.io.wording import equilibrium_label
-import numpy as np  # noqa: E402
 from matplotlib.patches import Polygon  # noqa: E402
+
+from fields.input.tables import G_STANDARD  # noqa: E402
+from fields.io.wording import equilibrium_label  # noqa: E402
 
 #: fill colours by body kind (our own palette)
 KIND_COLOURS = {
@@ -87,8 +89,8 @@ def curve_family(curves, equilibria=(), title: str = ""):
         F = np.where(curves.contact, np.nan, curves.Fup_N[:, j])
         ax.plot(g, F, color=cmap(j / max(n - 1, 1)), lw=1.6, label=f"I = {I:g} A")
     ax.axhline(curves.weight_N, color="#b22222", ls="--", lw=1.3, label=f"weight {curves.weight_N:.3g} N")
-    ax.fill_between(g, np.where(curves.contact, np.nan, curves.min_total_mass_kg * curves.weight_N / max(curves.weight_N, 1e-30) * 9.80665),
-                    np.where(curves.contact, np.nan, curves.max_total_mass_kg * 9.80665), color="#999999", alpha=0.15,
+    ax.fill_between(g, np.where(curves.contact, np.nan, curves.min_total_mass_kg * curves.weight_N / max(curves.weight_N, 1e-30) * G_STANDARD),
+                    np.where(curves.contact, np.nan, curves.max_total_mass_kg * G_STANDARD), color="#999999", alpha=0.15,
                     label=f"reach within +-{curves.max_current_A:g} A")
     for e in equilibria:
         ax.plot(e.gap_m * 1e3, curves.weight_N, "o", ms=8, mfc="black" if e.stable else "white", mec="black",
