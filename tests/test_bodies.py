@@ -27,7 +27,7 @@ from fields.model.design import Coil, Core, Design, Floater, Magnet, Study
 
 # Tolerances (named, with the reason)
 ROUND = 1e-12  # m; double rounding on millimetre geometry
-VOLUME_REL = 1e-9  # brief: exact-volume meshes to 1e-9 relative (they are exact to ~1e-15)
+VOLUME_REL = 1e-9  # exact-volume meshes must match to 1e-9 relative (a design choice; they are exact to ~1e-15)
 LIPSCHITZ_SLACK = 1e-12  # m; rounding in |sdf(p) - sdf(q)| <= |p - q|
 
 coord = st.floats(-0.03, 0.03, allow_nan=False)

@@ -20,7 +20,7 @@ from typing import Any
 
 import numpy as np
 
-from fields.errors import GeometryError
+from fields.errors import InputError
 from fields.input.keypaths import set_path
 from fields.input.sweepfile import SweepSpec
 
@@ -97,7 +97,7 @@ def toml_value(v: Any) -> str:
         return "[" + ", ".join(toml_value(x) for x in v) + "]"
     if isinstance(v, dict):
         return "{" + ", ".join(f"{_tkey(k)} = {toml_value(x)}" for k, x in v.items()) + "}"
-    raise GeometryError("sweep TOML writer", "a value", "a string, number, boolean, list or table", type(v).__name__)
+    raise InputError(f"toml_value: a value must be a string, number, boolean, list or table; got {type(v).__name__}.")
 
 
 def _is_aot(v: Any) -> bool:

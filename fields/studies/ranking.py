@@ -13,7 +13,7 @@ import math
 
 import numpy as np
 
-from fields.errors import GeometryError
+from fields.errors import InputError
 from fields.input.sweepfile import SweepSpec
 
 
@@ -62,10 +62,10 @@ def pareto_front(values, senses) -> np.ndarray:
     """
     V = np.asarray(values, float)
     if V.ndim != 2 or V.shape[1] != len(senses):
-        raise GeometryError("pareto_front", "values", f"an array of shape (n, {len(senses)})", V.shape)
+        raise InputError(f"pareto_front: values must be an array of shape (n, {len(senses)}); got {V.shape}.")
     for s in senses:
         if s not in ("min", "max"):
-            raise GeometryError("pareto_front", "each sense", "\"min\" or \"max\"", s)
+            raise InputError(f"pareto_front: each sense must be \"min\" or \"max\"; got {s!r}.")
     sign = np.array([1.0 if s == "min" else -1.0 for s in senses])
     ok = np.flatnonzero(np.all(np.isfinite(V), axis=1))
     X = V[ok] * sign
@@ -106,7 +106,7 @@ def rank(values, senses, weights=None, method: str = "weighted") -> tuple[np.nda
         score[order] = np.arange(n, dtype=float)
         return order, score
     if method != "weighted":
-        raise GeometryError("rank", "method", "\"weighted\" or \"lexicographic\"", method)
+        raise InputError(f"rank: method must be \"weighted\" or \"lexicographic\"; got {method!r}.")
     w = np.ones(m) if weights is None else np.asarray(weights, float)
     lo, hi = X.min(axis=0) if n else np.zeros(m), X.max(axis=0) if n else np.ones(m)
     span = np.where(hi > lo, hi - lo, 1.0)

@@ -26,7 +26,7 @@ from pathlib import Path
 import numpy as np
 
 from fields import __version__
-from fields.errors import GeometryError, SolverError
+from fields.errors import InputError, SolverError
 from fields.input.sweepfile import SweepSpec, load_sweep
 from fields.studies.evaluate import evaluate_design
 from fields.studies.executors import convert_row, default_chunk, done_rows, run_chunks
@@ -93,7 +93,7 @@ def _check_out_dir(spec: SweepSpec, sweep_path, out: Path) -> None:
     base_abs = Path(spec.base_path).resolve()
     for name in ("best_design.toml", "sweep.csv"):
         if (out / name).resolve() in (base_abs, Path(sweep_path).resolve()):
-            raise GeometryError(str(out), "the output folder", "one that does not hold the input files", str(out))
+            raise InputError(f"run_sweep: the output folder must be one that does not hold the input files; got {out}.")
 
 
 def run_sweep(base_path, sweep_path, out_dir, workers: int | None = None, scheduler_address: str | None = None,
