@@ -21,8 +21,12 @@ from fields.input.geometry import load
 from helpers import EXAMPLES, REPULSIVE, SUSPENSION
 
 
-@pytest.mark.parametrize("path", [pytest.param(p, marks=pytest.mark.slow) if p == REPULSIVE else p for p in EXAMPLES],
-                         ids=lambda p: p.name)
+#: examples that take more than a few seconds to solve
+SLOW_EXAMPLES = {REPULSIVE.name, "ring_steering.toml"}
+
+
+@pytest.mark.parametrize("path", [pytest.param(p, marks=pytest.mark.slow) if p.name in SLOW_EXAMPLES else p
+                                  for p in EXAMPLES], ids=lambda p: p.name)
 def test_example_solves(path):
     d = load(path)
     c = analysis.axial_curves(d)

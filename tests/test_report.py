@@ -242,7 +242,8 @@ def test_serialiser_writes_strict_json_and_flat_rows():
     import enum
     from dataclasses import dataclass
 
-    from fields.io.serialize import csv_table, flattened, internal, optional, to_json
+    from fields.io.serialize import csv_table, to_json
+    from fields.studies.result_fields import flattened, internal, optional
 
     class Kind(enum.Enum):
         HALL = "hall"
