@@ -199,3 +199,272 @@ def element_kernel_matrices(model: IronModel, mmax: int) -> np.ndarray:
     T = T + np.swapaxes(np.where((upper & ~np.eye(E, dtype=bool))[None], K, 0.0), 1, 2)
     N = np.where(near[None], K, 0.0)
     return T + 0.5 * (N + np.swapaxes(N, 1, 2))
+
+
+# --------------------------------------------------------------------------- the harmonic model
+
+
+@dataclass(frozen=True, eq=False)
+class HarmonicIron:
+    """Factored harmonic systems ``m = 1..M`` of an :class:`fields.physics.iron.IronModel`.
+
+    Unknowns per harmonic and family: ``(a, b, c)`` per cell, ordered cell by cell (3c); the
+    families are ``0`` (cos) and ``1`` (sin), see the module notes.
+
+    Attributes
+    ----------
+    model : IronModel
+    harmonics : int
+        M, the highest harmonic.
+    D : ndarray, shape (M, 3c, 3c)
+        Cell demagnetizing operator of each harmonic (m^3).
+    factors : tuple
+        Cholesky factor of ``A_m = diag(V / (2 chi)) + D_m`` per harmonic.
+    mass_m3 : ndarray, shape (3c,)
+        ``int phi_i . phi_i dV = V / 2``.
+    source_matrix : ndarray, shape (M, S, 3c)
+        Charge (T m^2, divided by 4 pi) at each of S source points per unit unknown: the field rule.
+    source_rz_m : ndarray, shape (S, 2)
+    b_coils, J_coils_T_per_A : ndarray, shape (k, M, 2, 3c)
+        Harmonic right-hand sides per ampere of the coils that are not coaxial with the cores (zero
+        for coaxial coils) and their linear responses.
+    b_magnets, J_magnets_T : ndarray, shape (M, 2, 3c)
+        The same for the fixed magnets.
+    """
+
+    model: IronModel
+    harmonics: int
+    D: np.ndarray
+    factors: tuple
+    mass_m3: np.ndarray
+    source_matrix: np.ndarray
+    source_rz_m: np.ndarray
+    b_coils: np.ndarray
+    J_coils_T_per_A: np.ndarray
+    b_magnets: np.ndarray
+    J_magnets_T: np.ndarray
+
+    @property
+    def cells(self) -> int:
+        return self.model.cells
+
+    # ----------------------------------------------------------------- right-hand sides
+
+    def angles(self) -> int:
+        """Azimuthal nodes of the right-hand-side rule (uniform, spectrally accurate)."""
+        return max(RHS_MIN_ANGLES, 4 * self.harmonics + 8)
+
+    def sample_points(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """World points (c, g, a, 3), weights ``r dr dz dphi`` (c, g) (m^3) and angles (a,) of the rule."""
+        m = self.model
+        X, w = quad_rule(m.mesh.vertices_m[m.mesh.cells], RHS_ORDER)
+        na = self.angles()
+        phi = 2.0 * np.pi * (np.arange(na) + 0.5) / na
+        r = X[..., 0][..., None]
+        ax = m.axis_xy_m
+        pts = np.stack((ax[0] + r * np.cos(phi), ax[1] + r * np.sin(phi),
+                        np.broadcast_to(X[..., 1][..., None], r.shape[:-1] + (na,))), axis=-1)
+        return pts, w * X[..., 0] * (2.0 * np.pi / na), phi
+
+    def rhs_of_samples(self, B_T: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Right-hand sides of a field sampled on :meth:`sample_points`: B (n, c, g, a, 3) ->
+        ``m = 0`` (n, 2c) (ordered as :meth:`IronModel.rhs_field`) and harmonics (n, M, 2, 3c)."""
+        _, w, phi = self.sample_points()
+        cph, sph = np.cos(phi), np.sin(phi)
+        Br = B_T[..., 0] * cph + B_T[..., 1] * sph
+        Bp = -B_T[..., 0] * sph + B_T[..., 1] * cph
+        Bz = B_T[..., 2]
+        n = B_T.shape[0]
+        c = self.cells
+        b0 = np.stack((np.einsum("ncga,cg->nc", Br, w), np.einsum("ncga,cg->nc", Bz, w)), axis=-1).reshape(n, -1)
+        M = self.harmonics
+        mm = np.arange(1, M + 1)
+        cm = np.cos(mm[:, None] * phi[None])  # (M, a)
+        sm = np.sin(mm[:, None] * phi[None])
+        bh = np.empty((n, M, 2, c, 3))
+        for F, fam in ((Br, 0), (Bz, 2)):
+            Fw = np.einsum("ncga,cg->nca", F, w)
+            bh[:, :, 0, :, fam] = np.einsum("nca,ma->nmc", Fw, cm)
+            bh[:, :, 1, :, fam] = np.einsum("nca,ma->nmc", Fw, sm)
+        Pw = np.einsum("ncga,cg->nca", Bp, w)
+        bh[:, :, 0, :, 1] = -np.einsum("nca,ma->nmc", Pw, sm)
+        bh[:, :, 1, :, 1] = np.einsum("nca,ma->nmc", Pw, cm)
+        return b0, bh.reshape(n, M, 2, 3 * c)
+
+    def rhs_field(self, field_T) -> tuple[np.ndarray, np.ndarray]:
+        """Right-hand sides of ``field_T(points (p, 3)) -> (n, p, 3)`` (sources outside the cores)."""
+        pts, _, _ = self.sample_points()
+        B = np.asarray(field_T(pts.reshape(-1, 3)), dtype=float)
+        return self.rhs_of_samples(B.reshape((-1,) + pts.shape))
+
+    # ----------------------------------------------------------------- solves
+
+    def solve_linear(self, bh) -> np.ndarray:
+        """Linear-iron harmonics ``A_m^-1 b_m``: bh (..., M, 2, 3c) -> same shape."""
+        bh = np.asarray(bh, dtype=float)
+        out = np.empty_like(bh)
+        for m in range(self.harmonics):
+            x = bh[..., m, :, :]
+            out[..., m, :, :] = linalg.cho_solve(self.factors[m], x.reshape(-1, x.shape[-1]).T).T.reshape(x.shape)
+        return out
+
+    def solve_linearized(self, bh, J0_T) -> np.ndarray:
+        """Harmonics linearized about a saturated axisymmetric state J0 (c, 2): ``(mass dh/dJ + D_m) J = b``.
+
+        ``dh/dJ`` is the inverse differential tensor of each cell's curve at ``J0`` (3 x 3 in
+        ``(e_r, e_phi, e_z)``); approximate where the harmonics are not small against ``J0``.
+        """
+        m0 = self.model
+        c = self.cells
+        J3 = np.zeros((c, 3))
+        J0 = np.asarray(J0_T, dtype=float).reshape(c, 2)
+        J3[:, 0], J3[:, 2] = J0[:, 0], J0[:, 1]
+        Ti = np.empty((c, 3, 3))
+        for i, cv in enumerate(m0.curves):
+            idx = np.nonzero(m0.cell_curve == i)[0]
+            _, Ti[idx] = field_and_inverse_tensor(cv, J3[idx])
+        blk = 0.5 * m0.mesh.volume_m3[:, None, None] * Ti
+        bh = np.asarray(bh, dtype=float)
+        out = np.empty_like(bh)
+        idx = np.arange(c)
+        for m in range(self.harmonics):
+            A = self.D[m].copy().reshape(c, 3, c, 3)
+            A[idx, :, idx, :] += blk
+            f = linalg.cho_factor(A.reshape(3 * c, 3 * c))
+            x = bh[..., m, :, :]
+            out[..., m, :, :] = linalg.cho_solve(f, x.reshape(-1, x.shape[-1]).T).T.reshape(x.shape)
+        return out
+
+    # ----------------------------------------------------------------- fields
+
+    def field_T(self, Jh, points_m) -> np.ndarray:
+        """B (T) of harmonic polarizations Jh (s, M, 2, 3c) at world points (q, 3), per harmonic:
+        shape (s, M, q, 3). Points must keep clear of the cores by about a cell size."""
+        Jh = np.asarray(Jh, dtype=float)
+        Jh = Jh.reshape((-1,) + Jh.shape[-3:])
+        p = np.asarray(points_m, dtype=float).reshape(-1, 3)
+        ax = self.model.axis_xy_m
+        x, y, z = p[:, 0] - ax[0], p[:, 1] - ax[1], p[:, 2]
+        rho = np.hypot(x, y)
+        phi = np.arctan2(y, x)
+        rho = np.maximum(rho, AXIS_CLAMP * float(self.source_rz_m[:, 0].max()))
+        M = self.harmonics
+        ns, nq = Jh.shape[0], p.shape[0]
+        out = np.zeros((ns, M, nq, 3))
+        if nq == 0:
+            return out
+        W = np.einsum("msx,nmfx->nmfs", self.source_matrix, Jh)  # (s, M, 2, S) charges at source points
+        src = self.source_rz_m
+        per = max(1, 300_000 // src.shape[0])
+        for i0 in range(0, nq, per):
+            sl = slice(i0, i0 + per)
+            g, gr, gz = ring_kernel_gradient(rho[sl][:, None], z[sl][:, None], src[None, :, 0], src[None, :, 1], M)
+            U = np.einsum("mqs,nmfs->nmfq", g[1:], W)
+            Ur = np.einsum("mqs,nmfs->nmfq", gr[1:], W)
+            Uz = np.einsum("mqs,nmfs->nmfq", gz[1:], W)
+            mm = np.arange(1, M + 1)[:, None]
+            ph = phi[sl][None]
+            cm, sm = np.cos(mm * ph), np.sin(mm * ph)  # (M, q)
+            Brho = -(cm * Ur[:, :, 0] + sm * Ur[:, :, 1])
+            Bphi = (mm / rho[sl][None]) * (sm * U[:, :, 0] - cm * U[:, :, 1])
+            Bz = -(cm * Uz[:, :, 0] + sm * Uz[:, :, 1])
+            co, so = np.cos(phi[sl]), np.sin(phi[sl])
+            out[:, :, sl, 0] = Brho * co - Bphi * so
+            out[:, :, sl, 1] = Brho * so + Bphi * co
+            out[:, :, sl, 2] = Bz
+        return out
+
+    def cell_polarization_T(self, J0_T, Jh, angles: int | None = None) -> np.ndarray:
+        """Cell polarizations ``(J_r, J_phi, J_z)`` (..., c, a, 3) at ``a`` uniform angles from the
+        ``m = 0`` part J0 (..., c, 2) and the harmonics Jh (..., M, 2, 3c)."""
+        a = self.angles() if angles is None else int(angles)
+        phi = 2.0 * np.pi * np.arange(a) / a
+        c = self.cells
+        J0 = np.asarray(J0_T, dtype=float)
+        H = np.asarray(Jh, dtype=float)
+        H = H.reshape(H.shape[:-1] + (c, 3))  # (..., M, 2, c, 3)
+        mm = np.arange(1, self.harmonics + 1)[:, None]
+        cm, sm = np.cos(mm * phi[None]), np.sin(mm * phi[None])  # (M, a)
+        Jr = J0[..., 0][..., None] + np.einsum("...mc,ma->...ca", H[..., 0, :, 0], cm) + np.einsum(
+            "...mc,ma->...ca", H[..., 1, :, 0], sm)
+        Jp = -np.einsum("...mc,ma->...ca", H[..., 0, :, 1], sm) + np.einsum("...mc,ma->...ca", H[..., 1, :, 1], cm)
+        Jz = J0[..., 1][..., None] + np.einsum("...mc,ma->...ca", H[..., 0, :, 2], cm) + np.einsum(
+            "...mc,ma->...ca", H[..., 1, :, 2], sm)
+        return np.stack((Jr, Jp, Jz), axis=-1)
+
+
+def _build(model: IronModel, harmonics: int) -> HarmonicIron:
+    from dataclasses import replace as _replace
+
+    from fields.physics.coils import coil_field_per_ampere_T
+    from fields.physics.iron import _coaxial_sheets
+    from fields.physics.magnets import magnet_field_T
+
+    M = int(harmonics)
+    if M < 1:
+        raise InputError(f"harmonic_iron: harmonics must be an integer >= 1; got {harmonics!r}.")
+    c = model.cells
+    K = element_kernel_matrices(model, M)
+    mass = np.repeat(0.5 * model.mesh.volume_m3, 3)
+    chi = np.repeat(np.array([float(cv.initial_susceptibility) for cv in model.curves])[model.cell_curve], 3)
+    el = _elements(model)
+    kinds = (np.arange(el.cells), np.arange(el.cells, el.count))
+    pts, wts, owner = [], [], []
+    for k in kinds:
+        p, w = _element_rule(el, k, FIELD_ORDER)
+        pts.append(p.reshape(-1, 2))
+        wts.append(w.reshape(-1))
+        owner.append(np.repeat(k, p.shape[1]))
+    src, sw, own = np.concatenate(pts), np.concatenate(wts), np.concatenate(owner)
+    keep = src[:, 0] > 0.0
+    src, sw, own = src[keep], sw[keep], own[keep]
+    Ds, facs, S = [], [], []
+    for m in range(1, M + 1):
+        Q = charge_matrix(model, m)
+        D = 0.25 * Q.T @ K[m] @ Q
+        D = 0.5 * (D + D.T)
+        Ds.append(D)
+        facs.append(linalg.cho_factor(D + np.diag(mass / chi)))
+        S.append(Q[own] * (sw / (4.0 * np.pi))[:, None])
+    proto = HarmonicIron(model, M, np.array(Ds), tuple(facs), mass, np.array(S), src,
+                         np.zeros((0, M, 2, 3 * c)), np.zeros((0, M, 2, 3 * c)), np.zeros((M, 2, 3 * c)),
+                         np.zeros((M, 2, 3 * c)))
+    d = model.design
+    if d is None:
+        return proto
+    coil_sheets, mag_sheets = _coaxial_sheets(d, model.axis_xy_m, model.settings["layers"])
+    k = len(d.coils)
+    bc = np.zeros((k, M, 2, 3 * c))
+    for i, (coil, sh) in enumerate(zip(d.coils, coil_sheets)):
+        if sh is None:  # off the axis or tilted: it drives harmonics
+            bc[i] = proto.rhs_field(lambda q, coil=coil: coil_field_per_ampere_T(coil, q, model.settings["layers"])[None])[1][0]
+    bm = np.zeros((M, 2, 3 * c))
+    if d.magnets and mag_sheets is None:
+        bm = proto.rhs_field(lambda q: sum(magnet_field_T(mg, q) for mg in d.magnets)[None])[1][0]
+    return _replace(proto, b_coils=bc, J_coils_T_per_A=proto.solve_linear(bc) if k else bc, b_magnets=bm,
+                    J_magnets_T=proto.solve_linear(bm))
+
+
+@functools.lru_cache(maxsize=8)
+def _cached(model: IronModel, harmonics: int) -> HarmonicIron:
+    return _build(model, harmonics)
+
+
+def harmonic_iron(model: IronModel, harmonics: int = DEFAULT_HARMONICS) -> HarmonicIron:
+    """The factored harmonic systems ``m = 1..harmonics`` of a cell model (cached per model).
+
+    Parameters
+    ----------
+    model : IronModel
+        From :func:`fields.physics.iron.iron_model` or :func:`fields.physics.iron.cell_model`.
+    harmonics : int
+        Highest harmonic M (>= 1). The size of the last harmonic's field is the truncation
+        estimate reported by :func:`fields.physics.iron_basis.iron_field_basis`.
+
+    Returns
+    -------
+    HarmonicIron
+    """
+    if not isinstance(harmonics, (int, np.integer)) or harmonics < 1:
+        raise InputError(f"harmonic_iron: harmonics must be an integer >= 1; got {harmonics!r}.")
+    return _cached(model, int(harmonics))
