@@ -60,7 +60,7 @@ from fields.physics.iron_toroidal import (
 )
 
 #: default highest harmonic
-DEFAULT_HARMONICS = 4
+DEFAULT_HARMONICS = 3
 #: pairs whose bounding circles are closer than NEAR_RATIO (MID_RATIO) times the larger radius use
 #: the singular rule (the mid order); farther pairs the far order
 NEAR_RATIO = 1.0
@@ -74,9 +74,9 @@ NEAR_INNER = 7
 NEAR_GRADED = True
 #: Gauss order per cell side (and angles per harmonic) of the right-hand-side volume rule
 RHS_ORDER = 4
-RHS_MIN_ANGLES = 24
+RHS_MIN_ANGLES = 16
 #: Gauss order of the source rule for the field at observers (cells: squared)
-FIELD_ORDER = 3
+FIELD_ORDER = 2
 #: observers closer to the axis than this fraction of the mesh's largest radius are moved onto
 #: it by this much (the field is regular there; the kernel's gradient is not defined on the axis)
 AXIS_CLAMP = 1e-9
@@ -252,7 +252,7 @@ class HarmonicIron:
 
     def angles(self) -> int:
         """Azimuthal nodes of the right-hand-side rule (uniform, spectrally accurate)."""
-        return max(RHS_MIN_ANGLES, 4 * self.harmonics + 8)
+        return max(RHS_MIN_ANGLES, 4 * self.harmonics + 4)
 
     def sample_points(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """World points (c, g, a, 3), weights ``r dr dz dphi`` (c, g) (m^3) and angles (a,) of the rule."""

@@ -35,6 +35,8 @@ from scipy import special
 CHI_SERIES = 2.0
 #: terms of the hypergeometric series (ratio at most CHI_SERIES^-2 per term)
 SERIES_TERMS = 28
+#: (chi from, chi to, terms): the series truncated where its next term is below 1e-16
+SERIES_BANDS = ((2.0, 4.0, 28), (4.0, 8.0, 15), (8.0, 30.0, 10), (30.0, np.inf, 6))
 
 
 @functools.lru_cache(maxsize=8)
@@ -75,17 +77,33 @@ def toroidal_q(chi, mmax: int, derivative: bool = False, chi_minus_1=None):
     near = ~far
     if np.any(far):
         pre, a = _series_coefficients(mmax)
-        x = chi[far]
-        w = 1.0 / (x * x)
-        for m in range(mmax + 1):
-            nu = m - 0.5
-            s = np.polynomial.polynomial.polyval(w, a[m])
-            xp = x ** (-(nu + 1.0))
-            Q[m][far] = pre[m] * xp * s
-            if derivative:
-                k = np.arange(SERIES_TERMS)
-                ds = np.polynomial.polynomial.polyval(w, a[m] * (nu + 1.0 + 2.0 * k))
-                dQ[m][far] = -pre[m] * xp / x * ds
+        k = np.arange(SERIES_TERMS)
+        xf = chi[far]
+        Qf = np.empty((mmax + 1, xf.size))
+        dQf = np.empty_like(Qf) if derivative else None
+        # fewer terms where chi is large (the series' ratio is about chi^-2)
+        for lo, hi, nt in SERIES_BANDS:
+            sel = (xf >= lo) & (xf < hi)
+            if not np.any(sel):
+                continue
+            x = xf[sel]
+            w = 1.0 / (x * x)
+            lx = np.log(x)
+            for m in range(mmax + 1):
+                nu = m - 0.5
+                s = np.full(x.shape, a[m, nt - 1])
+                ds = np.full(x.shape, a[m, nt - 1] * (nu + 1.0 + 2.0 * (nt - 1)))
+                for j in range(nt - 2, -1, -1):
+                    s = s * w + a[m, j]
+                    if derivative:
+                        ds = ds * w + a[m, j] * (nu + 1.0 + 2.0 * k[j])
+                xp = pre[m] * np.exp(-(nu + 1.0) * lx)
+                Qf[m, sel] = xp * s
+                if derivative:
+                    dQf[m, sel] = -xp / x * ds
+        Q[:, far] = Qf
+        if derivative:
+            dQ[:, far] = dQf
     if np.any(near):
         x = chi[near]
         k2 = 2.0 / (x + 1.0)
