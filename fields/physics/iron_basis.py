@@ -211,7 +211,7 @@ def iron_field_basis(model: IronModel, points_m, positions_m, rotvecs_rad, harmo
             if coil_h:
                 Bk[i] += Bh[1:].sum(axis=1)
             size[i, 1:] = np.max(np.linalg.norm(Bh, axis=-1), axis=(0, 2))
-    return IronFieldBasis(B0, Bk, J0.reshape(n, -1, 2), model.J_coils_T_per_A.reshape(k, -1, 2), axial,
+    return IronFieldBasis(B0, Bk, J0.reshape(n, -1, 2), model.J_coils_T_per_A.reshape(k, model.cells, 2), axial,
                           model.saturation_cells_T, J0h, Jkh, size, H)
 
 
