@@ -51,7 +51,6 @@ from fields.physics.bh import field_and_inverse_tensor
 from fields.physics.iron import IronModel
 from fields.physics.iron_toroidal import (
     fan_rule,
-    gauss01,
     quad_rule,
     ring_kernel,
     ring_kernel_gradient,
