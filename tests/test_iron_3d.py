@@ -131,7 +131,7 @@ def test_permeable_sphere_in_transverse_field():
     V, c = sphere_cells(R, 8, 16)
     m = cell_model(ring_mesh(V, c), [linear(chi)])
     H = harmonic_iron(m, 2)
-    b0, bh = H.rhs_field(uniform_field([B0, 0.0, 0.0]))
+    _, bh = H.rhs_field(uniform_field([B0, 0.0, 0.0]))
     Jh = H.solve_linear(bh)[0]
     vol = m.mesh.volume_m3
     J = Jh[0, 0].reshape(-1, 3)
@@ -197,13 +197,13 @@ def _iron_charges(model, H, J0, Jh, n_ang=48, order=6):
 
 
 @pytest.mark.slow
-def test_newtons_third_law_and_torque_balance_off_axis(suspension, susp_model):
+def test_newtons_third_law_and_torque_balance_off_axis(suspension):
     """For a floater displaced sideways and tilted, the iron's force and torque on the floater
     (charges of its caps in the iron's field) equal minus the floater's force and torque on the
     iron (the iron's equivalent charges in the floater's field, magpylib): Newton's third law and
     the balance of angular momentum for magnetostatic interaction (Furlani, Permanent Magnet and
     Electromechanical Devices, 2001, ch. 3; common practice)."""
-    d, m = suspension, susp_model
+    d = suspension
     P = d.study.floater_origin_m([0.006])[0] + np.array([0.003, -0.001, 0.0])
     Rv = np.array([0.08, 0.05, 0.0])
     xf, s = floater_surface_rule(d.floater, "high")
@@ -332,7 +332,7 @@ def test_saturable_field_reduces_to_linear_and_reports_harmonics(suspension, sus
     solve plus the linearized harmonics must reproduce the linear basis."""
     d = suspension
     m = build_iron_model(d, "coarse", curves=[linear(float(d.cores[0].relative_permeability) - 1.0)])
-    xf, s = floater_surface_rule(d.floater, "standard")
+    xf, _ = floater_surface_rule(d.floater, "standard")
     P = d.study.floater_origin_m([0.02])[0] + np.array([0.003, 0.002, 0.0])
     Rv = np.array([[0.05, 0.0, 0.0]])
     I = np.array([0.05])

@@ -22,12 +22,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fields.physics.iron_fourier import DEFAULT_HARMONICS, HarmonicIron, harmonic_iron
-
 from fields.errors import GeometryError, InputError
+from fields.physics.coils import coil_field_per_ampere_T
 from fields.physics.iron import IronModel
 from fields.physics.iron_axis import floater_rhs_axis
-from fields.physics.coils import coil_field_per_ampere_T
+from fields.physics.iron_fourier import DEFAULT_HARMONICS, HarmonicIron, harmonic_iron
 from fields.physics.magnets import floater_field_T, magnet_field_T
 
 
