@@ -24,9 +24,9 @@ from scipy.constants import mu_0
 
 from fields.errors import GeometryError
 from fields.model.design import rotation_matrix
+from fields.physics.axial import axial_disc_flux_Wb, axial_sheets, sheet_disc_flux_Wb
 from fields.physics.iron import IronModel, _coaxial_sheets
 from fields.physics.iron_rings import edge_loop_inductance
-from fields.physics.axial import axial_disc_flux_Wb, axial_sheets, sheet_disc_flux_Wb
 from fields.physics.quadrature import gauss_legendre
 
 
