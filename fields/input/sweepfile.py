@@ -35,7 +35,7 @@ RESULT_COLUMNS: dict[str, tuple[str | None, str]] = {
     "target_gap_m": ("m", "the study's operating gap"),
     "hover_current_A": ("A", "drive current that holds the floater at the operating gap (may exceed the limit)"),
     "at_target_gap": (None, "true: held at the operating gap by the hover current; false: at the passive "
-                            "zero-current equilibrium (the operating-point rule of fields.analysis.operating)"),
+                            "zero-current equilibrium (the operating-point rule the report uses: a passive stable height first)"),
     "operating_gap_m": ("m", "gap of the operating point (six-axis equilibrium)"),
     "operating_current_A": ("A", "drive current at the operating point"),
     "ki_N_per_A": ("N/A", "upward force per ampere of drive current at the operating point"),

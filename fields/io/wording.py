@@ -253,8 +253,10 @@ def notice_text(n) -> str:
                                   "gap; compensate it (subtract c_k I_k)",
         "core_approximate": lambda: f"sensor {s}: core response from the uniform-magnetization core model (approximate)",
     }
-    if c not in texts:
-        return f"{s}: {c} {v}"
+    if c not in texts:  # a notice without its own sentence yet: its name and values in words
+        shown = ", ".join(f"{k.replace('_', ' ')} {x:.4g}" if isinstance(x, float) else f"{k.replace('_', ' ')} {x}"
+                          for k, x in v.items())
+        return f"{s}: {c.replace('_', ' ')}" + (f" ({shown})" if shown else "")
     return texts[c]()
 
 
