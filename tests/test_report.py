@@ -428,3 +428,86 @@ def test_serialiser_writes_strict_json_and_flat_rows():
     cols, rows = csv_table([Inner(0.01, (1, 2)), Inner(0.03, (4,))])
     assert cols == ["gap_m", "flags[0]", "flags[1]"]
     assert rows == [[0.01, 1, 2], [0.03, 4, None]]
+
+
+# ----------------------------------------------------------------------------- the report page
+
+
+class _Page(HTMLParser):
+    """Links, ids, the warnings box text and the nav of the report."""
+
+    def __init__(self):
+        super().__init__()
+        self.hrefs, self.ids, self.warn, self.verdict = [], set(), [], []
+        self._box = None
+        self._depth = 0
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        if "id" in a:
+            self.ids.add(a["id"])
+        if tag == "a" and "href" in a:
+            self.hrefs.append(a["href"])
+        if tag == "div" and a.get("class") in ("warn", "verdict"):
+            self._box, self._depth = a["class"], 1
+        elif tag == "div" and self._box:
+            self._depth += 1
+
+    def handle_endtag(self, tag):
+        if tag == "div" and self._box:
+            self._depth -= 1
+            if self._depth == 0:
+                self._box = None
+
+    def handle_data(self, data):
+        if self._box == "warn":
+            self.warn.append(data)
+        elif self._box == "verdict":
+            self.verdict.append(data)
+
+
+@pytest.mark.slow
+def test_report_has_contents_file_links_and_no_machine_paths(report_dir):
+    html = (report_dir / "report.html").read_text(encoding="utf-8")
+    p = _Page()
+    p.feed(html)
+    # the table of contents: every h2 has an id, and every "#..." link resolves to one
+    assert '<nav class="toc">' in html
+    h2 = re.findall(r"<h2[^>]*>", html)
+    assert h2 and all('id="' in h for h in h2)
+    local = [h[1:] for h in p.hrefs if h.startswith("#")]
+    assert len(local) == len(h2) and set(local) <= p.ids
+    # every file of the run (but the page itself) is linked, with a one-line description
+    files = sorted(q.relative_to(report_dir).as_posix() for q in report_dir.rglob("*")
+                   if q.is_file() and q.name not in ("report.html", "run_status.json"))
+    for f in files:
+        m = re.search(rf'<li><a href="{re.escape(f)}"><code>[^<]*</code></a> <small>([^<]+)</small></li>', html)
+        assert m and m.group(1).strip(), f
+        assert (report_dir / f).is_file()
+    # no folder of this machine: neither the output folder, the repository nor the home folder
+    for folder in {str(report_dir), str(ROOT), str(Path.home())}:
+        assert folder not in html, folder
+    assert "input <code>" in html and "suspension.toml</code>" in html
+    # nothing cut off at the right edge: tables scroll, pre scrolls, images shrink to the page
+    # (CSS Overflow Module Level 3, overflow-x; CSS 2.1, max-width)
+    assert re.search(r"\.scroll\{[^}]*overflow-x:auto", html) and re.search(r"pre\{[^}]*overflow-x:auto", html)
+    assert re.search(r"img\{[^}]*max-width:100%", html)
+    assert html.count("<table>") == html.count('<div class="scroll"><table>')
+
+
+@pytest.mark.slow
+def test_error_figures_carry_units_and_round_designs_get_no_spin_warning(report_dir):
+    html = (report_dir / "report.html").read_text(encoding="utf-8")
+    # every number whose key path names an error is followed by a unit
+    errs = re.findall(r'data-path="([^"]*error[^"]*)"[^>]*>[^<]*</span>( [^<\s,;)]+)?', html)
+    assert errs
+    for path, unit in errs:
+        assert unit and unit.strip(), path
+    p = _Page()
+    p.feed(html)
+    warn, verdict = " ".join(p.warn), " ".join(p.verdict)
+    # the suspension floater is round: its spin is neutral by symmetry, said in the verdict only
+    assert "spin about vertical: neutral" in verdict
+    assert "spin about vertical" not in warn
+    stab = json.loads((report_dir / "stability.json").read_text())
+    assert not any("spin about vertical" in n for n in stab["notes"])
