@@ -146,6 +146,7 @@ def test_cli_text_names_no_internal_identifiers():
 
     pattern = re.compile(r"\w+\(\)|left_table_|_table_high|use wrench")
     files = list((ROOT / "fields" / "cli").glob("*.py")) + [ROOT / "fields" / "io" / "wording.py"]
+    checked = 0
     for f in files:
         if f.name == "control.py":  # the control command is owned and checked with the control layer
             continue
@@ -154,6 +155,7 @@ def test_cli_text_names_no_internal_identifiers():
                 if isinstance(n, (ast.Module, ast.FunctionDef, ast.ClassDef)) and n.body and isinstance(n.body[0], ast.Expr)}
         texts = [n.value for n in ast.walk(tree) if isinstance(n, ast.Constant) and isinstance(n.value, str)
                  and id(n) not in docs]
-        assert texts
+        checked += len(texts)
         for t in texts:
             assert not pattern.search(t), (f.name, t)
+    assert checked > 100  # the sentences were found
