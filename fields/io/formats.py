@@ -71,7 +71,7 @@ def _helpers(p: str, real: str, single: bool) -> list[str]:
     flag = f"{p}_IS_NO_VALUE"
     one, zero = ("1.0f", "0.0f") if single else ("1.0", "0.0")
     return [
-        f"/* Index i of the grid cell [axis[i], axis[i+1]] that holds x (axis increasing, n >= 2);",
+        "/* Index i of the grid cell [axis[i], axis[i+1]] that holds x (axis increasing, n >= 2);",
         " * x outside the grid uses the first or last cell (the interpolation below clamps it). */",
         f"static inline int {lp}_cell(const {real} *axis, int n, {real} x)",
         "{",
@@ -83,8 +83,8 @@ def _helpers(p: str, real: str, single: bool) -> list[str]:
         "    return lo;",
         "}",
         "",
-        f"/* Bilinear interpolation of table[n0][n1] (row-major, pass &TABLE[0][0]) at (x0, x1) on the",
-        f" * grids axis0[n0], axis1[n1]. Points outside the grid are clamped to its edge. Returns",
+        "/* Bilinear interpolation of table[n0][n1] (row-major, pass &TABLE[0][0]) at (x0, x1) on the",
+        " * grids axis0[n0], axis1[n1]. Points outside the grid are clamped to its edge. Returns",
         f" * {p}_NO_VALUE when a corner of the cell has no value (test it with {flag}). */",
         f"static inline {real} {lp}_interp2(const {real} *table, const {real} *axis0, int n0,",
         f"                                  const {real} *axis1, int n1, {real} x0, {real} x1)",
