@@ -152,7 +152,8 @@ def c_header(design_name: str, arrays: dict[str, np.ndarray], units: dict[str, s
         "/*",
         f" * hoverfield {__version__} force and stiffness tables for design '{design_name}'.",
         " * Generated file: do not edit; re-run the tool instead. SI units (see each array).",
-        f" * Names are prefixed {p}_; arrays are {real} ({precision} precision).",
+        f" * Names are prefixed {p}_; arrays are {real} ({precision} precision). Headers of one design in double",
+        " * and single precision share the include guard and the names: include one of them.",
         f" * No NaN or infinity: a missing value is {p}_NO_VALUE; test with {p}_IS_NO_VALUE(x).",
     ]
     lines += [f" * {n}" for n in notes]
