@@ -440,7 +440,7 @@ OUTPUT_FILES: dict[str, str] = {
     "exports/exports.json": "what the exports stage wrote",
     "exports/tables.h": "C header for firmware: force, stiffness and inverse tables with lookup functions",
     "exports/plant.sub": "SPICE subcircuit of the electromechanical plant",
-    "exports/geometry.stl": "the bodies as a triangle mesh (STL)",
+    "exports/geometry.stl": "the bodies joined in one triangle mesh (STL, coordinates in metres)",
     "exports/geometry_mm.stl": "the bodies as STL in millimetres, one named solid per body",
     "exports/geometry.glb": "the bodies as a glTF scene of named meshes",
     "sim_": "nonlinear simulation: time, position, speed, current",
