@@ -112,16 +112,21 @@ def test_report_opens_in_headless_browser(report_dir, tmp_path):
 def test_csv_and_c_header_round_trip(report_dir):
     exp = report_dir / "exports"
     arrays = formats.parse_c_header((exp / "tables.h").read_text())
+    p = formats.c_ident(load(SUSPENSION).name) + "_"  # every C name carries the design's prefix
     for csv_name, h_name in (("table_Fz.csv", "FZ_N"), ("table_kz.csv", "KZ_N_PER_M"), ("table_ki.csv", "KI_N_PER_A"),
                              ("table_I_of_F.csv", "I_OF_F_A")):
         cols, data = read_csv(exp / csv_name)
         assert cols[0] == "gap_m"
-        np.testing.assert_allclose(data[:, 0], arrays["GAP_M"], rtol=1e-9)
-        np.testing.assert_allclose(data[:, 1:], arrays[h_name], rtol=1e-9, atol=1e-300)
+        # full precision in both files: the same binary64 values (IEEE 754-2008, sec. 5.12.2)
+        np.testing.assert_array_equal(data[:, 0], arrays[p + "GAP_M"])
+        table = data[:, 1:]
+        ok = np.isfinite(table)  # C has no NaN or infinity: those entries are the flag (NaN when read back)
+        np.testing.assert_array_equal(table[ok], arrays[p + h_name][ok])
+        assert np.all(np.isnan(arrays[p + h_name][~ok]))
     # the header itself round-trips binary64 exactly
     a = np.array([[1 / 3, -2.5e-7], [math.pi, 1e300]])
     back = formats.parse_c_header(formats.c_header("t", {"x": a}, {"x": "N"}, []))
-    assert np.array_equal(back["X"], a)
+    assert np.array_equal(back["T_X"], a)
 
 
 @pytest.mark.slow
@@ -167,6 +172,161 @@ print i(Vm)
     curves = json.loads((report_dir / "curves.json").read_text())
     assert current == pytest.approx(hover, rel=5e-3)
     assert current == pytest.approx(curves["at_operating_gap"]["hover_current_A"], rel=5e-3)
+
+
+# ----------------------------------------------------------------------------- exports other tools read
+
+
+def _invented_tables(single: bool = False):
+    """Force tables of the small invented design of tests/helpers.py (iron-free coil over a disc),
+    built as the exports stage builds them, and their C header."""
+    from fields import analysis
+    from fields.input import geometry
+
+    from helpers import MINIMAL
+
+    d = geometry.loads(MINIMAL, file="minimal.toml")
+    c = analysis.axial_curves(d, currents_A=[0.0])
+    imax = c.max_current_A
+    I = np.linspace(-imax, imax, 5)
+    g = c.gaps_m[::10]
+    F0, f = c.F0_N[::10], c.ki_N_per_A[::10]
+    Fz = F0[:, None] + f[:, None] * I[None, :]
+    kz = c.kz0_N_per_m[::10, None] - c.dki_dh_N_per_A_m[::10, None] * I[None, :]
+    ki = np.repeat(f[:, None], len(I), axis=1)
+    Fgrid = np.linspace(0.0, 3.0 * d.weight_N, 7)
+    Iinv = (Fgrid[None, :] - F0[:, None]) / f[:, None]
+    Iinv[0, 0] = np.inf  # a non-finite entry must not reach C
+    text = formats.force_tables_header(d.name, g, I, Fgrid, Fz, kz, ki, Iinv, imax, d.weight_N,
+                                       precision="single" if single else "double")
+    return d, dict(g=g, I=I, F=Fgrid, Fz=Fz, Iinv=Iinv, imax=imax), text
+
+
+def _compile_and_run(tmp_path, header: str, body: str) -> str:
+    gcc = shutil.which("gcc")
+    if gcc is None:
+        pytest.skip("gcc is not installed (Debian package 'gcc')")
+    (tmp_path / "tables.h").write_text(header)
+    (tmp_path / "main.c").write_text('#include <stdio.h>\n#include "tables.h"\nint main(void)\n{\n' + body
+                                     + "    return 0;\n}\n")
+    r = subprocess.run([gcc, "-std=c99", "-Wall", "-Wextra", "-Werror", "-pedantic", "-o", str(tmp_path / "main"),
+                        str(tmp_path / "main.c")], capture_output=True, text=True, timeout=120)
+    assert r.returncode == 0, r.stderr
+    run = subprocess.run([str(tmp_path / "main")], capture_output=True, text=True, timeout=60)
+    assert run.returncode == 0
+    return run.stdout
+
+
+@pytest.mark.parametrize("single", [False, True], ids=["double", "single"])
+def test_c_header_compiles_and_its_lookup_matches_the_python_table(tmp_path, single):
+    from scipy.interpolate import RegularGridInterpolator
+
+    d, t, text = _invented_tables(single)
+    # C has no NaN or infinity literals: none may appear (ISO C99 has no such constants in source)
+    body_text = re.sub(r"/\*.*?\*/", "", text, flags=re.S)
+    assert not re.search(r"\b(nan|inf|NAN|INFINITY)\b", body_text)
+    p, lp = formats.c_ident(d.name), formats.c_ident(d.name).lower()
+    g, I, F = t["g"], t["I"], t["F"]
+    # points inside the grid (off the nodes) and one beyond each end (clamped)
+    gq = [g[0] + 0.37 * (g[1] - g[0]), 0.5 * (g[3] + g[4]), g[-1] + 1e-3]
+    iq = [I[0] + 0.2 * (I[1] - I[0]), 0.3 * I[-1], I[-1] + 0.5]
+    lines = "".join(f'    printf("%.17g\\n", (double){lp}_fz_n_at({float(x)!r}, {float(y)!r}));\n' for x in gq for y in iq)
+    lines += f'    printf("%.17g %.17g %d\\n", (double){p}_GAP_M_STEP, (double){p}_MAX_CURRENT_A, {p}_GAP_M_LEN);\n'
+    fq = [0.5 * (F[1] + F[2]), F[-1] - 1e-6]
+    lines += "".join(f'    printf("%d\\n", {p}_IS_NO_VALUE({lp}_i_of_f_a_at({float(x)!r}, {float(y)!r})) ? 1 : 0);\n'
+                     for x in gq[:2] for y in fq)
+    out = _compile_and_run(tmp_path, text, lines).split("\n")
+    # reference: scipy's RegularGridInterpolator (linear = bilinear on a rectangular grid) on the
+    # same table, at the query points clamped to the grid as the header says
+    ref = RegularGridInterpolator((g, I), t["Fz"], method="linear")
+    rtol = 1e-6 if single else 1e-12  # binary32 keeps about 7 digits; binary64 rounding only
+    k = 0
+    for x in gq:
+        for y in iq:
+            want = float(ref([[min(max(x, g[0]), g[-1]), min(max(y, I[0]), I[-1])]])[0])
+            assert float(out[k]) == pytest.approx(want, rel=rtol, abs=1e-7 if single else 1e-15), (x, y)
+            k += 1
+    step, imax, n = out[k].split()
+    assert float(step) == pytest.approx((g[-1] - g[0]) / (len(g) - 1), rel=rtol) and int(n) == len(g)
+    assert float(imax) == pytest.approx(t["imax"], rel=rtol)
+    k += 1
+    # the inverse table: a cell with a corner beyond the max current (or not finite) has no value
+    inv = t["Iinv"]
+    for x in gq[:2]:
+        for y in fq:
+            i = int(np.searchsorted(g, x) - 1)
+            j = int(min(np.searchsorted(F, y) - 1, len(F) - 2))
+            corners = inv[i:i + 2, j:j + 2]
+            expect = not np.all(np.isfinite(corners) & (np.abs(corners) <= t["imax"]))
+            assert out[k] == ("1" if expect else "0"), (x, y, corners)
+            k += 1
+
+
+def test_csv_files_read_in_spreadsheet_style_readers(tmp_path):
+    import csv
+
+    from fields.input.csvtable import read_csv_meta, read_csv_table
+    from fields.io.export import csv_comment_lines, write_csv, write_long_csv
+
+    g = np.array([0.004, 0.0050000000000000001, 1 / 3])
+    I = np.array([-1.2, 0.0, 1.2])
+    F = g[:, None] * 10.0 + I[None, :] / 7.0
+    path = write_long_csv(tmp_path / "table_Fz.csv", {"gap_m": g, "current_A": I}, {"Fz_N": F},
+                          ["# hoverfield test", "# design: invented", "# upward force on a grid"])
+    text = path.read_text()
+    assert text.splitlines()[0] == "gap_m,current_A,Fz_N"  # the header is the first line
+    # Python's csv module (RFC 4180 dialect) with the header as field names
+    rows = list(csv.DictReader(text.splitlines()))
+    assert len(rows) == g.size * I.size
+    for r, (a, b) in zip(rows, [(a, b) for a in range(3) for b in range(3)]):
+        # full precision: float(repr(x)) == x for every binary64 x (Python language reference,
+        # "Floating point arithmetic", repr gives the shortest round-tripping text)
+        assert float(r["gap_m"]) == g[a] and float(r["current_A"]) == I[b] and float(r["Fz_N"]) == F[a, b]
+    # numpy.genfromtxt with names from the header, as a spreadsheet-style reader
+    arr = np.genfromtxt(path, delimiter=",", names=True)
+    assert arr.dtype.names == ("gap_m", "current_A", "Fz_N")
+    np.testing.assert_array_equal(arr["Fz_N"].reshape(3, 3), F)
+    meta = read_csv_meta(path)
+    assert meta["design"] == "invented" and meta["notes"][-1] == "upward force on a grid"
+    assert [c["unit"] for c in meta["columns"]] == ["m", "A", "N"]
+    # names with spaces (a coil called "lift coil") lose them; empty cells for no value
+    p2 = write_csv(tmp_path / "heat.csv", ["gap_m", "lift coil_power_W"], [[0.01, math.nan], [0.02, 1.5]])
+    head, body, _ = read_csv_table(p2)
+    assert head == ["gap_m", "lift_coil_power_W"] and body[0] == ["0.01", ""]
+    arr = np.genfromtxt(p2, delimiter=",", names=True)
+    assert math.isnan(arr["lift_coil_power_W"][0]) and arr["lift_coil_power_W"][1] == 1.5
+    # comment lines only behind the option: genfromtxt(names=True) would take a "#" line for the
+    # names (numpy documentation of genfromtxt, "names"), so a reader must be told to skip it
+    with csv_comment_lines():
+        p3 = write_csv(tmp_path / "c.csv", ["x_m"], [[0.5]], ["# a note"])
+    assert p3.read_text().splitlines()[0] == "# a note"
+    assert np.genfromtxt(p3, delimiter=",", names=True, skip_header=1)["x_m"] == 0.5
+    assert write_csv(tmp_path / "d.csv", ["x_m"], [[0.5]], ["# a note"]).read_text().startswith("x_m\n")
+
+
+def test_stl_export_is_in_millimetres_with_one_named_solid_per_body(tmp_path):
+    import trimesh
+
+    from fields.input import geometry
+    from fields.model import meshes
+
+    from helpers import MINIMAL
+
+    d = geometry.loads(MINIMAL, file="minimal.toml")
+    path = tmp_path / f"geometry_{meshes.STL_UNIT}.stl"
+    path.write_text(meshes.stl_text_mm(d))
+    scene = trimesh.load(str(path))  # trimesh reads each ASCII solid as one named geometry
+    assert set(scene.geometry) == {meshes.stl_solid_name(s.name) for s in bodies.design_solids(d)}
+    coil = d.coils[0]
+    lo, hi = scene.geometry[meshes.stl_solid_name(coil.name)].bounds
+    # the invented design's coil: outer radius 15 mm, height 20 mm, centre at z = 30 mm; the
+    # faceted radius is the equal-area polygon's (Zwillinger, CRC Standard Mathematical Tables)
+    r_poly_mm = meshes.polygon_radius_m(15e-3, meshes.MESH_SEGMENTS) * 1e3
+    assert hi[0] == pytest.approx(r_poly_mm, rel=1e-6) and -lo[0] == pytest.approx(r_poly_mm, rel=1e-6)
+    assert lo[2] == pytest.approx(20.0, abs=1e-6) and hi[2] == pytest.approx(40.0, abs=1e-6)
+    mag = scene.geometry[meshes.stl_solid_name(d.floater.magnets[0].name)]
+    assert mag.extents[2] == pytest.approx(5.0, abs=1e-6)  # the 5 mm disc, in mm
+    assert all(m.is_watertight for m in scene.geometry.values())
 
 
 @pytest.mark.slow
@@ -268,3 +428,86 @@ def test_serialiser_writes_strict_json_and_flat_rows():
     cols, rows = csv_table([Inner(0.01, (1, 2)), Inner(0.03, (4,))])
     assert cols == ["gap_m", "flags[0]", "flags[1]"]
     assert rows == [[0.01, 1, 2], [0.03, 4, None]]
+
+
+# ----------------------------------------------------------------------------- the report page
+
+
+class _Page(HTMLParser):
+    """Links, ids, the warnings box text and the nav of the report."""
+
+    def __init__(self):
+        super().__init__()
+        self.hrefs, self.ids, self.warn, self.verdict = [], set(), [], []
+        self._box = None
+        self._depth = 0
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        if "id" in a:
+            self.ids.add(a["id"])
+        if tag == "a" and "href" in a:
+            self.hrefs.append(a["href"])
+        if tag == "div" and a.get("class") in ("warn", "verdict"):
+            self._box, self._depth = a["class"], 1
+        elif tag == "div" and self._box:
+            self._depth += 1
+
+    def handle_endtag(self, tag):
+        if tag == "div" and self._box:
+            self._depth -= 1
+            if self._depth == 0:
+                self._box = None
+
+    def handle_data(self, data):
+        if self._box == "warn":
+            self.warn.append(data)
+        elif self._box == "verdict":
+            self.verdict.append(data)
+
+
+@pytest.mark.slow
+def test_report_has_contents_file_links_and_no_machine_paths(report_dir):
+    html = (report_dir / "report.html").read_text(encoding="utf-8")
+    p = _Page()
+    p.feed(html)
+    # the table of contents: every h2 has an id, and every "#..." link resolves to one
+    assert '<nav class="toc">' in html
+    h2 = re.findall(r"<h2[^>]*>", html)
+    assert h2 and all('id="' in h for h in h2)
+    local = [h[1:] for h in p.hrefs if h.startswith("#")]
+    assert len(local) == len(h2) and set(local) <= p.ids
+    # every file of the run (but the page itself) is linked, with a one-line description
+    files = sorted(q.relative_to(report_dir).as_posix() for q in report_dir.rglob("*")
+                   if q.is_file() and q.name not in ("report.html", "run_status.json"))
+    for f in files:
+        m = re.search(rf'<li><a href="{re.escape(f)}"><code>[^<]*</code></a> <small>([^<]+)</small></li>', html)
+        assert m and m.group(1).strip(), f
+        assert (report_dir / f).is_file()
+    # no folder of this machine: neither the output folder, the repository nor the home folder
+    for folder in {str(report_dir), str(ROOT), str(Path.home())}:
+        assert folder not in html, folder
+    assert "input <code>" in html and "suspension.toml</code>" in html
+    # nothing cut off at the right edge: tables scroll, pre scrolls, images shrink to the page
+    # (CSS Overflow Module Level 3, overflow-x; CSS 2.1, max-width)
+    assert re.search(r"\.scroll\{[^}]*overflow-x:auto", html) and re.search(r"pre\{[^}]*overflow-x:auto", html)
+    assert re.search(r"img\{[^}]*max-width:100%", html)
+    assert html.count("<table>") == html.count('<div class="scroll"><table>')
+
+
+@pytest.mark.slow
+def test_error_figures_carry_units_and_round_designs_get_no_spin_warning(report_dir):
+    html = (report_dir / "report.html").read_text(encoding="utf-8")
+    # every number whose key path names an error is followed by a unit
+    errs = re.findall(r'data-path="([^"]*error[^"]*)"[^>]*>[^<]*</span>( [^<\s,;)]+)?', html)
+    assert errs
+    for path, unit in errs:
+        assert unit and unit.strip(), path
+    p = _Page()
+    p.feed(html)
+    warn, verdict = " ".join(p.warn), " ".join(p.verdict)
+    # the suspension floater is round: its spin is neutral by symmetry, said in the verdict only
+    assert "spin about vertical: neutral" in verdict
+    assert "spin about vertical" not in warn
+    stab = json.loads((report_dir / "stability.json").read_text())
+    assert not any("spin about vertical" in n for n in stab["notes"])

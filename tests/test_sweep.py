@@ -37,8 +37,8 @@ from helpers import REPULSIVE, ROOT, SUSPENSION
 
 EXAMPLE_SWEEP = ROOT / "geometries" / "sweeps" / "suspension_magnet.toml"
 
-#: values that went through the CSV files (10 significant digits, fields.io.export.csv_text) versus
-#: values computed directly: relative agreement to the written precision
+#: values that went through the CSV files (written at full precision by fields.io.export.csv_text,
+#: so exact) versus values computed directly in another call: agreement to rounding
 CSV_RTOL = 1e-9
 #: the sweep evaluates the stiffness poses in one basis call; same arithmetic as
 #: analysis.stiffness_matrix at the same pose, so only the CSV rounding remains
@@ -183,7 +183,92 @@ def test_objective_and_limit_columns_are_checked(tmp_path):
         load_sweep(p, SUSPENSION)
 
 
-def test_latin_hypercube_sample_has_one_point_per_stratum(tmp_path):
+def test_unknown_column_error_names_every_result_column(tmp_path):
+    from fields.input.sweepfile import RESULT_COLUMNS, objective_columns
+
+    p = tmp_path / "bad.toml"
+    p.write_text('[[parameters]]\nkey = "floater.payload_mass"\nvalues = ["1 g"]\n'
+                 '[[objectives]]\ncolumn = "headroom"\nsense = "max"\n', encoding="utf-8")
+    with pytest.raises(GeometryError) as e:
+        load_sweep(p, SUSPENSION)
+    msg = str(e.value)
+    assert "\n" not in msg
+    for c in objective_columns():
+        assert c in msg, c
+    assert set(objective_columns()) | {"contact", "no_equilibrium", "core_saturation", "too_hot", "over_current",
+                                       "supply_short", "at_target_gap"} == set(RESULT_COLUMNS)
+    # the README's table lists every column the same way
+    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    for c in RESULT_COLUMNS:
+        assert f"| `{c}` |" in readme, c
+
+
+def test_categorical_axes_keep_the_sweep_files_order():
+    from fields.io import plots
+
+    par = {"floater.magnets[0].grade": ["N52", "N35", "N52", "N35"], "x_m": [0.01, 0.01, 0.02, 0.02]}
+    obj = {"coil_power_W": np.array([1.0, 2.0, 1.5, 2.5])}
+    fig = plots.objectives_vs_categories(par, obj, np.ones(4, bool), categories={"floater.magnets[0].grade": ["N52", "N35"]})
+    ax_cat, ax_num = fig.axes[0], fig.axes[1]
+    assert [t.get_text() for t in ax_cat.get_xticklabels()] == ["N52", "N35"]
+    xs = ax_cat.collections[1].get_offsets()[:, 0]  # the feasible points
+    # each point sits inside its category's slot (tick k +- 0.25)
+    assert np.all(np.abs(xs - np.array([0, 1, 0, 1])) <= 0.25 + 1e-12)
+    np.testing.assert_array_equal(ax_num.collections[1].get_offsets()[:, 0], par["x_m"])
+    plots.close(fig)
+
+
+TEXT_SWEEP = """
+name = "text"
+invented = true
+mode = "grid"
+
+[[parameters]]
+key = "floater.magnets[0].grade"
+values = ["N52", "N35"]
+
+[[parameters]]
+key = "floater.magnets[0].magnetization"
+values = [[0, 0, 1], [0, 0, -1]]
+
+[[objectives]]
+column = "coil_power_W"
+sense = "min"
+
+[[objectives]]
+column = "voltage_headroom_V"
+sense = "max"
+"""
+
+
+@pytest.mark.slow
+def test_text_parameters_reach_every_table_and_the_best_design(tmp_path):
+    p = tmp_path / "text.toml"
+    p.write_text(TEXT_SWEEP, encoding="utf-8")
+    out = tmp_path / "out"
+    res = sweep.run_sweep(SUSPENSION, p, out, workers=0, progress=False)
+    want = [("N52", "[0, 0, 1]"), ("N52", "[0, 0, -1]"), ("N35", "[0, 0, 1]"), ("N35", "[0, 0, -1]")]
+    gcol, mcol = "floater.magnets[0].grade", "floater.magnets[0].magnetization"
+    # Python's csv module reads the tables as they are (header first)
+    for name in ("sweep.csv", "ranked.csv", "front.csv"):
+        rows = list(csv.DictReader((out / name).read_text(encoding="utf-8").splitlines()))
+        assert rows, name
+        for r in rows:
+            assert (r[gcol], r[mcol]) == want[int(r["index"])], name
+    summary = json.loads((out / "sweep.json").read_text())
+    assert [(r[gcol], r[mcol]) for r in summary["designs_table"]] == want
+    assert summary["parameters"][0]["text_values"] == ["N52", "N35"]
+    assert (out / "objectives.png").read_bytes().startswith(b"\x89PNG")
+    # flipping the floater's magnetization flips the hover current (force linear in the
+    # magnetization at fixed current, and a current of the other sign restores it)
+    assert res.table[1]["hover_current_A"] == pytest.approx(-res.table[0]["hover_current_A"], rel=1e-6)
+    # the best design file describes its own values
+    best = geometry.load(out / "best_design.toml")
+    g, m = want[res.best_index]
+    assert f'{gcol} = "{g}"' in best.description and f"{mcol} = {m}" in best.description
+    assert f"index {res.best_index}" in best.description and "coil_power_W = " in best.description
+    assert best.floater.magnets[0].grade == g
+
     # definition of Latin hypercube sampling: McKay, Beckman & Conover (1979), Technometrics 21(2):
     # with N points, each parameter's range split into N equal strata holds exactly one point
     n = 10
@@ -287,6 +372,15 @@ def test_sweep_rows_equal_the_single_design_analysis(reference):
         assert row["coil_resistance_20C_ohm"] == pytest.approx(cd.resistance_20C_ohm, rel=CSV_RTOL)
         assert row["coil_power_W"] == pytest.approx(float(cd.power_W[0]), rel=CSV_RTOL)
         assert row["coil_temperature_rise_K"] == pytest.approx(float(cd.temperature_rise_K[0]), rel=CSV_RTOL)
+        # supply and headroom: Ohm's law at the steady winding temperature with copper's
+        # temperature coefficient 0.00393 1/K at 20 C (IEC 60028:1925, annealed copper)
+        V = abs(row["operating_current_A"]) * row["coil_resistance_20C_ohm"] * (1 + 0.00393 * (row["coil_temperature_C"] - 20.0))
+        assert row["supply_voltage_V"] == 24.0  # the suspension example's study.supply_voltage
+        assert row["coil_voltage_V"] == pytest.approx(V, rel=1e-12)
+        assert row["voltage_headroom_V"] == pytest.approx(24.0 - V, rel=1e-12)
+        assert row["supply_short"] is (V > 24.0)
+        # P = V I for the one coil (Joule's law)
+        assert row["coil_power_W"] == pytest.approx(V * abs(row["operating_current_A"]), rel=1e-12)
         # unstable pole: the positive pole of m z'' = -k_z z, from python-control (a general
         # linear-systems library): A = [[0, 1], [-k_z/m, 0]]
         import control

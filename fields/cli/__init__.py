@@ -53,6 +53,9 @@ def main(argv: list[str] | None = None) -> int:
         return 1
     try:
         rc = args.func(args)
+        sys.stdout.flush()  # a closed pipe shows here, inside the handler, not at interpreter exit
+    except BrokenPipeError:
+        return _reader_gone()
     except HoverfieldError as e:
         print(f"hoverfield: error: {e}", file=sys.stderr)
         return 2
@@ -60,6 +63,27 @@ def main(argv: list[str] | None = None) -> int:
         print("hoverfield: interrupted; files already written are complete", file=sys.stderr)
         return 130
     return rc
+
+
+#: exit status when the reader of our output went away (128 + SIGPIPE, as a shell reports a
+#: process that the signal ended; POSIX signal number 13)
+EXIT_BROKEN_PIPE = 141
+
+
+def _reader_gone() -> int:
+    """The reader of stdout closed it early (``hoverfield check FILE | head``): stop quietly.
+
+    Further writes, including the interpreter's final flush, go to the null device, as the
+    Python documentation advises for SIGPIPE (library reference, ``signal``, "Note on SIGPIPE").
+    """
+    import os
+
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):  # stdout without a file descriptor (captured in tests)
+        pass
+    return EXIT_BROKEN_PIPE
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -3,7 +3,8 @@
 :class:`TomlTable` wraps one TOML table with its file and key path; every accessor parses units
 through :func:`fields.input.units.parse` and raises :class:`fields.errors.GeometryError` naming
 file, key path, value and rule. The geometry loader and the sweep-file loader both read through
-it. :func:`read_csv_table` is the one CSV reader (``#`` comment lines, a header row, text cells);
+it. :func:`read_csv_table` is the one CSV reader (a header row, text cells; optional ``#`` lines
+above the header) and :func:`read_csv_meta` reads a CSV's sidecar JSON;
 :func:`read_csv` reads a numeric CSV written by :func:`fields.io.export.write_csv` back into an
 array.
 """
@@ -12,6 +13,8 @@ from __future__ import annotations
 
 import csv
 import difflib
+import io
+import json
 import math
 import tomllib
 from pathlib import Path
@@ -204,17 +207,36 @@ def read_toml(path: str | Path, what: str) -> tuple[str, dict]:
 
 
 def read_csv_table(path: str | Path) -> tuple[list[str], list[list[str]], list[str]]:
-    """(header, rows of text cells, comment lines) of a CSV file whose comment lines start with ``#``."""
-    lines = Path(path).read_text(encoding="utf-8").splitlines()
-    comments = [ln for ln in lines if ln.startswith("#")]
-    body = [ln for ln in lines if ln and not ln.startswith("#")]
-    rows = list(csv.reader(body))
+    """(header, rows of text cells, comment lines) of a CSV file.
+
+    The header is the first line that does not start with ``#`` (files written with comment
+    lines on carry ``#`` lines above it; by default there are none). Cells are read by the
+    :mod:`csv` module, so quoted cells may hold commas and line breaks.
+    """
+    text = Path(path).read_text(encoding="utf-8")
+    lines = text.splitlines(keepends=True)
+    k = 0
+    while k < len(lines) and lines[k].startswith("#"):
+        k += 1
+    comments = [ln.rstrip("\r\n") for ln in lines[:k]]
+    rows = [r for r in csv.reader(io.StringIO("".join(lines[k:]))) if r]
     return (rows[0] if rows else []), rows[1:], comments
+
+
+def read_csv_meta(path: str | Path) -> dict | None:
+    """The sidecar ``<stem>.meta.json`` of a CSV file (what it holds, column units), or None
+    when there is none."""
+    p = Path(path)
+    m = p.with_name(p.stem + ".meta.json")
+    if not m.is_file():
+        return None
+    return json.loads(m.read_text(encoding="utf-8"))
 
 
 def parse_cell(text: str) -> float:
     """A numeric CSV cell as written by :func:`fields.io.export.csv_text`: empty is NaN,
-    ``true``/``false`` are 1/0, ``inf``/``-inf`` infinite."""
+    ``true``/``false`` are 1/0, ``inf``/``-inf`` infinite, numbers exactly as written (full
+    binary64 precision)."""
     if text == "":
         return math.nan
     if text in ("true", "false"):

@@ -35,7 +35,7 @@ RESULT_COLUMNS: dict[str, tuple[str | None, str]] = {
     "target_gap_m": ("m", "the study's operating gap"),
     "hover_current_A": ("A", "drive current that holds the floater at the operating gap (may exceed the limit)"),
     "at_target_gap": (None, "true: held at the operating gap by the hover current; false: at the passive "
-                            "zero-current equilibrium (the operating-point rule of fields.analysis.operating)"),
+                            "zero-current equilibrium (the operating-point rule the report uses: a passive stable height first)"),
     "operating_gap_m": ("m", "gap of the operating point (six-axis equilibrium)"),
     "operating_current_A": ("A", "drive current at the operating point"),
     "ki_N_per_A": ("N/A", "upward force per ampere of drive current at the operating point"),
@@ -51,6 +51,10 @@ RESULT_COLUMNS: dict[str, tuple[str | None, str]] = {
     "coil_power_W": ("W", "steady I^2 R(T) over all coils at the operating current"),
     "coil_temperature_C": ("degC", "hottest coil's steady average temperature (inf: runaway)"),
     "coil_temperature_rise_K": ("K", "hottest coil's steady rise above ambient"),
+    "supply_voltage_V": ("V", "the study's supply voltage"),
+    "coil_voltage_V": ("V", "largest steady coil voltage R(T) |I| at the operating current (hot resistance)"),
+    "voltage_headroom_V": ("V", "supply_voltage_V minus coil_voltage_V (negative: the supply cannot hold the "
+                                "operating current)"),
     "max_payload_kg": ("kg", "largest payload that hovers at the operating gap within the current limit"),
     "min_payload_kg": ("kg", "smallest payload that hovers there"),
     "payload_margin_kg": ("kg", "max_payload_kg minus the design's payload"),
@@ -61,8 +65,9 @@ RESULT_COLUMNS: dict[str, tuple[str | None, str]] = {
                               "(the linear force model is approximate there)"),
     "too_hot": (None, "flag: a coil's steady temperature exceeds its insulation class, or runs away"),
     "over_current": (None, "flag: hovering at the operating gap needs more than max_current"),
+    "supply_short": (None, "flag: the supply voltage is below a coil's steady voltage at the operating current"),
 }
-FLAGS = ("contact", "no_equilibrium", "core_saturation", "too_hot", "over_current")
+FLAGS = ("contact", "no_equilibrium", "core_saturation", "too_hot", "over_current", "supply_short")
 BOOL_COLUMNS = frozenset(FLAGS) | {"at_target_gap"}
 
 #: designs above this count are refused (a typo in a count should not start a month-long run)
@@ -72,7 +77,7 @@ SWEEP_KEYS = ("name", "description", "invented", "base", "mode", "parameters", "
 
 #: the kind of quantity (fields.input.units.KINDS) of each column unit that has one
 _UNIT_KIND = {"kg": "mass", "m": "length", "A": "current", "1/s": "frequency", "N": "force", "ohm": "resistance",
-              "W": "power", "degC": "temperature"}
+              "W": "power", "degC": "temperature", "V": "voltage"}
 
 
 # ============================================================================== the spec
@@ -175,12 +180,17 @@ def _sample(data: dict, file: str, mode: str) -> tuple[int, str, int]:
     return (int(n) if mode == "sample" else 0), method, int(seed)
 
 
+def objective_columns() -> list[str]:
+    """The result columns an objective or a limit can name (every numeric column; not the flags)."""
+    return [c for c in RESULT_COLUMNS if c not in BOOL_COLUMNS]
+
+
 def _check_column(col: Any, file: str, where: str) -> None:
-    cols = [c for c in RESULT_COLUMNS if c not in BOOL_COLUMNS]
+    cols = objective_columns()
     if col not in cols:
         near = difflib.get_close_matches(str(col), cols, n=1, cutoff=0.0)
         hint = f" (did you mean \"{near[0]}\"?)" if near else ""
-        raise _err(file, where, "a result column such as " + ", ".join(cols[:4]) + ", ..." + hint, col)
+        raise _err(file, where, "one of the result columns " + ", ".join(cols) + hint, col)
 
 
 def _column_tables(raw: Any, file: str, where: str, keys: tuple[str, ...]) -> list[tuple[str, dict]]:

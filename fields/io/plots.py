@@ -470,3 +470,75 @@ def offset_tilt_curves(lateral_map, tilt_map, gap_m: float, title: str = ""):
     fig.suptitle(title or "sideways force and tilt torque", fontsize=11)
     fig.tight_layout()
     return fig
+
+
+def objectives_vs_categories(parameters: dict, objectives: dict, feasible, categories: dict | None = None,
+                             front_mask=None, title: str = ""):
+    """Like :func:`objectives_vs_parameters`, with text-valued parameters (grades, wire gauges,
+    directions) on categorical axes.
+
+    A text parameter gets one tick per category, in the order of ``categories`` (the sweep
+    file's order; default first seen), and its designs are spread a little sideways inside the
+    category (a strip plot) so that coincident points stay visible. Numeric parameters are
+    plotted against their values as before.
+
+    Parameters
+    ----------
+    parameters : dict of str to sequence, each of length n
+        Parameter column -> values (SI numbers, or text).
+    objectives : dict of str to ndarray, shape (n,)
+    feasible : ndarray of bool, shape (n,)
+    categories : dict of str to sequence of str, optional
+        Parameter column -> its categories in display order.
+    front_mask : ndarray of bool, shape (n,), optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    feasible = np.asarray(feasible, bool)
+    categories = categories or {}
+    pn, on = list(parameters), list(objectives)
+    fig, axes = plt.subplots(len(on), len(pn), figsize=(3.6 * len(pn) + 0.8, 2.8 * len(on) + 0.8), squeeze=False)
+    fm = np.asarray(front_mask, bool) if front_mask is not None else np.zeros(len(feasible), bool)
+    for j, p in enumerate(pn):
+        raw = list(parameters[p])
+        labels = None
+        if p in categories or any(isinstance(v, str) for v in raw):
+            labels = [str(c) for c in categories.get(p, ())]
+            for v in raw:
+                if str(v) not in labels:
+                    labels.append(str(v))
+            pos = np.array([labels.index(str(v)) for v in raw], float)
+            # deterministic spread inside a category: -0.25 .. 0.25 by the order within it
+            seen: dict[str, int] = {}
+            counts = {lab: sum(1 for v in raw if str(v) == lab) for lab in labels}
+            x = pos.copy()
+            for k, v in enumerate(raw):
+                c = seen.get(str(v), 0)
+                seen[str(v)] = c + 1
+                n_c = counts[str(v)]
+                x[k] += 0.0 if n_c == 1 else -0.25 + 0.5 * c / (n_c - 1)
+        else:
+            x = np.array(raw, float)
+        for i, o in enumerate(on):
+            ax = axes[i, j]
+            y = np.asarray(objectives[o], float)
+            ax.scatter(x[~feasible], y[~feasible], s=9, marker="x", color="#bbbbbb", label="rejected")
+            ax.scatter(x[feasible], y[feasible], s=10, color="#5b7fbf", label="feasible")
+            if np.any(fm):
+                ax.scatter(x[fm], y[fm], s=30, facecolors="none", edgecolors="#c04a4a", label="Pareto front")
+            if labels is not None:
+                ax.set_xticks(range(len(labels)))
+                ax.set_xticklabels(labels, rotation=30, fontsize=7)
+                ax.set_xlim(-0.6, len(labels) - 0.4)
+            if i == len(on) - 1:
+                ax.set_xlabel(p + (" (category)" if labels is not None else ""), fontsize=8)
+            if j == 0:
+                ax.set_ylabel(o, fontsize=8)
+            ax.grid(True, alpha=0.3)
+            ax.tick_params(labelsize=7)
+    axes[0, 0].legend(fontsize=7, loc="best")
+    fig.suptitle(title or "objectives versus parameters", fontsize=11)
+    fig.tight_layout()
+    return fig

@@ -12,6 +12,7 @@ import base64
 import datetime as _dt
 import html
 import math
+import re
 from pathlib import Path
 from typing import Any
 
@@ -28,11 +29,15 @@ h3{margin-bottom:.3em}
 .warn{border-left:6px solid #c77700;background:#fff6e6;padding:8px 16px;margin:14px 0}
 .fail{border-left:6px solid #b00020;background:#fdecee;padding:8px 16px;margin:14px 0}
 .safety{border-left:6px solid #6b6b6b;background:#f1f1f1;padding:8px 16px;margin:14px 0;font-size:.92em}
+.scroll{max-width:100%;overflow-x:auto}
 table{border-collapse:collapse;margin:8px 0 14px;font-size:.92em}
 td,th{border:1px solid #d5dbe3;padding:3px 8px;text-align:right} th{background:#eef1f5}
 td.l,th.l{text-align:left}
-img{max-width:100%;border:1px solid #e3e7ec;margin:6px 0}
-pre{background:#f4f6f8;padding:10px;overflow-x:auto;font-size:.82em}
+img{max-width:100%;height:auto;border:1px solid #e3e7ec;margin:6px 0}
+pre{background:#f4f6f8;padding:10px;overflow-x:auto;max-width:100%;font-size:.82em}
+code{overflow-wrap:anywhere}
+nav.toc{background:#f4f6f8;padding:6px 16px;margin:12px 0;font-size:.92em} nav.toc ol{margin:4px 0;padding-left:22px}
+ul.files li{margin:2px 0} ul.files small{color:#56606c}
 .num{font-variant-numeric:tabular-nums}
 """
 
@@ -70,7 +75,57 @@ def table(headers: list[str], rows: list[list[str]], left_cols: int = 1) -> str:
     body = []
     for r in rows:
         body.append("<tr>" + "".join(f'<td class="{"l" if i < left_cols else ""}">{c}</td>' for i, c in enumerate(r)) + "</tr>")
-    return f"<table><tr>{h}</tr>{''.join(body)}</table>"
+    return f"<div class=\"scroll\"><table><tr>{h}</tr>{''.join(body)}</table></div>"
+
+
+def shown_path(path: str | Path, cwd: str | Path | None = None) -> str:
+    """A file path as the report shows it: a relative path as the user gave it; an absolute one
+    relative to the working folder when it lies inside it, else only its file name (the report
+    never shows the machine's folders).
+
+    >>> shown_path("geometries/a.toml"), shown_path("/srv/x/geometries/a.toml", "/srv/x"), shown_path("/srv/a.toml", "/home")
+    ('geometries/a.toml', 'geometries/a.toml', 'a.toml')
+    """
+    p = Path(path)
+    if not p.is_absolute():
+        return str(path)
+    base = Path(cwd) if cwd is not None else Path.cwd()
+    try:
+        return p.relative_to(base).as_posix()
+    except ValueError:
+        return p.name
+
+
+def _slug(text: str) -> str:
+    s = re.sub(r"<[^>]+>", "", text)
+    s = re.sub(r"[^0-9a-zA-Z]+", "-", html.unescape(s).lower()).strip("-")
+    return s or "section"
+
+
+def with_contents(sections: list[str], after: int = 0) -> list[str]:
+    """The sections with an ``id`` on every ``<h2>`` and a table of contents (links to them)
+    inserted after the first ``after`` sections."""
+    entries: list[tuple[str, str]] = []
+    used: set[str] = set()
+
+    def tag(m: re.Match) -> str:
+        attrs, title = m.group(1), m.group(2)
+        if "id=" in attrs:
+            sid = re.search(r'id="([^"]*)"', attrs).group(1)
+        else:
+            sid = base = _slug(title)
+            k = 2
+            while sid in used:
+                sid, k = f"{base}-{k}", k + 1
+            attrs = f' id="{sid}"' + attrs
+        used.add(sid)
+        entries.append((sid, re.sub(r"<[^>]+>", "", title)))
+        return f"<h2{attrs}>{title}</h2>"
+
+    out = [re.sub(r"<h2([^>]*)>(.*?)</h2>", tag, sec, flags=re.S) for sec in sections]
+    nav = ('<nav class="toc"><b>Contents</b><ol>' + "".join(f'<li><a href="#{i}">{t}</a></li>' for i, t in entries)
+           + "</ol></nav>")
+    return out[:after] + [nav] + out[after:]
 
 
 def page(title: str, sections: list[str]) -> str:

@@ -5,8 +5,9 @@ from __future__ import annotations
 from pathlib import Path
 
 from fields import __version__
-from fields.io.report import esc, img, num, page, table
-from fields.io.wording import COIL_SHEET_ROWS, SAFETY_POINTS
+from fields.input.csvtable import read_csv_meta
+from fields.io.report import esc, img, num, page, shown_path, table, with_contents
+from fields.io.wording import COIL_SHEET_ROWS, SAFETY_POINTS, file_description
 
 #: the JSON files the report reads, by the names the sections use
 _FILES = ("stability.json", "curves.json", "coil.json", "sensors.json", "control.json")
@@ -111,14 +112,15 @@ def _stability(stab: dict, out: Path) -> list[str]:
     K = stab["stiffness_matrix"]
     E = stab["stiffness_error"]
     krows = [[esc(a)] + [num(K[i][j], "stability.json", f"stiffness_matrix[{i}][{j}]", digits=4) +
-                         f' <small>&plusmn;{num(E[i][j], "stability.json", f"stiffness_error[{i}][{j}]", digits=1)}</small>'
+                         f' <small>&plusmn;{num(E[i][j], "stability.json", f"stiffness_error[{i}][{j}]", stiffness_unit(i, j), digits=1)}</small>'
                          for j in range(6)] for i, a in enumerate(axes)]
     S.append("<p>Stiffness matrix K = -d(F, T)/d(x, y, z, rx, ry, rz) about the centre of mass "
-             "(N/m, N/rad, N m/m, N m/rad), with the Richardson error bar of each entry. "
+             "(N/m, N/rad, N m/m, N m/rad by block; every error bar carries its unit), with the Richardson error bar "
+             "of each entry. "
              f"{esc(stab['step_rule'])}.</p>" + table(["row"] + axes, krows))
     S.append(f"<p>Earnshaw check: trace of the translational block "
              f"{num(stab['earnshaw_trace_N_per_m'], 'stability.json', 'earnshaw_trace_N_per_m', 'N/m')} "
-             f"({num(stab['earnshaw_residual'], 'stability.json', 'earnshaw_residual', digits=2)} of the largest diagonal entry); "
+             f"({num(stab['earnshaw_residual'], 'stability.json', 'earnshaw_residual', digits=2)} (a fraction) of the largest diagonal entry); "
              f"{esc(stab['earnshaw_note'])}.</p>")
     if "allocation" in stab:
         S.append(f"<p>Coils to force/torque: {esc(stab['allocation']['text'])} (<code>allocation.csv</code>).</p>")
@@ -239,8 +241,11 @@ def _accuracy(J: dict) -> list[str]:
         acc.append(["force quadrature (two rule orders), largest over the gaps",
                     num(curves["max_force_error_N"], "curves.json", "max_force_error_N", "N", digits=2)])
     if stab:
-        acc.append(["stiffness error bar, largest entry (Richardson)",
-                    num(stab["stiffness_error_max"], "stability.json", "stiffness_error_max", digits=2)])
+        E = stab["stiffness_error"]
+        i, j = max(((a, b) for a in range(6) for b in range(6)), key=lambda ab: E[ab[0]][ab[1]])
+        axes = ("x", "y", "z", "rx", "ry", "rz")
+        acc.append([f"stiffness error bar, largest entry (Richardson): K[{axes[i]}][{axes[j]}]",
+                    num(E[i][j], "stability.json", f"stiffness_error[{i}][{j}]", stiffness_unit(i, j), digits=2)])
     if coil:
         for i, c in enumerate(coil["coils"]):
             acc.append([f"{esc(c['name'])}: inductance quadrature", num(c["inductance_error_H"], "coil.json", f"coils[{i}].inductance_error_H", "H", digits=2)])
@@ -252,11 +257,29 @@ def _accuracy(J: dict) -> list[str]:
             "small compared with the core diameter or near saturation.</p>"]
 
 
+def stiffness_unit(i: int, j: int) -> str:
+    """Unit of the stiffness entry K[i][j] (rows force/torque, columns displacement/rotation)."""
+    return ("N/m", "N/rad", "N m/m", "N m/rad")[2 * (i >= 3) + (j >= 3)]
+
+
 def _files_and_inputs(out: Path, input_lines, geometry_text: str | None) -> list[str]:
-    """The files written, the inputs as read, the geometry file."""
+    """The files written (each a link with one line on what it holds), the inputs as read, the
+    geometry file."""
     S: list[str] = []
-    files = sorted(p.relative_to(out).as_posix() for p in out.rglob("*") if p.is_file() and p.name != "report.html")
-    S.append("<h2>Files</h2><ul>" + "".join(f"<li><code>{esc(f)}</code></li>" for f in files) + "</ul>")
+    files = sorted(p.relative_to(out).as_posix() for p in out.rglob("*") if p.is_file() and p.name != "report.html"
+                   and not p.name.startswith("."))
+    items = []
+    for f in files:
+        notes = ()
+        if f.endswith(".csv"):
+            try:
+                notes = tuple((read_csv_meta(out / f) or {}).get("notes", ()))
+            except ValueError:  # an unreadable sidecar: fall back to the generic line
+                notes = ()
+        items.append(f'<li><a href="{esc(f)}"><code>{esc(f)}</code></a> <small>{esc(file_description(f, notes))}</small></li>')
+    S.append("<h2>Files</h2><p>Every file of this run, relative to this page's folder; CSV tables carry their header on "
+             "the first line and their notes and units in the <code>.meta.json</code> beside them.</p>"
+             '<ul class="files">' + "".join(items) + "</ul>")
     if input_lines is not None:
         S.append("<h2>Inputs (as read, with units)</h2><pre>" + esc("\n".join(input_lines)) + "</pre>")
     if geometry_text:
@@ -285,7 +308,7 @@ def build_report(design, out: Path, failed: dict, load, geometry_text: str | Non
     out = Path(out)
     J = {k: load(k) for k in _FILES}
     S: list[str] = [f"<h1>{esc(design.name)}: design report</h1>",
-                    f'<p class="meta">hoverfield {__version__} &middot; input <code>{esc(design.source)}</code>'
+                    f'<p class="meta">hoverfield {__version__} &middot; input <code>{esc(shown_path(design.source))}</code>'
                     + (" &middot; <b>invented example</b>: the numbers are made up for demonstration" if design.invented else "")
                     + "</p>"]
     if design.description:
@@ -297,4 +320,5 @@ def build_report(design, out: Path, failed: dict, load, geometry_text: str | Non
             S += section(J[name], out)
     S += _control(J, out) + _accuracy(J)
     S += _files_and_inputs(out, input_lines, geometry_text)
-    return page(f"{design.name}: hoverfield report", S)
+    head = 3 if design.description else 2
+    return page(f"{design.name}: hoverfield report", with_contents(S, after=head))

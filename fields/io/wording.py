@@ -170,9 +170,16 @@ def mode_name(mode) -> str:
 
 
 def verdict_notes(verdict) -> tuple[str, ...]:
-    """Notes on neutral modes of a verdict."""
+    """Warnings about neutral modes of a verdict that a reader must act on.
+
+    The spin about the vertical is neutral for every round (axisymmetric) design, by symmetry,
+    and harmless: the verdict lines say so, and it is no warning. A neutral sideways, tilt or
+    vertical mode is: nothing holds the floater along it.
+    """
+    from fields.analysis.verdict import ModeKind
+
     return tuple(f"{mode_name(m)}: neutral (no restoring stiffness; it may drift slowly)"
-                 for m in verdict.modes if m.neutral)
+                 for m in verdict.modes if m.neutral and m.kind is not ModeKind.SPIN)
 
 
 def curve_warnings(curves) -> tuple[str, ...]:
@@ -201,7 +208,11 @@ def notice_text(n) -> str:
     mm = 1e3
     texts = {
         "wire_inferred": lambda: f"coil {s}: no wire given; bare diameter {v['diameter_m'] * mm:.3g} mm inferred from "
-                                 f"{v['turns']:g} turns at copper fill {v['fill']:g} (common practice, no source)",
+                                 f"{v['turns']:g} turns at "
+                                 + (f"the given copper fill {v['fill']:g}" if v.get("fill_given", v["fill"] != _default_fill())
+                                    else f"an assumed copper fill {v['fill']:g} (no fill_factor given; typical of "
+                                         "machine-wound enamelled round wire, common practice, no source; give "
+                                         "fill_factor or the wire to change it)"),
         "high_fill": lambda: f"coil {s}: copper fill factor {v['fill']:.2f} is above {v['limit']} and hard to wind with "
                              "enamelled round wire (common practice, no source)",
         "fill_mismatch": lambda: f"coil {s}: given fill factor {v['given_fill']:g} differs from the {v['implied_fill']:.3f} "
@@ -242,9 +253,17 @@ def notice_text(n) -> str:
                                   "gap; compensate it (subtract c_k I_k)",
         "core_approximate": lambda: f"sensor {s}: core response from the uniform-magnetization core model (approximate)",
     }
-    if c not in texts:
-        return f"{s}: {c} {v}"
+    if c not in texts:  # a notice without its own sentence yet: its name and values in words
+        shown = ", ".join(f"{k.replace('_', ' ')} {x:.4g}" if isinstance(x, float) else f"{k.replace('_', ' ')} {x}"
+                          for k, x in v.items())
+        return f"{s}: {c.replace('_', ' ')}" + (f" ({shown})" if shown else "")
     return texts[c]()
+
+
+def _default_fill() -> float:
+    from fields.devices.winding import DEFAULT_FILL_FACTOR
+
+    return DEFAULT_FILL_FACTOR
 
 
 def notices_text(notices) -> tuple[str, ...]:
@@ -380,3 +399,79 @@ def proportional_text(study, mechanical_pole_rad_per_s: float) -> str:
             f"{study.unstable_stiffness_per_s2:.4g} 1/s^2: {window}. Across the gains tried the fastest mode grows at "
             f"{maxre.min():.4g} to {maxre.max():.4g} 1/s (positive = growing): the coil's electrical "
             f"lag turns the undamped oscillation of current drive into a growing one.")
+
+
+# ---------------------------------------------------------------------------------------------
+# the files a run writes (the report's file list)
+
+#: one line per output file name; names that vary (per sensor, per simulation) by their prefix
+OUTPUT_FILES: dict[str, str] = {
+    "design.json": "the design as read (SI units), with its summary",
+    "design.png": "the design drawn to scale",
+    "curves.csv": "axial force versus gap for each current, hover current, payload envelope",
+    "curves.json": "summary of the axial curves: equilibria, operating gap, warnings",
+    "curves.png": "figure: force versus gap for each current",
+    "kz_table.csv": "axial stiffness k_z versus gap and current",
+    "stability.json": "equilibrium, 6x6 stiffness with error bars, verdict mode by mode",
+    "stiffness.csv": "the 6x6 stiffness matrix and its error bars",
+    "allocation.csv": "force and torque per ampere of each coil at the equilibrium",
+    "map_lateral.csv": "force and torque versus sideways offset and gap",
+    "map_tilt.csv": "force and torque versus tilt and gap",
+    "maps.png": "figure: sideways and tilt maps",
+    "offset_tilt_curves.png": "figure: sideways force and tilt torque at the operating gap",
+    "stiffness_vs_gap.csv": "diagonal stiffness versus gap at the hover current",
+    "stiffness_vs_gap.png": "figure: stiffness versus gap",
+    "coil.json": "coil datasheet: winding, resistance, inductance, heat, drive headroom",
+    "coil_heat.csv": "coil power and steady temperature at the hover current of each gap",
+    "sensors.json": "sensor curves, gains, linear ranges, cross-talk, placement",
+    "sensors.csv": "sensor outputs versus gap",
+    "sensors.png": "figure: sensor curves",
+    "placement.csv": "candidate Hall sensor positions and how they rate",
+    "control.json": "control model: plant, controller starting point, margins, simulations",
+    "plant.json": "linear plant: state space and transfer function",
+    "plant.csv": "linear plant matrices, one entry per row",
+    "capture.csv": "capture map: starting offset and speed, captured or not",
+    "capture.png": "figure: capture range",
+    "hysteresis.csv": "on/off control with a hysteresis band: outcome per band",
+    "control_bode.png": "figure: Bode plot of the loop",
+    "control_nyquist.png": "figure: Nyquist plot of the loop",
+    "control_step.png": "figure: nonlinear responses",
+    "run_status.json": "which stages finished and which failed",
+    "exports/exports.json": "what the exports stage wrote",
+    "exports/tables.h": "C header for firmware: force, stiffness and inverse tables with lookup functions",
+    "exports/plant.sub": "SPICE subcircuit of the electromechanical plant",
+    "exports/geometry.stl": "the bodies joined in one triangle mesh (STL, coordinates in metres)",
+    "exports/geometry_mm.stl": "the bodies as STL in millimetres, one named solid per body",
+    "exports/geometry.glb": "the bodies as a glTF scene of named meshes",
+    "sim_": "nonlinear simulation: time, position, speed, current",
+    "inverse_": "gap from a sensor reading (inverse table)",
+    "table_": "force table for other tools",
+}
+
+_BY_SUFFIX = {".png": "figure", ".csv": "table (header on the first line)", ".json": "data (JSON)",
+              ".stl": "triangle mesh", ".glb": "glTF scene", ".h": "C header", ".sub": "SPICE subcircuit"}
+
+
+def file_description(rel: str, csv_notes: Sequence[str] = ()) -> str:
+    """One line on what an output file holds.
+
+    ``rel`` is its path inside the output folder; ``csv_notes`` the notes of a CSV's sidecar
+    (its last note says what the table holds, and wins over the generic line).
+
+    >>> file_description("curves.png"), file_description("x/table.meta.json")
+    ('figure: force versus gap for each current', 'what table.csv holds: notes and the unit of every column')
+    """
+    name = rel.rsplit("/", 1)[-1]
+    if name.endswith(".meta.json"):
+        return f"what {name[:-len('.meta.json')]}.csv holds: notes and the unit of every column"
+    if csv_notes:
+        return str(csv_notes[-1])
+    if rel in OUTPUT_FILES:
+        return OUTPUT_FILES[rel]
+    if name in OUTPUT_FILES:
+        return OUTPUT_FILES[name]
+    for prefix, text in OUTPUT_FILES.items():
+        if prefix.endswith("_") and name.startswith(prefix):
+            return text
+    dot = name.rfind(".")
+    return _BY_SUFFIX.get(name[dot:] if dot >= 0 else "", "output file")

@@ -1,6 +1,6 @@
 """Closed triangle meshes of the solids (for export and for plane sections).
 
-Pure numpy/trimesh, SI units.
+Pure numpy/trimesh, SI units inside; :func:`stl_text_mm` writes millimetres for CAD.
 """
 
 from __future__ import annotations
@@ -102,3 +102,50 @@ def body_meshes(design: Design, gap_m: float | None = None,
         volume, cuboids and mesh magnets are exact.
     """
     return {s.name: m for s, m in placed_meshes(design, gap_m, segments, True)}
+
+
+#: how the STL export names its unit (file name and header): millimetres, as CAD and slicers read STL
+STL_UNIT = "mm"
+
+
+def stl_solid_name(body_name: str) -> str:
+    """A body name as an STL solid name (one word: white space and other characters become ``_``).
+
+    >>> stl_solid_name("lift coil")
+    'lift_coil'
+    """
+    s = "".join(ch if (ch.isalnum() or ch in "-_.") else "_" for ch in body_name.strip())
+    return s or "body"
+
+
+def stl_text_mm(design: Design, gap_m: float | None = None, segments: int = MESH_SEGMENTS) -> str:
+    """Every body as an ASCII STL solid of its own (named after the body), in millimetres.
+
+    STL carries no unit; most CAD tools and slicers read its numbers as millimetres, so the
+    coordinates are the model's metres times 1000, and the exporter names the file for its unit
+    (``geometry_mm.stl``, :data:`STL_UNIT`). One ``solid <name> ... endsolid <name>`` block per body
+    (the ASCII STL grammar of 3D Systems' *StereoLithography Interface Specification*, 1988;
+    several solids in one file is the common multi-body extension that trimesh and most CAD
+    importers read). Facet normals are the outward unit normals of :func:`body_meshes`.
+    """
+    meshes = body_meshes(design, gap_m, segments)
+    out: list[str] = []
+    used: set[str] = set()
+    for name, m in meshes.items():
+        sname = stl_solid_name(name)
+        k = 2
+        while sname in used:
+            sname = f"{stl_solid_name(name)}_{k}"
+            k += 1
+        used.add(sname)
+        v = np.asarray(m.vertices, float) * 1e3
+        out.append(f"solid {sname}")
+        for f, nrm in zip(np.asarray(m.faces), np.asarray(m.face_normals, float)):
+            out.append(f"  facet normal {nrm[0]:.9e} {nrm[1]:.9e} {nrm[2]:.9e}")
+            out.append("    outer loop")
+            for i in f:
+                out.append(f"      vertex {v[i, 0]:.9e} {v[i, 1]:.9e} {v[i, 2]:.9e}")
+            out.append("    endloop")
+            out.append("  endfacet")
+        out.append(f"endsolid {sname}")
+    return "\n".join(out) + "\n"

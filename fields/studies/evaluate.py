@@ -78,20 +78,26 @@ def _stiffness_columns(design: Design, op) -> dict[str, Any]:
 
 
 def _coil_heat_columns(design: Design, drive_current_A: float) -> dict[str, Any]:
-    """Steady coil heat with every coil at ``drive_current_A * d_k`` (lumped model of
-    :func:`fields.devices.coil.steady_temperature_C`); NaN without a drive current."""
+    """Steady coil heat and voltage with every coil at ``drive_current_A * d_k`` (lumped model of
+    :func:`fields.devices.coil.steady_temperature_C`); NaN without a drive current.
+
+    The coil voltage is Ohm's law at the steady winding temperature, ``V = |I| R20 (1 + alpha
+    (T - 20 C))`` (copper's temperature coefficient, IEC 60028); the headroom is the supply less
+    the largest coil voltage (the inductive share ``L dI/dt`` is zero in the steady state)."""
     from fields import analysis
     from fields.devices import winding
     from fields.input.tables import COPPER_ALPHA_20C_PER_K
 
     st = design.study
     ambient = float(st.ambient_temperature_C)
+    supply = float(st.supply_voltage_V)
     if not design.coils:
         return {"coil_resistance_20C_ohm": 0.0, "coil_power_W": 0.0, "coil_temperature_C": ambient,
-                "coil_temperature_rise_K": 0.0, "too_hot": False}
+                "coil_temperature_rise_K": 0.0, "too_hot": False, "supply_voltage_V": supply, "coil_voltage_V": 0.0,
+                "voltage_headroom_V": supply, "supply_short": False}
     d = analysis.drive_pattern(design)
     R_sum = P_sum = 0.0
-    T_hot, too_hot = -math.inf, False
+    T_hot, too_hot, V_max = -math.inf, False, 0.0
     for i, c in enumerate(design.coils):
         R20, G = winding.resistance_and_cooling(design, i)
         R_sum += R20
@@ -100,15 +106,19 @@ def _coil_heat_columns(design: Design, drive_current_A: float) -> dict[str, Any]
         Ii = drive_current_A * d[i]
         T, run = winding.steady_temperature_C([Ii], R20, G, ambient)
         T = float(T[0])
-        P_sum += Ii * Ii * R20 * (1.0 + COPPER_ALPHA_20C_PER_K * (T - 20.0)) if not run[0] else math.inf
+        R_hot = R20 * (1.0 + COPPER_ALPHA_20C_PER_K * (T - 20.0)) if not run[0] else math.inf
+        P_sum += Ii * Ii * R_hot if Ii != 0.0 else 0.0
+        V_max = max(V_max, abs(Ii) * R_hot if Ii != 0.0 else 0.0)
         ins = c.insulation_class_C if c.insulation_class_C is not None else winding.DEFAULT_INSULATION_CLASS_C
         too_hot = too_hot or bool(run[0]) or T > ins
         T_hot = max(T_hot, T)
     if not math.isfinite(drive_current_A):
         return {"coil_resistance_20C_ohm": R_sum, "coil_power_W": math.nan, "coil_temperature_C": math.nan,
-                "coil_temperature_rise_K": math.nan, "too_hot": False}
+                "coil_temperature_rise_K": math.nan, "too_hot": False, "supply_voltage_V": supply,
+                "coil_voltage_V": math.nan, "voltage_headroom_V": math.nan, "supply_short": False}
     return {"coil_resistance_20C_ohm": R_sum, "coil_power_W": P_sum, "coil_temperature_C": T_hot,
-            "coil_temperature_rise_K": T_hot - ambient, "too_hot": too_hot}
+            "coil_temperature_rise_K": T_hot - ambient, "too_hot": too_hot, "supply_voltage_V": supply,
+            "coil_voltage_V": V_max, "voltage_headroom_V": supply - V_max, "supply_short": V_max > supply}
 
 
 def evaluate_design(design: Design) -> dict:
@@ -139,7 +149,9 @@ def evaluate_design(design: Design) -> dict:
       :func:`fields.analysis.stability_verdict`.
     - Unstable pole ``sqrt(-k_z / m)`` (s^-1), the growth rate of the linearised vertical motion
       ``m z'' = -k_z z``.
-    - Coil heat: the lumped steady state of :func:`fields.devices.coil.steady_temperature_C`.
+    - Coil heat: the lumped steady state of :func:`fields.devices.coil.steady_temperature_C`;
+      coil voltage ``|I| R(T)`` at that temperature, headroom ``supply - max V`` and the
+      ``supply_short`` flag when it is negative.
     - Payload envelope: masses whose weight the force ``F0 +- |k_i| I_max`` can hold at the
       operating gap, as in :func:`fields.analysis.axial_curves`.
     """

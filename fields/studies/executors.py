@@ -17,7 +17,7 @@ from typing import Any
 
 from fields import __version__
 from fields.errors import HoverfieldError
-from fields.input.csvtable import read_csv_table
+from fields.input.csvtable import read_csv_meta, read_csv_table
 from fields.input.sweepfile import BOOL_COLUMNS, RESULT_COLUMNS, SweepSpec
 
 
@@ -56,28 +56,31 @@ def chunk_name(spec: SweepSpec, first: int, last: int) -> str:
 
 
 def write_chunk(path: Path, spec: SweepSpec, rows: list[dict], si: dict[int, tuple]) -> None:
-    """One finished chunk as CSV (atomic): index, parameter SI values, results, failure."""
-    from fields.io.export import csv_text, write_atomic
+    """One finished chunk as CSV (atomic): index, parameter values, results, failure; the sweep id
+    in its sidecar ``<stem>.meta.json`` (written first, so a CSV on disk always has one)."""
+    from fields.io.export import write_csv
 
     body = [[r["index"], *si[r["index"]], *(r[c] for c in RESULT_COLUMNS), r["failure"]] for r in rows]
-    write_atomic(path, csv_text(spec.columns, body, [f"# hoverfield {__version__} sweep chunk",
-                                                     f"# sweep_id: {spec.sweep_id}"]))
+    write_csv(path, spec.columns, body, [f"hoverfield {__version__} sweep chunk"], meta={"sweep_id": spec.sweep_id})
 
 
 def done_rows(chunk_dir: Path, spec: SweepSpec) -> dict[int, list[str]]:
-    """Rows already computed for this sweep (by design index), from complete chunk files."""
+    """Rows already computed for this sweep (by design index), from complete chunk files whose
+    sidecar names this sweep's id."""
     import csv
+    import json
 
     done: dict[int, list[str]] = {}
     if not chunk_dir.is_dir():
         return done
-    cols = spec.columns
+    cols = spec.columns  # no spaces in these names, so the CSV header is them as they are
     for f in sorted(chunk_dir.glob(f"{spec.sweep_id[:16]}_*.csv")):
         try:
-            head, rows, comments = read_csv_table(f)
-        except (OSError, UnicodeDecodeError, csv.Error):
+            meta = read_csv_meta(f)
+            head, rows, _ = read_csv_table(f)
+        except (OSError, UnicodeDecodeError, csv.Error, json.JSONDecodeError):
             continue
-        if head != cols or f"# sweep_id: {spec.sweep_id}" not in comments:
+        if head != cols or not meta or meta.get("sweep_id") != spec.sweep_id:
             continue
         for r in rows:
             if len(r) == len(cols):

@@ -40,8 +40,22 @@ def unit_samples(spec: SweepSpec) -> np.ndarray:
     return qmc.LatinHypercube(dim, rng=spec.seed).random(spec.sample_count)
 
 
-def expand_full(spec: SweepSpec) -> list[tuple[int, dict, tuple[float, ...]]]:
-    """Every design as ``(index, overrides, SI values of the parameters)``."""
+def parameter_cell(kind: str, toml_value_: Any, si_value: float) -> float | str:
+    """What a parameter's column holds for one design: the SI number, or for text-valued
+    parameters (grades, wire gauges, directions) the value as the geometry file writes it
+    (strings as they are, lists as TOML text, e.g. ``"[0, 0, -1]"``).
+
+    >>> parameter_cell("text", "N42", float("nan")), parameter_cell("text", [0, 0, 1], float("nan"))
+    ('N42', '[0, 0, 1]')
+    """
+    if kind != "text":
+        return si_value
+    return toml_value_ if isinstance(toml_value_, str) else toml_value(toml_value_)
+
+
+def expand_full(spec: SweepSpec) -> list[tuple[int, dict, tuple[float | str, ...]]]:
+    """Every design as ``(index, overrides, column values of the parameters)`` (SI numbers; text
+    for text-valued parameters, see :func:`parameter_cell`)."""
     if spec.mode == "grid":
         combos = itertools.product(*[q.grid() for q in spec.parameters])
     else:
@@ -49,7 +63,7 @@ def expand_full(spec: SweepSpec) -> list[tuple[int, dict, tuple[float, ...]]]:
     out = []
     for i, combo in enumerate(combos):
         over = {q.key: v for q, (v, _) in zip(spec.parameters, combo)}
-        out.append((i, over, tuple(s for _, s in combo)))
+        out.append((i, over, tuple(parameter_cell(q.kind, v, s) for q, (v, s) in zip(spec.parameters, combo))))
     return out
 
 

@@ -27,10 +27,11 @@ import numpy as np
 
 from fields import __version__
 from fields.errors import InputError, SolverError
-from fields.input.sweepfile import SweepSpec, load_sweep
+from fields.input.sweepfile import RESULT_COLUMNS, SweepSpec, load_sweep
 from fields.studies.evaluate import evaluate_design
 from fields.studies.executors import convert_row, default_chunk, done_rows, run_chunks
-from fields.studies.expand import apply_overrides, design_text, expand, expand_full, expand_one, toml_text, toml_value
+from fields.studies.expand import (apply_overrides, design_text, expand, expand_full, expand_one, parameter_cell, toml_text,
+                                   toml_value)
 from fields.studies.ranking import pareto_front, rank, ranking_text, rejection_reasons
 
 __all__ = ["SweepResult", "run_sweep", "load_sweep", "expand", "expand_one", "design_text", "toml_text",
@@ -181,30 +182,45 @@ def _rank_table(spec: SweepSpec, table: list[dict]) -> _Ranked:
 
 
 def _head(spec: SweepSpec) -> list[str]:
-    return [f"# hoverfield {__version__} sweep {spec.name}", f"# base: {spec.base_path}", f"# sweep file: {spec.file}",
-            f"# sweep_id: {spec.sweep_id}"]
+    return [f"hoverfield {__version__} sweep {spec.name}", f"base: {spec.base_path}", f"sweep file: {spec.file}",
+            f"sweep_id: {spec.sweep_id}"]
+
+
+def _column_meta(spec: SweepSpec) -> dict:
+    """What each column of the sweep tables means (sidecar ``columns_described``)."""
+    from fields.input.sweepfile import RESULT_COLUMNS
+
+    desc = {"index": "design index (the order of expansion)", "failure": "why the design could not be evaluated (empty: it was)",
+            "rank": "1 = best feasible design", "score": "ranking score (see ranking)",
+            "rejected_by": "why the design is infeasible"}
+    for q in spec.parameters:
+        desc[q.column] = (f"{q.key} as written in the geometry file (text)" if q.kind == "text"
+                          else f"{q.key} in SI units")
+    desc.update({c: d for c, (_, d) in RESULT_COLUMNS.items()})
+    return {"columns_described": desc, "sweep_id": spec.sweep_id}
 
 
 def _write_tables(spec: SweepSpec, out: Path, table: list[dict], rk: _Ranked) -> dict:
-    from fields.io.export import csv_text, write_atomic
+    from fields.io.export import write_csv
 
     cols = spec.columns
     head = _head(spec)
+    meta = _column_meta(spec)
 
     def vals(r):
         return [r[c] for c in cols]
 
-    files = {"sweep.csv": str(write_atomic(out / "sweep.csv", csv_text(cols, [vals(r) for r in table], head + [
-        "# every design, by index; failure: why it could not be evaluated"])))}
+    files = {"sweep.csv": str(write_csv(out / "sweep.csv", cols, [vals(r) for r in table], head + [
+        "every design, by index; failure: why it could not be evaluated"], meta))}
     rank_of = {int(i): j + 1 for j, i in enumerate(rk.order)}
     rrows = [[rank_of[int(i)], rk.score[i], *vals(table[i]), ""] for i in rk.order]
     rrows += [["", math.nan, *vals(table[i]), "; ".join(rk.reasons[i])] for i in range(len(table)) if not rk.feasible[i]]
     objectives = ", ".join(f"{o.column} ({o.sense}, weight {o.weight:g})" for o in spec.objectives)
-    files["ranked.csv"] = str(write_atomic(out / "ranked.csv", csv_text(["rank", "score"] + cols + ["rejected_by"], rrows, head + [
-        f"# ranking: {ranking_text(spec)}; objectives " + objectives,
-        "# feasible designs first, by rank; then the rejected ones with the reason"])))
-    files["front.csv"] = str(write_atomic(out / "front.csv", csv_text(cols, [vals(table[i]) for i in rk.front], head + [
-        "# Pareto front (non-dominated feasible designs) over " + ", ".join(spec.pareto)])))
+    files["ranked.csv"] = str(write_csv(out / "ranked.csv", ["rank", "score"] + cols + ["rejected_by"], rrows, head + [
+        f"ranking: {ranking_text(spec)}; objectives " + objectives,
+        "feasible designs first, by rank; then the rejected ones with the reason"], meta))
+    files["front.csv"] = str(write_csv(out / "front.csv", cols, [vals(table[i]) for i in rk.front], head + [
+        "Pareto front (non-dominated feasible designs) over " + ", ".join(spec.pareto)], meta))
     return files
 
 
@@ -227,8 +243,15 @@ def _write_plots(spec: SweepSpec, out: Path, table: list[dict], rk: _Ranked) -> 
         plots.close(pf)
     par = {q.column: [r[q.column] for r in table] for q in spec.parameters}
     objv = {c: rk.values[:, j] for j, c in enumerate(names)}
-    po = plots.objectives_vs_parameters(par, objv, rk.feasible, front_mask=np.isin(np.arange(len(table)), rk.front),
-                                        title=f"{spec.name}: objectives versus parameters")
+    fmask = np.isin(np.arange(len(table)), rk.front)
+    title = f"{spec.name}: objectives versus parameters"
+    text_params = [q.column for q in spec.parameters if q.kind == "text"]
+    if text_params:
+        # categories in the order the sweep file lists them, not sorted as text
+        cats = {q.column: [parameter_cell(q.kind, v, si) for v, si in q.choices] for q in spec.parameters if q.kind == "text"}
+        po = plots.objectives_vs_categories(par, objv, rk.feasible, categories=cats, front_mask=fmask, title=title)
+    else:
+        po = plots.objectives_vs_parameters(par, objv, rk.feasible, front_mask=fmask, title=title)
     files["objectives.png"] = str(write_png(out / "objectives.png", po))
     plots.close(po)
     return files
@@ -242,6 +265,7 @@ def _write_best(spec: SweepSpec, out: Path, full, table: list[dict], best: int) 
     over = full[best][1]
     data = apply_overrides(tomllib.loads(spec.base_text), over)
     data["name"] = f"{data.get('name', Path(spec.base_path).stem)}-sweep-best"
+    data["description"] = best_description(spec, best, over, table[best])
     comments = (f"hoverfield geometry file: best design (index {best}) of sweep \"{spec.name}\" of {Path(spec.base_path).name}",
                 "written by hoverfield sweep; changed: " + "; ".join(f"{k} = {toml_value(v)}" for k, v in over.items()))
     if spec.invented:
@@ -252,6 +276,25 @@ def _write_best(spec: SweepSpec, out: Path, full, table: list[dict], best: int) 
     info = {"index": best, "overrides": over, "objectives": {o.column: table[best][o.column] for o in spec.objectives},
             "row": {c: table[best][c] for c in spec.columns}}
     return files, info
+
+
+def best_description(spec: SweepSpec, index: int, overrides: dict, row: dict) -> str:
+    """The ``description`` of best_design.toml: which design it is, the values it changes and its
+    objectives (with the units in their column names), so the file says what it holds.
+
+    >>> from types import SimpleNamespace as NS
+    >>> spec = NS(name="s", base_path="base.toml", invented=False,
+    ...           objectives=(NS(column="mass_kg"),), parameters=())
+    >>> best_description(spec, 3, {"floater.magnets[0].grade": "N52"}, {"mass_kg": 0.0125})
+    'Best design (index 3) of sweep "s" of base.toml: floater.magnets[0].grade = "N52"; objectives mass_kg = 0.0125.'
+    """
+    changed = "; ".join(f"{k} = {toml_value(v)}" for k, v in overrides.items())
+    objs = ", ".join(f"{o.column} = {row[o.column]:.6g}" for o in spec.objectives)
+    text = (f"Best design (index {index}) of sweep \"{spec.name}\" of {Path(spec.base_path).name}: {changed}; "
+            f"objectives {objs}.")
+    if spec.invented:
+        text = "INVENTED EXAMPLE. " + text
+    return text
 
 
 def _summary(spec: SweepSpec, table: list[dict], rk: _Ranked, evaluated: int, reused: int, seconds: float,
@@ -266,8 +309,11 @@ def _summary(spec: SweepSpec, table: list[dict], rk: _Ranked, evaluated: int, re
         "objectives": [{"column": o.column, "sense": o.sense, "weight": o.weight} for o in spec.objectives],
         "pareto": list(spec.pareto), "reject_flags": list(spec.reject_flags),
         "limits": [{"column": lim.column, "min": lim.minimum, "max": lim.maximum} for lim in spec.limits],
-        "parameters": [{"key": q.key, "column": q.column, "values": len(q.grid()) if spec.mode == "grid" else None}
+        "parameters": [{"key": q.key, "column": q.column, "values": len(q.grid()) if spec.mode == "grid" else None,
+                        "text_values": [parameter_cell(q.kind, v, si) for v, si in q.choices] if q.kind == "text" else None}
                        for q in spec.parameters],
+        "columns": {c: {"unit": RESULT_COLUMNS[c][0], "meaning": RESULT_COLUMNS[c][1]} for c in RESULT_COLUMNS},
+        "designs_table": [{c: r[c] for c in spec.columns} for r in table],
         "best": best_info, "front_indices": [int(i) for i in rk.front],
         "failures": [{"index": r["index"], "reason": r["failure"]} for r in table if r["failure"]][:20],
     }
