@@ -59,7 +59,10 @@ LEVELS: dict[str, dict] = {
     "coarse": dict(nr=6, aspect=0.5, grade=0.6, face_points=4, layers=24),
     "fine": dict(nr=12, aspect=0.5, grade=0.6, face_points=6, layers=32),
     "finer": dict(nr=24, aspect=0.5, grade=0.6, face_points=6, layers=40),
+    "rough": dict(nr=3, aspect=0.5, grade=0.6, face_points=4, layers=16),
 }
+#: the partner of each level in a two-level error estimate (the next coarser one)
+COARSER: dict[str, str] = {"finer": "fine", "fine": "coarse", "coarse": "rough"}
 #: Newton stops when the largest polarization update is below this (T)
 NEWTON_TOL_T = 1e-10
 #: observers per vectorised block of the field of the cell sheets
