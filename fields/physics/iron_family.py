@@ -105,19 +105,22 @@ def _node_count(z_lo: float, z_hi: float, clearance_m: float) -> int:
     return n if need <= MAX_NODES else MAX_NODES + 1
 
 
-def _lobatto(n: int) -> np.ndarray:
+def lobatto_points(n: int) -> np.ndarray:
+    """Chebyshev-Lobatto points (n,) on [-1, 1], increasing."""
     return np.cos(np.pi * np.arange(n) / (n - 1))[::-1]
 
 
-class _Interp:
-    """Chebyshev interpolant on [lo, hi] of values at Lobatto nodes (n, ...)."""
+class ChebyshevInterpolant:
+    """Chebyshev interpolant on [lo, hi] of values (n, ...) at the n Lobatto points of
+    :func:`lobatto_points` mapped there; ``tail`` is the sum of the last two coefficients'
+    magnitudes (the interpolation error estimate)."""
 
     def __init__(self, lo, hi, values):
         v = np.asarray(values, dtype=float)
         n = v.shape[0]
         self.mid, self.half = 0.5 * (lo + hi), 0.5 * (hi - lo)
         flat = v.reshape(n, -1)
-        self.c = cheb.chebfit(_lobatto(n), flat, n - 1)  # (n, m)
+        self.c = cheb.chebfit(lobatto_points(n), flat, n - 1)  # (n, m)
         self.shape = v.shape[1:]
         scale = np.max(np.abs(flat), axis=0)
         tail = np.abs(self.c[-1]) + (np.abs(self.c[-2]) if n > 1 else 0.0)
@@ -166,15 +169,15 @@ def iron_axial_family(design: Design, floater_z_m, currents_A, clearance_m: floa
     if n >= z.size or n > MAX_NODES or hi - lo <= 0.0:
         return _direct_family(models, z, I)
     k = I.shape[1]
-    zn = 0.5 * (lo + hi) + 0.5 * (hi - lo) * _lobatto(n)
+    zn = 0.5 * (lo + hi) + 0.5 * (hi - lo) * lobatto_points(n)
     ns = min(SATURABLE_NODES, n)
     sub = np.arange(0, n, (n - 1) // (ns - 1))
     out = {}
     for lv, m in models.items():
         parts, lin = _pieces(m, zn, I)
         Fs, _, nsat, _ = saturable_axial_forces(m, _subset(parts, sub), I)
-        lin_i = _Interp(lo, hi, np.concatenate((parts.F0_N[:, None], parts.Fk_N_per_A), axis=1))
-        dlt_i = _Interp(lo, hi, Fs - lin[sub])
+        lin_i = ChebyshevInterpolant(lo, hi, np.concatenate((parts.F0_N[:, None], parts.Fk_N_per_A), axis=1))
+        dlt_i = ChebyshevInterpolant(lo, hi, Fs - lin[sub])
         out[lv] = (lin_i, dlt_i, nsat)
     lin_i, dlt_i, nsat = out[REPORTED_LEVEL]
     P = lin_i(z)

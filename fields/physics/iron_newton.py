@@ -254,3 +254,14 @@ def newton_sweep(model, bs, tol_T: float = SWEEP_TOL_T) -> tuple[np.ndarray, np.
         steps[i] = step
     Jm = out.reshape(m, c, 2)
     return Jm, np.linalg.norm(Jm, axis=2) > SATURATION_FRACTION * Js[None], steps
+
+
+def incremental_response(model, J_T, b) -> np.ndarray:
+    """``dJ = (A + U(J))^-1 b``: the saturable cells' response (2c,) or (2c, m) to a small change of
+    the right-hand side ``b`` (2c,) or (2c, m) at polarizations J (c, 2) (the Jacobian of the
+    Galerkin equations, as in :func:`newton_solve`)."""
+    vol = model.mesh.volume_m3
+    chi0 = model.chi_cells[::2]
+    groups = [(np.nonzero(model.cell_curve == i)[0], cv) for i, cv in enumerate(model.curves)]
+    fac = _jacobian_factor(model, np.asarray(J_T, dtype=float).reshape(-1), groups, chi0, vol)
+    return linalg.cho_solve(fac, np.asarray(b, dtype=float), check_finite=False)
