@@ -366,18 +366,23 @@ def core_inductance_terms(design: Design, gaps_m, hover_currents_A=None, layers:
     return 0.5 * (Lc + Lc.transpose(0, 2, 1)), sat
 
 
-def mutual_inductance_matrix(design: Design, order: int = 8) -> np.ndarray:
+def mutual_inductance_matrix(design: Design, order: int = 8, currents_A=None, gap_m: float | None = None) -> np.ndarray:
     """Inductance matrix of all coils (H), shape (k, k), at zero current.
 
     Diagonal: self-inductances; off-diagonal: mutual inductances (positive currents as defined
     by each coil's axis). Cores add their incremental contribution from the cell solve at the
-    study's operating gap and zero current (the floater's magnetization of the iron included).
+    study's operating gap (or ``gap_m``) and the given coil currents (default zero): the floater's
+    magnetization of the iron and the bias current set the iron's operating point.
 
     Parameters
     ----------
     design : Design
     order : int
         Gauss order of the mutual terms.
+    currents_A : array_like, shape (k,), optional
+        Operating currents (e.g. the hover currents), for the cores' incremental part.
+    gap_m : float, optional
+        Gap of the cores' part (default the study's operating gap).
 
     Returns
     -------
@@ -390,7 +395,9 @@ def mutual_inductance_matrix(design: Design, order: int = 8) -> np.ndarray:
         for j in range(i + 1, k):
             L[i, j] = L[j, i] = air_mutual_inductance_H(c, design.coils[j], order)[0]
     if design.cores:
-        Lc, _ = core_inductance_terms(design, [design.study.operating_gap_m], None)
+        g = design.study.operating_gap_m if gap_m is None else float(gap_m)
+        I = None if currents_A is None else np.asarray(currents_A, dtype=float).reshape(1, k)
+        Lc, _ = core_inductance_terms(design, [g], I)
         L = L + Lc[0]
     return L
 
