@@ -124,7 +124,7 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
     up = design.up
     pos, rot = pose_at_gap(design, gaps)
     if design.cores and core_model == "cells" and _iron_axis_family_applies(design, pos, rot):
-        return _iron_curves(design, gaps, cur, d, pos, rot)
+        return _requested(_iron_curves(design, gaps, np.union1d(cur, family_currents(design)), d, pos, rot), cur)
     h = STEP_LENGTH_M
     shift = up[None, :] * h
     P = np.concatenate([pos, pos + shift, pos - shift])
@@ -188,6 +188,15 @@ def _saturated_family(design, pos, rot, cur, d, h, up, sat, Fup, kz):
         Fup[idx, j] = F[:m]
         kz[idx, j] = -central_difference(F[m:2 * m], F[2 * m:], h)
     return Fup, kz
+
+
+def _requested(c: AxialCurves, cur) -> AxialCurves:
+    """The family restricted to the requested currents (the hover search used more)."""
+    from dataclasses import replace
+
+    idx = np.array([int(np.argmin(np.abs(c.currents_A - x))) for x in cur], dtype=int)
+    return replace(c, currents_A=c.currents_A[idx], Fup_N=c.Fup_N[:, idx], kz_N_per_m=c.kz_N_per_m[:, idx],
+                   error_Fup_N=c.error_Fup_N[:, idx], nonlinear_N=c.nonlinear_N[:, idx])
 
 
 def _iron_axis_family_applies(design: Design, pos, rot) -> bool:

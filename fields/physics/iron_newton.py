@@ -223,9 +223,11 @@ def newton_sweep(model, bs, tol_T: float = SWEEP_TOL_T) -> tuple[np.ndarray, np.
     out = np.empty((m, 2 * c))
     steps = np.zeros(m, dtype=int)
     fac = None
+    cache = getattr(model, "_field_cache", {})
     for i in range(m):
         if fac is None:
-            sol = newton_solve(model, bs[i], None, tol_T)
+            start = _warm_start(model, bs[i], cache.get("last_solution"), groups, V)
+            sol = newton_solve(model, bs[i], start, tol_T)
             out[i] = sol.J_T.reshape(-1)
             steps[i] = sol.steps
             fac = _jacobian_factor(model, out[i], groups, chi0, vol)
@@ -252,8 +254,32 @@ def newton_sweep(model, bs, tol_T: float = SWEEP_TOL_T) -> tuple[np.ndarray, np.
                               f"last update {upd:g} T")
         out[i] = J
         steps[i] = step
+    if m:
+        cache["last_solution"] = (bs[-1].copy(), out[-1].copy())
     Jm = out.reshape(m, c, 2)
     return Jm, np.linalg.norm(Jm, axis=2) > SATURATION_FRACTION * Js[None], steps
+
+
+def _warm_start(model, b, last, groups, V):
+    """The previous sweep's last solution moved by the linear response to the change of b, when
+    its residual is below the linear solution's (else None: start from the linear solution)."""
+    if last is None or last[0].shape != b.shape:
+        return None
+    J_lin = model.solve_linear(b)
+    J_w = _inside(last[1] + model.A_inv @ (b - last[0]), model.saturation_cells_T,
+                  np.linalg.norm(last[1].reshape(-1, 2), axis=1))
+
+    def resid(J):
+        h = np.empty((model.cells, 2))
+        Jc = J.reshape(-1, 2)
+        for idx, cv in groups:
+            h[idx], _ = field_and_inverse_tensor(cv, Jc[idx])
+        return float(np.max(np.abs(V * h.reshape(-1) + model.D @ J - b)))
+
+    try:
+        return J_w if resid(J_w) < resid(_inside(J_lin, model.saturation_cells_T, np.zeros(model.cells))) else None
+    except FloatingPointError:
+        return None
 
 
 def incremental_response(model, J_T, b) -> np.ndarray:
