@@ -384,3 +384,28 @@ def test_suspension_hover_and_force_per_ampere_against_finite_elements(suspensio
          for lv in ("coarse", "fine")]
     rich = r[1] + (r[1] - r[0]) / 3.0
     np.testing.assert_allclose(summary(rich), summary(Fr), rtol=FE_RTOL_RATED)
+
+
+@pytest.mark.parametrize("name", ["suspension", "short_wide_core"])
+def test_curve_error_estimate_bounds_the_error_against_finite_elements(name):
+    """The curve family's error estimate (|fine - coarse| of the cell solve plus interpolation
+    tails, fields.analysis.axial_curves) bounds the actual error at every stored point up to the
+    rated current, against an independent computation: the axisymmetric A_phi finite-element
+    solve of tests/reference_data/fe_<name>.json (scikit-fem quadratic triangles, Maxwell-stress
+    force, Frohlich-Kennelly iron by Newton), allowing for the FE data's own stored error
+    estimate. The uniform-magnetization core is compared too: it must be worse everywhere the
+    cell solve is resolved (its error exceeds the cell estimate at the small gaps)."""
+    from fields.analysis.curves import axial_curves
+
+    ref = json.loads((Path(__file__).parent / "reference_data" / f"fe_{name}.json").read_text())
+    d = load(Path(__file__).parent.parent / ref["geometry"]["file"])
+    I = np.array(ref["currents_A"])
+    rated = np.abs(I) <= d.coils[0].max_current_A + 1e-12
+    c = axial_curves(d, gaps_m=ref["gaps_m"], currents_A=I[rated])
+    F = np.array(ref["Fz_N"])[:, rated]
+    E = np.array(ref["Fz_error_N"])[:, rated]
+    assert c.core_model == "cells"
+    err = np.abs(c.Fup_N - F)
+    assert np.all(err <= c.error_Fup_N + E), np.max(err / (c.error_Fup_N + E))
+    u = axial_curves(d, gaps_m=ref["gaps_m"][:2], currents_A=I[rated], core_model="uniform")
+    assert np.all(np.abs(u.Fup_N - F[:2]) > c.error_Fup_N[:2] + E[:2])

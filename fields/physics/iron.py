@@ -197,7 +197,7 @@ class IronModel:
             out[i] = self.mesh.incidence.T @ np.einsum("eqs,eq->e", Phi, w)
         return out
 
-    def rhs_field(self, field_T, order: int = 4, angles: int = 16) -> np.ndarray:
+    def rhs_field(self, field_T, order: int = 3, angles: int = 16) -> np.ndarray:
         """``b`` (n, 2c) of an arbitrary applied field by a volume Gauss rule (azimuthal mean).
 
         ``field_T(points (q, 3)) -> (n, q, 3)`` in the world frame; the field must be free of
