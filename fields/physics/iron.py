@@ -40,7 +40,7 @@ from scipy.constants import mu_0
 
 from fields.errors import GeometryError
 from fields.model.design import Design, rotation_matrix
-from fields.physics.bh import FrohlichKennelly
+from fields.physics.bh import FrohlichKennelly, TableCurve
 from fields.physics.iron_rings import (
     Edges,
     RingMesh,
@@ -399,6 +399,10 @@ def _curves(design: Design, curves) -> tuple:
     if curves is None:
         out = []
         for c in design.cores:
+            if getattr(c, "bh_curve", None):
+                out.append(TableCurve.from_points([h for h, _ in c.bh_curve], [b for _, b in c.bh_curve],
+                                                  f"core {c.name}.bh_curve"))
+                continue
             mu_r = float(c.relative_permeability)
             if not np.isfinite(mu_r) or mu_r <= 1.0:
                 raise GeometryError(f"core {c.name}", "relative_permeability", "> 1", mu_r)
