@@ -254,7 +254,8 @@ def notice_text(n) -> str:
         "no_sensitivity": lambda: f"sensor {s}: no sensitivity to the gap at the operating gap",
         "coil_crosstalk": lambda: f"sensor {s}: coil {v['coil']} at max current reads like {v['apparent_gap_m'] * mm:.3g} mm of "
                                   "gap; compensate it (subtract c_k I_k)",
-        "core_approximate": lambda: f"sensor {s}: core response from the uniform-magnetization core model (approximate)",
+        "core_approximate": lambda: f"sensor {s}: core response from the ring-cell iron solve with linear iron (initial "
+                                    "susceptibility): the readings leave out the B-H curve's bending at high currents",
     }
     if c not in texts:
         return f"{s}: {c} {v}"
