@@ -244,6 +244,9 @@ def _iron_curves(design: Design, gaps, cur, d, pos, rot) -> AxialCurves:
     sc = float(np.max(np.abs(d))) if len(d) else 1.0
     ilim = imax / sc if sc > 0 else 0.0
     ih, ki_h = _hover(cur, Fup, W)
+    kz_h = np.array([np.interp(ih[i], cur, kz[i]) if np.isfinite(ih[i]) else np.nan for i in range(n)])
+    if design.coils and np.any(ok) and uz != 0.0:
+        ih, ki_h, kz_h = _exact_hover(design, pos[:, 2], ok, d, W / uz, ih, ki_h, kz_h, uz)
     within = np.isfinite(ih) & (np.abs(ih) <= ilim * (1 + 1e-12))
     fmax = np.array([_force_at(cur, Fup[i], ilim) for i in range(n)]) if n else np.zeros(0)
     fmin = np.array([_force_at(cur, Fup[i], -ilim) for i in range(n)]) if n else np.zeros(0)
@@ -256,7 +259,6 @@ def _iron_curves(design: Design, gaps, cur, d, pos, rot) -> AxialCurves:
     # dki/dh of the affine model: the hover stiffness is then kz0 - I dki/dh; with cores use the
     # family's own k_z at the hover current instead (AxialCurves.kz_at_hover reads this field)
     dki = dfk
-    kz_h = np.array([np.interp(ih[i], cur, kz[i]) if np.isfinite(ih[i]) else np.nan for i in range(n)])
     with np.errstate(invalid="ignore", divide="ignore"):
         dki_eff = np.where(np.isfinite(ih) & (ih != 0), (kz0 - kz_h) / np.where(ih != 0, ih, 1.0), dki)
     return AxialCurves(
@@ -267,6 +269,32 @@ def _iron_curves(design: Design, gaps, cur, d, pos, rot) -> AxialCurves:
         contact=contact, saturated=np.any(sat, axis=1), error_F_N=np.max(err, axis=1) if cur.size else np.zeros(n),
         weight_N=W, max_current_A=ilim, pattern=d, linear_in_current=not bool(np.any(bent[ok])),
         error_Fup_N=err, nonlinear_N=nonlin, saturation_onset_A=onset, core_model="cells")
+
+
+def _exact_hover(design, z, ok, d, target_N, ih, ki_h, kz_h, uz):
+    """Hover current, dF_up/dI and k_z there from the saturable solve (secant in current) at the
+    heights themselves when there are at most HOVER_NODES; in a longer family at the gap nearest
+    the operating gap (elsewhere the family's cubic spline in current stays: it is accurate to
+    about 1e-5 of the current on the examples)."""
+    from fields.physics.iron import iron_model
+    from fields.physics.iron_family import REPORTED_LEVEL, hover_points
+
+    model = iron_model(design, REPORTED_LEVEL)
+    idx = np.flatnonzero(ok)
+    ih, ki_h, kz_h = ih.copy(), ki_h.copy(), kz_h.copy()
+    if idx.size <= HOVER_NODES:
+        a, b, c = hover_points(model, z[idx], d, target_N, ih[idx])
+        ih[idx], ki_h[idx], kz_h[idx] = a, uz * b, c
+        return ih, ki_h, kz_h
+    gop = design.study.operating_gap_m
+    j = idx[int(np.argmin(np.abs(z[idx] - design.study.floater_origin_m([gop])[0, 2])))]
+    a, b, c = hover_points(model, z[[j]], d, target_N, ih[[j]])
+    ih[j], ki_h[j], kz_h[j] = a[0], uz * b[0], c[0]
+    return ih, ki_h, kz_h
+
+
+#: Chebyshev-Lobatto heights of the exact hover current in a family with cores
+HOVER_NODES = 17
 
 
 def _onset(cur, ratio) -> np.ndarray:

@@ -94,7 +94,25 @@ def stiffness_matrix(design: Design, position_m, rotvec_rad, currents_A=None,
     """
     I = np.zeros(len(design.coils)) if currents_A is None else np.asarray(currents_A, float)
     P, Rv, finish = stiffness_stencil(design, position_m, rotvec_rad, step_length_m, step_angle_rad)
+    if design.cores and len(I):  # the iron's B-H curve: forces at these currents, not the linear basis
+        from fields.physics.wrench import wrench
+
+        return finish(_AtCurrents(wrench(design, P, Rv, I, estimate_error=False)), I)
     return finish(wrench_basis(design, P, Rv), I)
+
+
+class _AtCurrents:
+    """A :class:`fields.physics.wrench.Wrench` at fixed currents behind the basis interface."""
+
+    def __init__(self, w):
+        self.w = w
+        self.F0_N, self.T0_Nm = w.force_N, w.torque_Nm
+
+    def force(self, currents_A):
+        return self.w.force_N
+
+    def torque(self, currents_A):
+        return self.w.torque_Nm
 
 
 @dataclass(frozen=True)

@@ -43,6 +43,10 @@ MAX_NODES = 65
 SATURABLE_NODES = 17
 #: central-difference step of the direct route (m)
 DERIVATIVE_STEP_M = 1e-6
+#: hover current: secant steps until the force matches the weight to this share, tighter Newton
+HOVER_RTOL = 1e-12
+HOVER_MAX_STEPS = 12
+HOVER_TOL_T = 1e-11
 
 
 @dataclass(frozen=True)
@@ -197,6 +201,57 @@ def iron_axial_family(design: Design, floater_z_m, currents_A, clearance_m: floa
     j = np.clip(np.searchsorted(zs, z), 1, zs.size - 1)
     sat = (nsat[j] > 0) | (nsat[j - 1] > 0)
     return IronAxialFamily(z, I, F, dF, Flin, F0, dF0, Fk.reshape(-1, k), dFk.reshape(-1, k), err, err_lin, sat, n)
+
+
+def _saturable_at(model, parts, rows) -> np.ndarray:
+    """Saturable force (n,) at each height of ``parts`` with its own current row (n, k)."""
+    from fields.physics.iron_newton import newton_sweep
+
+    bs = model.b_magnets[None] + rows @ model.b_coils + parts.b_floater
+    J, _, _ = newton_sweep(model, bs, HOVER_TOL_T)
+    return parts.source_F0_N + np.einsum("nk,nk->n", parts.source_Fk_N_per_A, rows) + np.einsum(
+        "nx,nx->n", parts.force_per_J, J.reshape(J.shape[0], -1))
+
+
+def hover_points(model, z, pattern, target_N, guess_A, step_m: float = DERIVATIVE_STEP_M):
+    """Hover current along ``pattern`` (the drive current whose saturable force along +z equals
+    ``target_N``), dF/dI and -dF/dz there, at heights z (n,), by the secant method from
+    ``guess_A`` (n,) (NaN where the guess is NaN or the iteration leaves +-10x the guess scale).
+
+    Returns
+    -------
+    current_A, dF_dI_N_per_A, kz_N_per_m : ndarray, shape (n,)
+    """
+    z = np.asarray(z, dtype=float)
+    d = np.asarray(pattern, dtype=float)
+    ok = np.isfinite(guess_A)
+    n = z.size
+    out = [np.full(n, np.nan) for _ in range(3)]
+    if not np.any(ok):
+        return tuple(out)
+    zz = z[ok]
+    parts = axial_iron_parts(model, zz)
+    I0 = np.asarray(guess_A, dtype=float)[ok]
+    dI = 1e-3 * max(1.0, float(np.max(np.abs(I0))))
+    f0 = _saturable_at(model, parts, I0[:, None] * d) - target_N
+    I1 = I0 + dI
+    f1 = _saturable_at(model, parts, I1[:, None] * d) - target_N
+    for _ in range(HOVER_MAX_STEPS):
+        with np.errstate(divide="ignore", invalid="ignore"):
+            I2 = np.where(f1 != f0, I1 - f1 * (I1 - I0) / (f1 - f0), I1)
+        I0, f0, I1 = I1, f1, I2
+        f1 = _saturable_at(model, parts, I1[:, None] * d) - target_N
+        if np.all(np.abs(f1) <= HOVER_RTOL * abs(target_N) + 1e-15):
+            break
+    bad = ~np.isfinite(I1) | (np.abs(f1) > 1e-6 * max(abs(target_N), 1e-12))
+    e = 1e-4 * max(1.0, float(np.max(np.abs(I1[np.isfinite(I1)])) if np.any(np.isfinite(I1)) else 1.0))
+    ki = (_saturable_at(model, parts, (I1 + e)[:, None] * d) - _saturable_at(model, parts, (I1 - e)[:, None] * d)) / (2 * e)
+    up = axial_iron_parts(model, zz + step_m)
+    dn = axial_iron_parts(model, zz - step_m)
+    kz = -(_saturable_at(model, up, I1[:, None] * d) - _saturable_at(model, dn, I1[:, None] * d)) / (2 * step_m)
+    for arr, v in zip(out, (I1, ki, kz)):
+        arr[ok] = np.where(bad, np.nan, v)
+    return tuple(out)
 
 
 def _subset(parts, idx):
