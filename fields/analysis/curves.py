@@ -54,6 +54,9 @@ class AxialCurves:
         at which ``|nonlinear_N|`` exceeds ``AFFINE_RTOL`` of the force scale at that gap,
         interpolated between the family's currents; nan where the family stays affine
     core_model : str, ``"none"``, ``"cells"`` (the cell solve) or ``"uniform"``
+    ki_at_hover_N_per_A : (g,) dF_up/dI at the hover current (with cores: the saturable solve's
+        incremental value, which differs from ``ki_N_per_A``, the linear iron's force per ampere;
+        without cores the two are equal)
     weight_N, max_current_A : float
         The floater's weight and the drive current limit of the pattern.
     pattern : (k,) the drive pattern
@@ -83,6 +86,7 @@ class AxialCurves:
     pattern: np.ndarray
     linear_in_current: bool
     error_Fup_N: np.ndarray | None = None
+    ki_at_hover_N_per_A: np.ndarray | None = None
     nonlinear_N: np.ndarray | None = None
     saturation_onset_A: np.ndarray | None = None
     core_model: str = "none"
@@ -166,7 +170,7 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
         max_payload_kg=np.maximum(mmax - mag, 0.0), min_payload_kg=np.maximum(mmin - mag, 0.0),
         contact=contact, saturated=saturated, error_F_N=np.asarray(b.error_F_N[:n]), weight_N=W,
         max_current_A=ilim, pattern=d, linear_in_current=linear,
-        error_Fup_N=np.repeat(np.asarray(b.error_F_N[:n])[:, None], len(cur), axis=1),
+        error_Fup_N=np.repeat(np.asarray(b.error_F_N[:n])[:, None], len(cur), axis=1), ki_at_hover_N_per_A=fc,
         nonlinear_N=np.zeros_like(Fup) if linear else Fup - (F0c[:, None] + fc[:, None] * cur[None, :]),
         saturation_onset_A=np.full(n, np.nan), core_model=core_model if design.cores else "none")
 
@@ -262,7 +266,8 @@ def _iron_curves(design: Design, gaps, cur, d, pos, rot) -> AxialCurves:
     with np.errstate(invalid="ignore", divide="ignore"):
         dki_eff = np.where(np.isfinite(ih) & (ih != 0), (kz0 - kz_h) / np.where(ih != 0, ih, 1.0), dki)
     return AxialCurves(
-        gaps_m=gaps, heights_m=pos @ up, currents_A=cur, Fup_N=Fup, F0_N=F0, ki_N_per_A=np.where(np.isfinite(ki_h), ki_h, fk),
+        gaps_m=gaps, heights_m=pos @ up, currents_A=cur, Fup_N=Fup, F0_N=F0, ki_N_per_A=fk,
+        ki_at_hover_N_per_A=np.where(np.isfinite(ki_h), ki_h, fk),
         kz_N_per_m=kz, kz0_N_per_m=kz0, dki_dh_N_per_A_m=dki_eff, hover_current_A=ih,
         hover_within_limit=within & ~contact, max_total_mass_kg=mmax, min_total_mass_kg=mmin,
         max_payload_kg=np.maximum(mmax - mag, 0.0), min_payload_kg=np.maximum(mmin - mag, 0.0),
