@@ -384,3 +384,74 @@ def test_suspension_hover_and_force_per_ampere_against_finite_elements(suspensio
          for lv in ("coarse", "fine")]
     rich = r[1] + (r[1] - r[0]) / 3.0
     np.testing.assert_allclose(summary(rich), summary(Fr), rtol=FE_RTOL_RATED)
+
+
+@pytest.mark.parametrize("name", ["suspension", "short_wide_core"])
+def test_curve_error_estimate_bounds_the_error_against_finite_elements(name):
+    """The curve family's error estimate (|fine - coarse| of the cell solve plus interpolation
+    tails, fields.analysis.axial_curves) bounds the actual error at every stored point up to the
+    rated current, against an independent computation: the axisymmetric A_phi finite-element
+    solve of tests/reference_data/fe_<name>.json (scikit-fem quadratic triangles, Maxwell-stress
+    force, Frohlich-Kennelly iron by Newton), allowing for the FE data's own stored error
+    estimate. The uniform-magnetization core is compared too: it must be worse everywhere the
+    cell solve is resolved (its error exceeds the cell estimate at the small gaps)."""
+    from fields.analysis.curves import axial_curves
+
+    ref = json.loads((Path(__file__).parent / "reference_data" / f"fe_{name}.json").read_text())
+    d = load(Path(__file__).parent.parent / ref["geometry"]["file"])
+    I = np.array(ref["currents_A"])
+    rated = np.abs(I) <= d.coils[0].max_current_A + 1e-12
+    c = axial_curves(d, gaps_m=ref["gaps_m"], currents_A=I[rated])
+    F = np.array(ref["Fz_N"])[:, rated]
+    E = np.array(ref["Fz_error_N"])[:, rated]
+    assert c.core_model == "cells"
+    err = np.abs(c.Fup_N - F)
+    assert np.all(err <= c.error_Fup_N + E), np.max(err / (c.error_Fup_N + E))
+    u = axial_curves(d, gaps_m=ref["gaps_m"][:2], currents_A=I[rated], core_model="uniform")
+    assert np.all(np.abs(u.Fup_N - F[:2]) > c.error_Fup_N[:2] + E[:2])
+
+
+def _with_core_keys(text, keys):
+    old = 'relative_permeability = 1000     # soft iron, low-field value (invented)\nsaturation_polarization = "1.6 T"'
+    assert old in text
+    return text.replace(old, keys)
+
+
+def test_bh_curve_table_in_the_geometry_file_matches_the_frohlich_kennelly_core():
+    """A geometry-file ``bh_curve`` sampled from the Frohlich-Kennelly curve (Frohlich 1881,
+    Kennelly 1891, from memory: J = chi mu0 H / (1 + chi mu0 H / Js)) gives the same saturable
+    force as the core given by relative_permeability + saturation_polarization. Tolerance: the
+    monotone cubic (PCHIP, Fritsch and Carlson, SIAM J. Numer. Anal. 17 (1980) 238) through 60
+    geometric points reproduces the curve to about 1e-4, the force to about the same."""
+    from fields.input.geometry import loads
+    from fields.physics.wrench import wrench
+
+    text = SUSPENSION.read_text()
+    H = np.concatenate(([0.0], np.geomspace(1.0, 1e6, 59)))
+    fk = FrohlichKennelly(999.0, 1.6)
+    B = mu_0 * H + fk.polarization_T(mu_0 * H)
+    pairs = ", ".join(f'["{float(h)!r} A/m", "{float(b)!r} T"]' for h, b in zip(H, B))
+    d_tab = loads(_with_core_keys(text, f"bh_curve = [{pairs}]"), "table.toml", base_dir=SUSPENSION.parent)
+    d_fk = load(SUSPENSION)
+    P = d_fk.study.floater_origin_m([0.006])
+    for I in (0.4, 1.2):
+        F_tab = wrench(d_tab, P, np.zeros(3), [I], order="fast", estimate_error=False).force_N[0, 2]
+        F_fk = wrench(d_fk, P, np.zeros(3), [I], order="fast", estimate_error=False).force_N[0, 2]
+        assert F_tab == pytest.approx(F_fk, rel=1e-3)
+
+
+@pytest.mark.parametrize("keys, match", [
+    ('bh_curve = [["0 A/m", "0 T"], ["100 A/m", "0.5 T"], ["50 A/m", "1.1 T"]]',
+     r"bh_curve\[2\]: the value must be above the previous point"),
+    ('bh_curve = [["0 A/m", "0 T"], ["100 A/m", "0.5"], ["300 A/m", "1.1 T"]]', r"bh_curve\[1\]: the value must be a quantity"),
+    ('bh_curve = [["0 A/m", "0 T"], ["100 A/m", "0.5 T"]]', r"bh_curve: the value must be a list of at least 3"),
+    ('bh_curve = "M400"', r"no named curves are built in"),
+    ('bh_curve = [["1 A/m", "0 T"], ["100 A/m", "0.5 T"], ["300 A/m", "1.1 T"]]', r"bh_curve\[0\]: the value must be the point"),
+    ('bh_curve = [["0 A/m", "0 T"], ["100 A/m", "0.5 T"], ["300 A/m", "1.1 T"]]\nrelative_permeability = 1000',
+     r"relative_permeability: the value must be left out when bh_curve is given"),
+])
+def test_bh_curve_errors_name_file_key_and_rule(keys, match):
+    from fields.input.geometry import loads
+
+    with pytest.raises(GeometryError, match=match):
+        loads(_with_core_keys(SUSPENSION.read_text(), keys), "bad.toml", base_dir=SUSPENSION.parent)

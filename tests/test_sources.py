@@ -170,7 +170,7 @@ def test_basis_without_cores_is_pose_independent_and_linear():
 
 
 def test_core_response_follows_demag_model_and_clips():
-    """A core in a uniform-ish field: J = chi_eff B_applied (chi_eff = chi/(1 + N chi)); far outside
+    """The uniform-magnetization core option (``core_model="uniform"``). A core in a uniform-ish field: J = chi_eff B_applied (chi_eff = chi/(1 + N chi)); far outside
     the core field is that of a dipole J V / mu0 (Jackson eq. 5.56). Field of a large coil at its centre."""
     coil = Coil("big", 0.3, 0.31, 0.05, 1000, (0, 0, 0), (0, 0, 1), 1.0, 100.0)
     core = Core("k", "cylinder", (0.001, 0.004), (0, 0, 0), (0, 0, 1), 1001.0, 1.6)
@@ -178,7 +178,7 @@ def test_core_response_follows_demag_model_and_clips():
     d = _design([coil], [], [core], fl=far)
     x = np.array([[0.0, 0.0, 0.15]])
     pose = np.array([0.0, 0.0, 1.0])
-    fb = fixed_field_basis(d, x[None], pose[None], np.zeros((1, 3)))
+    fb = fixed_field_basis(d, x[None], pose[None], np.zeros((1, 3)), core_model="uniform")
     from fields.physics.demag import cylinder_demag_factors
 
     Nz = cylinder_demag_factors(0.001, 0.004)[2]
@@ -191,7 +191,7 @@ def test_core_response_follows_demag_model_and_clips():
     # the clipped case: at 200 A the linear J exceeds 1.6 T -> clipped, field nonlinear in current
     I = 200.0
     Jlin = I * fb.core_Jk_T_per_A[0, 0, 0, 2]
-    Bc = fixed_field_T(d, x, [I], pose)
+    Bc = fixed_field_T(d, x, [I], pose, core_model="uniform")
     Blin = fb.field_T([I])[0]
     Bcoil = I * coil_field_per_ampere_T(coil, x)[0, 2]
     assert Jlin > 1.6

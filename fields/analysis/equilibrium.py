@@ -15,7 +15,17 @@ from fields.analysis.poses import AXES, displace, floater_size_m, pose_at_gap
 from fields.analysis.stencil import STEP_LENGTH_M, central_difference
 from fields.errors import SolverError
 from fields.model.design import Design
-from fields.physics.wrench import wrench_basis
+from fields.physics.wrench import wrench, wrench_basis
+
+
+def _force_torque(design: Design, P, Rv, I, estimate_error: bool = True):
+    """Force, torque (n, 3) and contact (n,) at currents I: the linear basis without cores, the
+    saturable iron solve with cores (its force is not affine in current)."""
+    if design.cores and len(I):
+        w = wrench(design, P, Rv, I, estimate_error=estimate_error)
+        return w.force_N, w.torque_Nm, w.contact
+    b = wrench_basis(design, P, Rv, estimate_error=estimate_error)
+    return (b.force(I) if len(I) else b.F0_N), (b.torque(I) if len(I) else b.T0_Nm), b.contact
 
 
 @dataclass(frozen=True)
@@ -37,15 +47,24 @@ def axial_equilibria(design: Design, current_A: float, curves: AxialCurves | Non
     """
     c = curves if curves is not None else axial_curves(design, pattern=pattern)
     d = c.pattern
-    F = c.F0_N + c.ki_N_per_A * current_A - c.weight_N
+    j = np.flatnonzero(np.isclose(c.currents_A, current_A, rtol=0, atol=1e-12))
+    if j.size:  # the family's own force (saturable with cores)
+        F = c.Fup_N[:, j[0]] - c.weight_N
+    elif c.core_model == "cells":
+        from scipy.interpolate import CubicSpline
+
+        o = np.argsort(c.currents_A)
+        F = CubicSpline(c.currents_A[o], c.Fup_N[:, o], axis=1)(current_A) - c.weight_N
+    else:
+        F = c.F0_N + c.ki_N_per_A * current_A - c.weight_N
     F = np.where(c.contact, np.nan, F)
     out = []
     up = design.up
 
     def resid(gap):
         p, r = pose_at_gap(design, [gap])
-        b = wrench_basis(design, p, r)
-        return float(b.F0_N[0] @ up + current_A * ((b.Fk_N_per_A[0] @ up) @ d if len(d) else 0.0)) - c.weight_N
+        F, _, _ = _force_torque(design, p, r, current_A * d if len(d) else np.zeros(0), estimate_error=False)
+        return float(F[0] @ up) - c.weight_N
 
     for i in range(len(F) - 1):
         a, bb = F[i], F[i + 1]
@@ -61,8 +80,9 @@ def axial_equilibria(design: Design, current_A: float, curves: AxialCurves | Non
         hgt = STEP_LENGTH_M
         p, r = pose_at_gap(design, [g0])
         P = np.concatenate([p + up * hgt, p - up * hgt])
-        b = wrench_basis(design, P, np.concatenate([r, r]))
-        Fs = b.F0_N @ up + current_A * ((b.Fk_N_per_A @ up) @ d if len(d) else 0.0)
+        Fst, _, _ = _force_torque(design, P, np.concatenate([r, r]), current_A * d if len(d) else np.zeros(0),
+                                  estimate_error=False)
+        Fs = Fst @ up
         kz = -central_difference(Fs[0], Fs[1], hgt)
         out.append(Equilibrium1D(gap_m=float(g0), current_A=float(current_A), kz_N_per_m=float(kz), stable=bool(kz > 0)))
     return out
@@ -84,6 +104,25 @@ class Equilibrium:
     residual_torque_Nm: np.ndarray
     free_axes: tuple[str, ...]
     iterations: int
+
+
+#: transverse offsets and tilts below this (in floater sizes and radians) are rounding of the
+#: root finder on a symmetric design: on the symmetry axis they vanish exactly
+SNAP_TOL = 1e-9
+
+
+def _snap_to_axis(design: Design, x: np.ndarray, idx) -> None:
+    """Put the solution of an axisymmetric design exactly back on its axis (in place) when the
+    root finder left it there to rounding: transverse force and torque vanish there by symmetry,
+    and the exact on-axis routes apply. The spin about the axis is a symmetry (a neutral mode):
+    it is set to zero."""
+    from fields.physics.axial import symmetry_axis_xy
+
+    if symmetry_axis_xy(design) is None or np.any(np.asarray(design.study.floater_rotvec_rad) != 0.0):
+        return
+    for j, a in enumerate(idx):
+        if (a in (0, 1, 3, 4) and abs(x[j]) < SNAP_TOL) or a == 5:  # spin about the axis is a symmetry
+            x[j] = 0.0
 
 
 def find_equilibrium(design: Design, currents_A=None, start_gap_m: float | None = None,
@@ -111,15 +150,14 @@ def find_equilibrium(design: Design, currents_A=None, start_gap_m: float | None 
         dq = np.zeros(6)
         dq[idx] = x * np.where(np.array(idx) < 3, size, 1.0)
         P, Rv = displace(design, p0, r0, dq)
-        b = wrench_basis(design, P, Rv)
+        F, T, contact = _force_torque(design, P, Rv, I, estimate_error=False)
         calls[0] += 1
-        if bool(b.contact[0]):
+        if bool(contact[0]):
             return np.full(len(idx), 1e3)
-        F = (b.force(I) if len(I) else b.F0_N)[0] + gvec
-        T = (b.torque(I) if len(I) else b.T0_Nm)[0]
-        return (np.concatenate([F, T]) / scale)[idx]
+        return (np.concatenate([F[0] + gvec, T[0]]) / scale)[idx]
 
     sol = optimize.root(residual, np.zeros(len(idx)), method="hybr", options={"xtol": 1e-12})
+    _snap_to_axis(design, sol.x, idx)
     res = residual(sol.x)
     if not sol.success and np.max(np.abs(res)) > tol_rel * 10 or np.max(np.abs(res)) > 1e-6:
         raise SolverError(
@@ -131,8 +169,8 @@ def find_equilibrium(design: Design, currents_A=None, start_gap_m: float | None 
     P, Rv = displace(design, p0, r0, dq)
     gdir = np.asarray(design.study.gap_direction)
     gap = float((P[0] - np.asarray(design.study.gap_origin_m)) @ gdir)
-    b = wrench_basis(design, P, Rv)
-    F = (b.force(I) if len(I) else b.F0_N)[0] + gvec
-    T = (b.torque(I) if len(I) else b.T0_Nm)[0]
+    F, T, _ = _force_torque(design, P, Rv, I)
+    F = F[0] + gvec
+    T = T[0]
     return Equilibrium(position_m=P[0], rotvec_rad=Rv[0], currents_A=I, gap_m=gap, residual_force_N=F,
                        residual_torque_Nm=T, free_axes=free, iterations=calls[0])

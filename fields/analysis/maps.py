@@ -40,22 +40,31 @@ class PoseMap:
     currents_A: np.ndarray
 
 
+#: map grid (gaps, coordinate values) for designs with soft-iron cores
+CORE_MAP_GRID = (17, 13)
+
+
 def pose_map(design: Design, kind: str = "lateral", gaps_m=None, coordinate=None, currents_A=None,
              chunk: int = 4096) -> PoseMap:
     """Force/torque maps versus gap and lateral offset (``kind="lateral"``) or tilt (``"tilt"``).
 
     Maps use the plain cap rule (no near-field grading): fast, accurate to about 1e-3 within a
-    few mm of a source edge.
+    few mm of a source edge. With soft-iron cores (cell solve) the default grid is
+    :data:`CORE_MAP_GRID` (gaps x coordinate values) and the ``"fast"`` rule with the coarse cell
+    level, without an error estimate: every pose needs its own iron response to the floater
+    (about 0.5 % from the fine level; the curves and the stiffness carry the error bars).
     """
     if kind not in MAP_KINDS:
         raise input_error("pose_map", "kind", "'lateral' or 'tilt'", kind)
     st = design.study
-    gaps = np.linspace(st.gap_min_m, st.gap_max_m, 50) if gaps_m is None else np.asarray(gaps_m, float)
+    cells = bool(design.cores)
+    ng, ns = CORE_MAP_GRID if cells else (50, None)
+    gaps = np.linspace(st.gap_min_m, st.gap_max_m, ng) if gaps_m is None else np.asarray(gaps_m, float)
     if coordinate is None:
         if kind == "lateral":
-            coordinate = np.linspace(-st.lateral_span_m, st.lateral_span_m, st.lateral_points)
+            coordinate = np.linspace(-st.lateral_span_m, st.lateral_span_m, ns or st.lateral_points)
         else:
-            coordinate = np.linspace(-st.tilt_span_rad, st.tilt_span_rad, st.tilt_points)
+            coordinate = np.linspace(-st.tilt_span_rad, st.tilt_span_rad, ns or st.tilt_points)
     s = np.asarray(coordinate, float)
     I = np.array([c.nominal_current_A for c in design.coils]) if currents_A is None else np.asarray(currents_A, float)
     pos0, rot0 = pose_at_gap(design, gaps)
@@ -76,7 +85,8 @@ def pose_map(design: Design, kind: str = "lateral", gaps_m=None, coordinate=None
     contact = np.empty(len(P), bool)
     for a in range(0, len(P), chunk):
         # maps use the plain cap rule: fast, accurate to ~1e-3 within a few mm of a source edge
-        b = wrench_basis(design, P[a:a + chunk], Rv[a:a + chunk], near_field=False)
+        b = (wrench_basis(design, P[a:a + chunk], Rv[a:a + chunk], order="fast", estimate_error=False, near_field=False)
+             if cells else wrench_basis(design, P[a:a + chunk], Rv[a:a + chunk], near_field=False))
         F[a:a + chunk] = b.force(I) if len(I) else b.F0_N
         T[a:a + chunk] = b.torque(I) if len(I) else b.T0_Nm
         contact[a:a + chunk] = b.contact

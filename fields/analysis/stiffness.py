@@ -94,7 +94,25 @@ def stiffness_matrix(design: Design, position_m, rotvec_rad, currents_A=None,
     """
     I = np.zeros(len(design.coils)) if currents_A is None else np.asarray(currents_A, float)
     P, Rv, finish = stiffness_stencil(design, position_m, rotvec_rad, step_length_m, step_angle_rad)
+    if design.cores and len(I):  # the iron's B-H curve: forces at these currents, not the linear basis
+        from fields.physics.wrench import wrench
+
+        return finish(_AtCurrents(wrench(design, P, Rv, I, estimate_error=False)), I)
     return finish(wrench_basis(design, P, Rv), I)
+
+
+class _AtCurrents:
+    """A :class:`fields.physics.wrench.Wrench` at fixed currents behind the basis interface."""
+
+    def __init__(self, w):
+        self.w = w
+        self.F0_N, self.T0_Nm = w.force_N, w.torque_Nm
+
+    def force(self, currents_A):
+        return self.w.force_N
+
+    def torque(self, currents_A):
+        return self.w.torque_Nm
 
 
 @dataclass(frozen=True)
@@ -113,6 +131,10 @@ class GapStiffness:
     k_tilt_Nm_per_rad: np.ndarray
 
 
+#: gaps of the stiffness overview with soft-iron cores (each pose needs its own iron response)
+CORE_GAP_POINTS = 16
+
+
 def stiffness_versus_gap(design: Design, gaps_m=None, currents_A=None, at_hover: bool = True,
                          pattern=None) -> GapStiffness:
     """Diagonal stiffness (lateral, vertical, tilt) versus gap, batched in one force call.
@@ -120,9 +142,12 @@ def stiffness_versus_gap(design: Design, gaps_m=None, currents_A=None, at_hover:
     With ``at_hover`` the current at each gap is the hover current of the drive pattern (so the
     vertical force balances the weight); otherwise ``currents_A`` (k,) or the nominal currents.
     Central differences with the steps of :mod:`fields.analysis.stencil` (no extrapolation).
+    With cores: :data:`CORE_GAP_POINTS` gaps, the ``"fast"`` rule and the coarse cell level (an
+    overview; the stiffness at the operating point carries the error estimate).
     """
     st = design.study
-    gaps = np.linspace(st.gap_min_m, st.gap_max_m, 40) if gaps_m is None else np.asarray(gaps_m, float)
+    n_default = CORE_GAP_POINTS if design.cores else 40
+    gaps = np.linspace(st.gap_min_m, st.gap_max_m, n_default) if gaps_m is None else np.asarray(gaps_m, float)
     d = drive_pattern(design, pattern)
     if at_hover and design.coils:
         c = axial_curves(design, gaps_m=gaps, currents_A=[0.0], pattern=pattern, near_field=False)
@@ -143,7 +168,10 @@ def stiffness_versus_gap(design: Design, gaps_m=None, currents_A=None, at_hover:
     P = np.concatenate(Ps)
     Rv = np.concatenate(Rs)
     # an overview across the gap range: the plain cap rule (see fields.analysis.maps.pose_map)
-    b = wrench_basis(design, P, Rv, near_field=False)
+    if design.cores:  # every pose needs its own iron response: the fast rule and the coarse cell level
+        b = wrench_basis(design, P, Rv, order="fast", estimate_error=False, near_field=False)
+    else:
+        b = wrench_basis(design, P, Rv, near_field=False)
     m = 2 * len(axes)
     F0 = b.F0_N.reshape(len(gaps), m, 3)
     T0 = b.T0_Nm.reshape(len(gaps), m, 3)

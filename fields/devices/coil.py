@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fields.devices.inductance import air_self_inductance_H, core_inductance_terms
+from fields.devices.inductance import air_self_inductance_H
 from fields.devices.notices import Notice
 from fields.devices.winding import (CONTINUOUS_CURRENT_DENSITY_A_PER_MM2, DEFAULT_INSULATION_CLASS_C,
                                     HOT_SPOT_ALLOWANCE_K, Wire, coil_wire, cooling_surface_m2,
@@ -21,13 +21,15 @@ from fields.errors import InputError
 from fields.input import tables
 from fields.model.design import Coil, Design
 
-INDUCTANCE_MODELS = ("air", "linear_core", "saturating_core")
-"""Why dL/dgap is what it is: an air coil and a rigid magnet floater (dL/dgap = 0); a linear,
-unsaturated core (dL/dgap = 0 in this model); a core that saturates at some gaps (the incremental
-core inductance changes; NaN marks the onset)."""
+INDUCTANCE_MODELS = ("air", "iron_cells")
+"""Why dL/dgap is what it is: an air coil and a rigid magnet floater (dL/dgap = 0); soft-iron
+cores solved by ring cells at the hover current of each gap (the floater and the bias current
+set the iron's operating point on its B-H curve, so the incremental inductance changes with
+the gap)."""
 
-#: central-difference step of dL/dgap (m)
-DL_DGAP_STEP_M = 1e-6
+#: Chebyshev-Lobatto gaps at which the cell solve runs for L(gap) (interpolated in between,
+#: dL/dgap from the interpolant's derivative)
+INDUCTANCE_NODES = 17
 
 
 @dataclass(frozen=True)
@@ -64,6 +66,13 @@ class CoilData:
     time_constant_20C_s, time_constant_operating_s : float
         L / R.
     gaps_m, inductance_vs_gap_H, dL_dgap_H_per_m : ndarray, shape (g,)
+        Incremental self-inductance at each gap's current (hover current, else nominal) and its
+        derivative along the gap.
+    flux_linkage_vs_gap_Wb : ndarray, shape (g,)
+        Flux linkage at each gap's current: own air-core flux ``L_air I``, the cores' (saturable)
+        and the floater's magnets' (Wb); NaN for the floater part off the cores' axis.
+    inductance_interpolation_H : float
+        Largest gap-interpolation error estimate of ``inductance_vs_gap_H`` (0 without cores).
     inductance_model : str
         One of :data:`INDUCTANCE_MODELS`: why dL/dgap is what it is.
     currents_from_hover : bool
@@ -95,7 +104,8 @@ class CoilData:
         ``count``, ``of``, ``gap_lo_m``, ``gap_hi_m``); ``near_thermal_class`` (``temperature_C``,
         ``allowance_K``, ``class_C``); ``current_density_high`` (``max_A_per_mm2``,
         ``limit_A_per_mm2``, ``currents_from_hover``); ``max_current_density_high``
-        (``value_A_per_mm2``, ``limit_A_per_mm2``); ``core_saturates`` (``count``, ``of``).
+        (``value_A_per_mm2``, ``limit_A_per_mm2``); ``core_saturates`` (``count``, ``of``): some
+        core cell passes the saturation fraction of its curve at that many gaps.
     """
 
     name: str
@@ -121,6 +131,8 @@ class CoilData:
     gaps_m: np.ndarray
     inductance_vs_gap_H: np.ndarray
     dL_dgap_H_per_m: np.ndarray
+    flux_linkage_vs_gap_Wb: np.ndarray
+    inductance_interpolation_H: float
     inductance_model: str
     currents_from_hover: bool
     hover_currents_A: np.ndarray
@@ -230,36 +242,53 @@ def _current_density(coil: Coil, I: np.ndarray, wire: Wire, from_hover: bool, no
     return Jd, float(Jnom), float(Jmax)
 
 
-def _interp_currents(gaps: np.ndarray, I_all: np.ndarray | None, at: np.ndarray) -> np.ndarray | None:
+def _gap_currents(design: Design, gaps: np.ndarray, I_all, at: np.ndarray) -> np.ndarray:
+    """All coils' currents (n, k) at gaps ``at``: the hover currents interpolated (NaN and values
+    beyond the rating replaced by the nominal current), else the nominal currents."""
+    nom = np.array([float(c.nominal_current_A) for c in design.coils])
     if I_all is None:
-        return None
-    return np.stack([np.interp(at, gaps, I_all[:, j]) for j in range(I_all.shape[1])], axis=1)
+        return np.repeat(nom[None], at.size, axis=0)
+    imax = np.array([abs(float(c.max_current_A)) for c in design.coils])
+    H = np.where(np.isfinite(I_all) & (np.abs(I_all) <= imax[None]), I_all, nom[None])
+    order = np.argsort(gaps)
+    return np.stack([np.interp(at, gaps[order], H[order, j]) for j in range(H.shape[1])], axis=1)
 
 
 def _inductance(design: Design, coil_index: int, gaps: np.ndarray, I_all, notices: list[Notice]):
-    """Air self-inductance, inductance per gap, dL/dgap, the core part at the operating gap, model."""
+    """Air self-inductance, its error, L per gap, dL/dgap, flux linkage per gap, the core part at the
+    operating gap, the interpolation error estimate and the model name."""
+    from fields.devices.inductance import core_inductance_terms
+    from fields.physics.iron_family import ChebyshevInterpolant, lobatto_points
+
     coil = design.coils[coil_index]
     ng = gaps.size
     g_op = design.study.operating_gap_m
     L_air, L_err = air_self_inductance_H(coil)
+    I_self = _gap_currents(design, gaps, I_all, gaps)[:, coil_index]
     if not design.cores:
-        return L_air, L_err, np.full(ng, L_air), np.zeros(ng), 0.0, "air"
-    all_gaps = np.concatenate([gaps, [g_op]])
-    I_ops = None if I_all is None else np.vstack([I_all, _interp_currents(gaps, I_all, np.array([g_op]))])
-    Lc, sat = core_inductance_terms(design, all_gaps, I_ops)
-    Lcore = Lc[:, coil_index, coil_index]
-    # dL/dgap by central differences inside each regime
-    dg = DL_DGAP_STEP_M
-    Lp, sp = core_inductance_terms(design, gaps + dg, _interp_currents(gaps, I_all, gaps + dg))
-    Lm, sm = core_inductance_terms(design, gaps - dg, _interp_currents(gaps, I_all, gaps - dg))
-    dL = (Lp[:, coil_index, coil_index] - Lm[:, coil_index, coil_index]) / (2 * dg)
-    dL = np.where(sp != sm, np.nan, dL)
-    if np.any(sat[:-1]):
-        model = "saturating_core"
-        notices.append(Notice("core_saturates", coil.name, {"count": int(sat[:-1].sum()), "of": int(ng)}))
+        return L_air, L_err, np.full(ng, L_air), np.zeros(ng), L_air * I_self, 0.0, 0.0, "air"
+    lo, hi = float(np.min(gaps)), float(np.max(gaps))
+    direct = ng <= INDUCTANCE_NODES or hi <= lo
+    at = gaps if direct else 0.5 * (lo + hi) + 0.5 * (hi - lo) * lobatto_points(INDUCTANCE_NODES)
+    at = np.concatenate([at, [g_op]])
+    Lc, sat, link = core_inductance_terms(design, at, _gap_currents(design, gaps, I_all, at), linkage=True)
+    Lk = Lc[:, coil_index, coil_index]
+    psi = link[:, coil_index]
+    if direct:
+        L_gap, dL, psi_gap, tail = Lk[:-1], np.full(ng, np.nan), psi[:-1], 0.0
+        if ng >= 3:
+            o = np.argsort(gaps)
+            dL[o] = np.gradient(Lk[:-1][o], gaps[o])
     else:
-        model = "linear_core"
-    return L_air, L_err, L_air + Lcore[:-1], dL, float(Lcore[-1]), model
+        f = ChebyshevInterpolant(lo, hi, np.stack((Lk[:-1], psi[:-1]), axis=1))
+        vals = f(gaps)
+        L_gap, psi_gap = vals[:, 0], vals[:, 1]
+        dL = f.derivative(gaps)[:, 0]
+        tail = float(f.tail[0])
+    n_sat = int(np.sum(sat[:-1]))
+    if n_sat:
+        notices.append(Notice("core_saturates", coil.name, {"count": n_sat, "of": int(sat.size - 1)}))
+    return (L_air, L_err, L_air + L_gap, dL, L_air * I_self + psi_gap, float(Lk[-1]), tail, "iron_cells")
 
 
 # ---------------------------------------------------------------------------------- datasheet
@@ -320,7 +349,7 @@ def coil_datasheet(design: Design, coil_index: int, hover_currents_A=None, gaps_
     V_cold = I * R20
     with np.errstate(invalid="ignore", divide="ignore"):
         I_hot = np.where(np.isfinite(R_hot), V_cold / R_hot, 0.0)
-    L_air, L_err, L_gap, dL, L_core_op, model = _inductance(design, coil_index, gaps, I_all, notices)
+    L_air, L_err, L_gap, dL, psi, L_core_op, L_tail, model = _inductance(design, coil_index, gaps, I_all, notices)
     L_tot = L_air + L_core_op
     return CoilData(
         name=coil.name, turns=N, wire_diameter_m=wire.diameter_m, wire_source=wire.source,
@@ -331,7 +360,8 @@ def coil_datasheet(design: Design, coil_index: int, hover_currents_A=None, gaps_
         resistance_20C_ohm=float(R20), operating_temperature_C=T_op, resistance_operating_ohm=R_op,
         inductance_air_H=float(L_air), inductance_error_H=float(L_err), inductance_core_H=L_core_op,
         inductance_H=float(L_tot), time_constant_20C_s=float(L_tot / R20), time_constant_operating_s=float(L_tot / R_op),
-        gaps_m=gaps, inductance_vs_gap_H=L_gap, dL_dgap_H_per_m=dL, inductance_model=model,
+        gaps_m=gaps, inductance_vs_gap_H=L_gap, dL_dgap_H_per_m=dL, flux_linkage_vs_gap_Wb=psi,
+        inductance_interpolation_H=L_tail, inductance_model=model,
         currents_from_hover=from_hover, hover_currents_A=I if from_hover else np.full(gaps.size, np.nan),
         power_W=P, temperature_C=T, temperature_rise_K=T - Tamb, resistance_hot_ohm=R_hot, runaway=run,
         current_density_A_per_mm2=Jd, current_density_nominal_A_per_mm2=Jnom, current_density_max_A_per_mm2=Jmax,

@@ -21,9 +21,12 @@ Mutual inductances between coils use the closed-form vector potential of a circu
 (``M = oint A . dl``, trapezoid rule in angle, spectrally accurate for a periodic integrand) and
 Gauss-Legendre over both cross-sections: any relative placement, windings must not overlap.
 
-A soft-iron core (iron-free approximation of :mod:`fields.physics.sources`, uniform polarization
-``J = X <B_applied>``) adds, by reciprocity (the flux a magnetic dipole ``m`` links with coil
-``i`` is ``m . b_i``, ``b_i`` the coil's field per ampere)::
+Soft-iron cores add the incremental inductance of the ring-cell solve
+(:func:`fields.physics.iron_linkage.iron_inductance`): the flux the iron links with each coil
+by reciprocity, differentiated in the coil currents through the Jacobian of the saturable
+solve at the operating currents. ``core_model="uniform"`` keeps the uniformly magnetized core
+(for comparison): by reciprocity (the flux a magnetic dipole ``m`` links with coil ``i`` is
+``m . b_i``, ``b_i`` the coil's field per ampere)::
 
     L_core[i, k] = V / mu0 * <b_i>_core . J_k,      J_k = X <b_k>_core per ampere,
 
@@ -297,8 +300,9 @@ def air_mutual_inductance_H(coil1: Coil, coil2: Coil, order: int = 8, angles: in
 # --------------------------------------------------------------------------------- core terms
 
 
-def core_inductance_terms(design: Design, gaps_m, hover_currents_A=None, layers: int = 8):
-    """Core contribution to the inductance matrix per gap (incremental, clip model).
+def core_inductance_terms(design: Design, gaps_m, hover_currents_A=None, layers: int = 8,
+                          core_model: str = "cells", linkage: bool = False):
+    """Core contribution to the inductance matrix per gap (incremental at the given currents).
 
     Parameters
     ----------
@@ -307,28 +311,42 @@ def core_inductance_terms(design: Design, gaps_m, hover_currents_A=None, layers:
     hover_currents_A : array_like, shape (g, k), optional
         Coil currents at each gap (default zero).
     layers : int
-        Gauss layers per coil.
+        Gauss layers per coil (uniform model).
+    core_model : str
+        ``"cells"`` (the ring-cell solve, saturable) or ``"uniform"`` (clip model, comparison).
+    linkage : bool
+        Also return the flux linkage (g, k) of each coil from the cores and the floater (cells
+        only; the coils' own air-core flux excluded).
 
     Returns
     -------
     Lc_H : ndarray, shape (g, k, k)
         Incremental core inductance matrix at each gap and hover-current set.
     saturated : ndarray of bool, shape (g,)
+    linkage_Wb : ndarray, shape (g, k)
+        Only with ``linkage=True``.
     """
     from fields.physics import field_basis as sources
 
+    sources.check_core_model(core_model, "core_inductance_terms")
     k = len(design.coils)
     gaps = np.atleast_1d(np.asarray(gaps_m, dtype=float))
     ng = gaps.size
     Lc = np.zeros((ng, k, k))
     sat = np.zeros(ng, dtype=bool)
     if not design.cores:
-        return Lc, sat
+        return (Lc, sat, np.zeros((ng, k))) if linkage else (Lc, sat)
     st = design.study
     P = st.floater_origin_m(gaps)
     Rv = np.repeat(np.asarray(st.floater_rotvec_rad, dtype=float)[None], ng, axis=0)
+    if core_model == "cells":
+        from fields.physics.iron_linkage import iron_inductance
+
+        I = np.zeros((ng, k)) if hover_currents_A is None else np.asarray(hover_currents_A, dtype=float).reshape(ng, k)
+        res = iron_inductance(design, P, Rv, I)
+        return (res.inductance_H, res.saturated, res.linkage_Wb) if linkage else (res.inductance_H, res.saturated)
     far = np.full((ng, 1, 3), 1.0e3)  # a dummy observer far from every body
-    fb = sources.fixed_field_basis(design, far, P, Rv, layers=layers)
+    fb = sources.fixed_field_basis(design, far, P, Rv, layers=layers, core_model="uniform")
     cms = sources.core_models(design)
     I = np.zeros((ng, k)) if hover_currents_A is None else np.asarray(hover_currents_A, dtype=float).reshape(ng, k)
     for j, cm in enumerate(cms):
@@ -348,19 +366,23 @@ def core_inductance_terms(design: Design, gaps_m, hover_currents_A=None, layers:
     return 0.5 * (Lc + Lc.transpose(0, 2, 1)), sat
 
 
-def mutual_inductance_matrix(design: Design, order: int = 8) -> np.ndarray:
+def mutual_inductance_matrix(design: Design, order: int = 8, currents_A=None, gap_m: float | None = None) -> np.ndarray:
     """Inductance matrix of all coils (H), shape (k, k), at zero current.
 
     Diagonal: self-inductances; off-diagonal: mutual inductances (positive currents as defined
-    by each coil's axis). Cores add their unsaturated contribution (iron-free approximation,
-    module docstring) evaluated at the study's operating gap with zero current; a core saturated
-    there contributes its incremental (clip-model) part.
+    by each coil's axis). Cores add their incremental contribution from the cell solve at the
+    study's operating gap (or ``gap_m``) and the given coil currents (default zero): the floater's
+    magnetization of the iron and the bias current set the iron's operating point.
 
     Parameters
     ----------
     design : Design
     order : int
         Gauss order of the mutual terms.
+    currents_A : array_like, shape (k,), optional
+        Operating currents (e.g. the hover currents), for the cores' incremental part.
+    gap_m : float, optional
+        Gap of the cores' part (default the study's operating gap).
 
     Returns
     -------
@@ -373,7 +395,9 @@ def mutual_inductance_matrix(design: Design, order: int = 8) -> np.ndarray:
         for j in range(i + 1, k):
             L[i, j] = L[j, i] = air_mutual_inductance_H(c, design.coils[j], order)[0]
     if design.cores:
-        Lc, _ = core_inductance_terms(design, [design.study.operating_gap_m], None)
+        g = design.study.operating_gap_m if gap_m is None else float(gap_m)
+        I = None if currents_A is None else np.asarray(currents_A, dtype=float).reshape(1, k)
+        Lc, _ = core_inductance_terms(design, [g], I)
         L = L + Lc[0]
     return L
 

@@ -14,6 +14,7 @@ import tomllib
 from pathlib import Path
 
 import numpy as np
+from scipy.constants import mu_0 as MU_0
 
 from fields.input import tables
 from fields.errors import GeometryError, SolverError
@@ -212,9 +213,45 @@ def _coil(t: _Table, i: int) -> Coil:
                 wire_gauge=gauge, fill_factor=fill, insulation_class_C=ins)
 
 
+CORE_KEYS = ("name", "shape", "diameter", "height", "inner_diameter", "outer_diameter", "size", "position",
+             "axis", "relative_permeability", "saturation_polarization", "bh_curve")
+
+
+def _bh_curve(t: _Table) -> tuple[tuple[float, float], ...]:
+    """``bh_curve = [["0 A/m", "0 T"], ["100 A/m", "0.5 T"], ...]``: pairs with units, from (0, 0),
+    H and B strictly increasing, B - mu0 H non-decreasing (the rules of a table B-H curve)."""
+    v = t.raw("bh_curve")
+    if isinstance(v, str):
+        raise t.fail("bh_curve", "a list of [H, B] pairs with units, e.g. [[\"0 A/m\", \"0 T\"], [\"100 A/m\", \"0.5 T\"]] "
+                     "(no named curves are built in)", v)
+    if not isinstance(v, list) or len(v) < 3:
+        raise t.fail("bh_curve", "a list of at least 3 [H, B] pairs with units", v)
+    pts = []
+    for j, p in enumerate(v):
+        where = f"bh_curve[{j}]"
+        if not isinstance(p, list) or len(p) != 2:
+            raise t.fail(where, "a pair [\"<H> A/m\", \"<B> T\"]", p)
+        try:
+            H = parse(p[0], "field_strength")
+            B = parse(p[1], "flux_density")
+        except UnitParseError as e:
+            raise t.fail(where, e.rule, p) from None
+        pts.append((float(H), float(B)))
+    H = np.array([a for a, _ in pts])
+    B = np.array([b for _, b in pts])
+    if H[0] != 0.0 or B[0] != 0.0:
+        raise t.fail("bh_curve[0]", "the point [\"0 A/m\", \"0 T\"]", v[0])
+    for j in range(1, len(pts)):
+        if not (H[j] > H[j - 1] and B[j] > B[j - 1]):
+            raise t.fail(f"bh_curve[{j}]", f"above the previous point in both H and B ({v[j - 1]})", v[j])
+        if (B[j] - MU_0 * H[j]) < (B[j - 1] - MU_0 * H[j - 1]):
+            raise t.fail(f"bh_curve[{j}]", "a slope of B of at least mu0 from the previous point (B - mu0 H "
+                         "must not fall)", v[j])
+    return tuple(pts)
+
+
 def _core(t: _Table, i: int) -> Core:
-    t.done(("name", "shape", "diameter", "height", "inner_diameter", "outer_diameter", "size", "position",
-            "axis", "relative_permeability", "saturation_polarization"))
+    t.done(CORE_KEYS)
     name = t.string("name", f"core {i + 1}")
     shape = t.string("shape", choices=CORE_SHAPES)
     if shape == "cylinder":
@@ -233,12 +270,21 @@ def _core(t: _Table, i: int) -> Core:
         dims = size
     pos = t.vector("position", "length", (0.0, 0.0, 0.0))
     axis = t.direction("axis", (0.0, 0.0, 1.0))
-    mur = t.number("relative_permeability", minimum=1.0)
-    jsat = t.quantity("saturation_polarization", "flux_density", positive=True)
-    t.done(("name", "shape", "diameter", "height", "inner_diameter", "outer_diameter", "size", "position",
-            "axis", "relative_permeability", "saturation_polarization"))
+    curve = None
+    if t.has("bh_curve"):
+        for k in ("relative_permeability", "saturation_polarization"):
+            if t.has(k):
+                raise t.fail(k, "left out when bh_curve is given (the table sets the curve)", t.data[k])
+        curve = _bh_curve(t)
+        # the first segment's slope and the last point's polarization (the solver uses the table)
+        mur = curve[1][1] / (MU_0 * curve[1][0])
+        jsat = curve[-1][1] - MU_0 * curve[-1][0]
+    else:
+        mur = t.number("relative_permeability", minimum=1.0)
+        jsat = t.quantity("saturation_polarization", "flux_density", positive=True)
+    t.done(CORE_KEYS)
     return Core(name=name, shape=shape, dimensions_m=tuple(float(d) for d in dims), position_m=pos, axis=axis,
-                relative_permeability=float(mur), saturation_polarization_T=jsat)
+                relative_permeability=float(mur), saturation_polarization_T=float(jsat), bh_curve=curve)
 
 
 def _floater(t: _Table, base_dir: Path) -> Floater:

@@ -34,6 +34,7 @@ KINDS: dict[str, tuple[str, str]] = {
     "resistance": ("ohm", "[length] ** 2 * [mass] / [current] ** 2 / [time] ** 3"),
     "inductance": ("H", "[length] ** 2 * [mass] / [current] ** 2 / [time] ** 2"),
     "volt_per_tesla": ("V/T", "[length] ** 2 / [time]"),
+    "field_strength": ("A/m", "[current] / [length]"),
 }
 
 #: an example unit for each kind, used in error messages
@@ -42,7 +43,7 @@ EXAMPLES = {
     "angle": "5 deg", "voltage": "12 V", "acceleration": f"{G_STANDARD:g} m/s^2",
     "density": "7500 kg/m^3", "heat_transfer": "10 W/m^2/K", "temperature": "40 degC",
     "time": "1 ms", "frequency": "10 kHz", "power": "5 W", "force": "0.3 N",
-    "resistance": "10 ohm", "inductance": "20 mH", "volt_per_tesla": "25 mV/mT",
+    "resistance": "10 ohm", "inductance": "20 mH", "volt_per_tesla": "25 mV/mT", "field_strength": "100 A/m",
 }
 
 

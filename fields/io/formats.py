@@ -263,7 +263,7 @@ def parse_c_header(text: str, no_value_as_nan: bool = True) -> dict[str, np.ndar
 
 def spice_subcircuit(design_name: str, name: str, s_m: np.ndarray, F0_N: np.ndarray, Fk_N_per_A: np.ndarray,
                      resistance_ohm: float, inductance_H: float, mass_kg: float, gravity_m_per_s2: float,
-                     axis: str) -> str:
+                     axis: str, inductance_note: str = "") -> str:
     """A SPICE subcircuit of the electromechanical plant along one axis.
 
     Ports: ``coil_p coil_n`` (the coil's terminals), ``vel`` (velocity, 1 V = 1 m/s) and ``pos``
@@ -273,7 +273,8 @@ def spice_subcircuit(design_name: str, name: str, s_m: np.ndarray, F0_N: np.ndar
     farads on the velocity node (a current of 1 A is a force of 1 N), the magnetic force
     ``F0(s) + I Fk(s)`` from piecewise-linear tables, gravity as a constant current ``-m g``
     (vertical axis only) and an integrator for the position. Uses B-sources with ``pwl()``
-    (ngspice and compatible simulators).
+    (ngspice and compatible simulators). ``Lcoil`` is one value: the incremental inductance at
+    the operating point (``inductance_note`` says where it comes from, as a comment line).
     """
     sub = re.sub(r"[^0-9a-zA-Z_]", "_", name)
     s = np.asarray(s_m, float)
@@ -287,6 +288,8 @@ def spice_subcircuit(design_name: str, name: str, s_m: np.ndarray, F0_N: np.ndar
         f"* hoverfield {__version__}: electromechanical plant of design '{design_name}', axis {axis}",
         "* units: coil volts and amperes; V(vel) in m/s; V(pos) in m from the equilibrium;",
         "* mechanical currents are forces in N; C_mass in farads equals the mass in kg.",
+        "* Lcoil: the incremental inductance at the operating point, held constant"
+        + (f" ({inductance_note})" if inductance_note else "") + ".",
         f".subckt {sub} coil_p coil_n vel pos",
         f"Rcoil coil_p n1 {_num(resistance_ohm)}",
         f"Lcoil n1 n2 {_num(inductance_H)}",

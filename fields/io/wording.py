@@ -182,12 +182,26 @@ def verdict_notes(verdict) -> tuple[str, ...]:
                  for m in verdict.modes if m.neutral and m.kind is not ModeKind.SPIN)
 
 
+def saturation_sentences(curves) -> list[str]:
+    """Where the force of a curve family stops being affine in current (saturable iron)."""
+    import numpy as np
+
+    if curves.linear_in_current:
+        return []
+    onset = getattr(curves, "saturation_onset_A", None)
+    if onset is None or not np.any(np.isfinite(onset)):
+        return ["a core saturates at some gaps: the force is no longer affine in current there"]
+    fin = np.isfinite(onset)
+    i_lo = int(np.nanargmin(np.where(fin, onset, np.nan)))
+    return [f"the iron core's B-H curve bends the force away from affine in current (by more than 0.1 %) from "
+            f"{float(np.nanmin(onset)):.3g} A (at a {curves.gaps_m[i_lo] * 1e3:.3g} mm gap) at {int(fin.sum())} of "
+            f"{len(curves.gaps_m)} gaps; the curves there come from the saturable solve at each current"]
+
+
 def curve_warnings(curves) -> tuple[str, ...]:
     """Warnings about an axial curve family (:class:`fields.analysis.AxialCurves`)."""
     w = []
-    if not curves.linear_in_current:
-        w.append("a core reaches its saturation polarization at some gaps: the force is no longer "
-                 "affine in current there; curves at those gaps use the clipped core")
+    w.extend(saturation_sentences(curves))
     if curves.contact.any():
         w.append(f"{int(curves.contact.sum())} of {len(curves.gaps_m)} gaps put the floater in contact with a body; "
                  "they are marked contact and excluded from equilibria")
@@ -251,7 +265,8 @@ def notice_text(n) -> str:
         "no_sensitivity": lambda: f"sensor {s}: no sensitivity to the gap at the operating gap",
         "coil_crosstalk": lambda: f"sensor {s}: coil {v['coil']} at max current reads like {v['apparent_gap_m'] * mm:.3g} mm of "
                                   "gap; compensate it (subtract c_k I_k)",
-        "core_approximate": lambda: f"sensor {s}: core response from the uniform-magnetization core model (approximate)",
+        "core_approximate": lambda: f"sensor {s}: core response from the ring-cell iron solve with linear iron (initial "
+                                    "susceptibility): the readings leave out the B-H curve's bending at high currents",
     }
     if c not in texts:  # a notice without its own sentence yet: its name and values in words
         shown = ", ".join(f"{k.replace('_', ' ')} {x:.4g}" if isinstance(x, float) else f"{k.replace('_', ' ')} {x}"
@@ -285,6 +300,24 @@ COIL_SHEET_ROWS: tuple[tuple[str, str, str, float], ...] = (
 )
 
 
+def _iron_inductance_note(cd) -> str:
+    """Numbers behind L(gap) of a coil with a soft-iron core."""
+    import numpy as np
+
+    if cd.inductance_model != "iron_cells" or not len(cd.gaps_m):
+        return ""
+    o = np.argsort(cd.gaps_m)
+    g = float(np.clip(cd.operating_gap_m if hasattr(cd, "operating_gap_m") else np.median(cd.gaps_m),
+                      cd.gaps_m[o][0], cd.gaps_m[o][-1]))
+    dL = float(np.interp(g, cd.gaps_m[o], cd.dL_dgap_H_per_m[o]))
+    lo, hi = float(np.min(cd.inductance_vs_gap_H)), float(np.max(cd.inductance_vs_gap_H))
+    return (f"iron core solved by ring cells at each gap's current: incremental L = {cd.inductance_H * 1e3:.4g} mH at "
+            f"the operating gap ({cd.inductance_core_H * 1e3:.4g} mH of it from the core, air coil "
+            f"{cd.inductance_air_H * 1e3:.4g} mH); over the gap range L runs from {lo * 1e3:.4g} to {hi * 1e3:.4g} mH, "
+            f"dL/dgap about {dL:.3g} H/m mid-range (the floater and the bias current move the iron along its B-H "
+            "curve); L(gap) is interpolated from the cell solve at Chebyshev gaps")
+
+
 def coil_prose(cd) -> dict:
     """The explanatory fields of a coil datasheet (:class:`fields.devices.coil.CoilData`)."""
     from fields.devices.winding import CONVECTION_SOURCE, CURRENT_DENSITY_SOURCE
@@ -294,10 +327,7 @@ def coil_prose(cd) -> dict:
               "inferred": f"inferred from turns and copper fill {cd.assumed_fill_factor:g}"
               if cd.assumed_fill_factor else ""}[cd.wire_source]
     dl = {
-        "saturating_core": "core saturated at some gaps: there the incremental core inductance depends on the bias "
-                           "and dL/dgap is its central difference; NaN marks the saturation onset (a step in L)",
-        "linear_core": "linear (unsaturated) core and a rigid permanent-magnet floater of mu_r about 1: in this "
-                       "linear model L does not depend on the gap, dL/dgap = 0",
+        "iron_cells": _iron_inductance_note(cd),
         "air": "air coil and a rigid permanent-magnet floater of mu_r about 1: the floater does not change L in a "
                "linear model, dL/dgap = 0 (a real magnet's mu_r of about 1.05 gives a small, unmodelled change)",
     }.get(cd.inductance_model, cd.inductance_model)

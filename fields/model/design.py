@@ -192,7 +192,13 @@ class Coil:
 
 @dataclass(frozen=True)
 class Core:
-    """A soft-iron core (cylinder, ring or cuboid) with linear permeability and a saturation limit."""
+    """A soft-iron core (cylinder, ring or cuboid) and its B-H curve.
+
+    The curve is ``bh_curve`` (points ``(H in A/m, B in T)``, from (0, 0), strictly increasing)
+    when given; otherwise the Frohlich-Kennelly curve of ``relative_permeability`` (initial
+    slope) and ``saturation_polarization_T``. With a table both numbers are derived from it
+    (initial slope; ``B - mu0 H`` at the last point).
+    """
 
     name: str
     shape: str
@@ -201,6 +207,7 @@ class Core:
     axis: Vec3
     relative_permeability: float
     saturation_polarization_T: float
+    bh_curve: tuple[tuple[float, float], ...] | None = None
 
     @property
     def rotvec_rad(self) -> Vec3:

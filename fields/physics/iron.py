@@ -40,7 +40,7 @@ from scipy.constants import mu_0
 
 from fields.errors import GeometryError
 from fields.model.design import Design, rotation_matrix
-from fields.physics.bh import FrohlichKennelly
+from fields.physics.bh import FrohlichKennelly, TableCurve
 from fields.physics.iron_rings import (
     Edges,
     RingMesh,
@@ -59,7 +59,10 @@ LEVELS: dict[str, dict] = {
     "coarse": dict(nr=6, aspect=0.5, grade=0.6, face_points=4, layers=24),
     "fine": dict(nr=12, aspect=0.5, grade=0.6, face_points=6, layers=32),
     "finer": dict(nr=24, aspect=0.5, grade=0.6, face_points=6, layers=40),
+    "rough": dict(nr=3, aspect=0.5, grade=0.6, face_points=4, layers=16),
 }
+#: the partner of each level in a two-level error estimate (the next coarser one)
+COARSER: dict[str, str] = {"finer": "fine", "fine": "coarse", "coarse": "rough"}
 #: Newton stops when the largest polarization update is below this (T)
 NEWTON_TOL_T = 1e-10
 #: observers per vectorised block of the field of the cell sheets
@@ -160,6 +163,7 @@ class IronModel:
     J_magnets_T: np.ndarray
     coil_face_flux: np.ndarray
     settings: dict = field(default_factory=dict)
+    _field_cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     @property
     def cells(self) -> int:
@@ -193,7 +197,7 @@ class IronModel:
             out[i] = self.mesh.incidence.T @ np.einsum("eqs,eq->e", Phi, w)
         return out
 
-    def rhs_field(self, field_T, order: int = 4, angles: int = 16) -> np.ndarray:
+    def rhs_field(self, field_T, order: int = 3, angles: int = 16) -> np.ndarray:
         """``b`` (n, 2c) of an arbitrary applied field by a volume Gauss rule (azimuthal mean).
 
         ``field_T(points (q, 3)) -> (n, q, 3)`` in the world frame; the field must be free of
@@ -250,9 +254,24 @@ class IronModel:
 
     def field_T(self, J_T, points_m) -> np.ndarray:
         """B (T) of the cells with polarizations J (2c,) at world points (q, 3); points must keep
-        clear of the cells' faces (by about a face length)."""
-        return face_sheet_field_T(self.mesh.edges, self.face_currents(J_T), points_m, self.axis_xy_m,
-                                  self.settings["face_points"])
+        clear of the cells' faces (by about a face length).
+
+        The observer x face matrix of the last points is kept (when small), so that further
+        polarizations at the same points cost one product.
+        """
+        p = np.ascontiguousarray(np.asarray(points_m, dtype=float).reshape(-1, 3))
+        ne = self.mesh.edges.start_m.shape[0]
+        G = None
+        if p.shape[0] * ne * 2 <= FIELD_MATRIX_CACHE:
+            key = hash(p.tobytes())
+            hit = self._field_cache.get("key")
+            if hit is not None and hit[0] == key and hit[1].shape == p.shape and np.array_equal(hit[1], p):
+                G = hit[2]
+            else:
+                G = face_field_matrix(self.mesh.edges, p, self.axis_xy_m, self.settings["face_points"])
+                self._field_cache["key"] = (key, p.copy(), G)
+        return face_sheet_field_T(self.mesh.edges, self.face_currents(J_T), p, self.axis_xy_m,
+                                  self.settings["face_points"], G)
 
     def coil_linkage_Wb(self, J_T) -> np.ndarray:
         """Flux linkage (k,) or (n, k) of each coil with the cells' field (Wb), by reciprocity."""
@@ -288,67 +307,102 @@ def _cell_volume_rule(mesh: RingMesh, axis_xy, order: int, angles: int):
     return pts.reshape(c, -1, 3), wt.reshape(c, -1), er.reshape(c, -1, 3)
 
 
-def face_sheet_field_T(edges: Edges, muK_T, points_m, axis_xy, order: int = 6) -> np.ndarray:
-    """B (T) at world points (q, 3) of azimuthal sheets ``mu0 K`` (e,) on faces about the axis.
+#: loop (Gauss) points per horizontal face by the ratio face length / distance to the nearest
+#: observer: Gauss-Legendre with n points on a segment of length L seen from distance d errs by
+#: about (L / 2d)^(2n) (Davis and Rabinowitz, Methods of Numerical Integration, 1984, sec. 4.6)
+ADAPTIVE_ORDERS = ((0.1, 2), (0.25, 3), (0.5, 4))
+#: largest observer x face matrix kept for reuse (entries)
+FIELD_MATRIX_CACHE = 4_000_000
+
+
+def face_field_matrix(edges: Edges, points_m, axis_xy, order: int = 6) -> np.ndarray:
+    """``(B_rho, B_z)`` (q, 2, e) at world points (q, 3) per unit face sheet ``mu0 K = 1 T``.
 
     Faces along z are solenoid sheets, evaluated in closed form as axially polarized cylinders
     (Derby and Olbert, Am. J. Phys. 78 (2010) 229, magpylib ``magnet_cylinder_axial_Bfield``); other
     faces are Gauss-Legendre sums of circular loops (Ortner et al., Magnetism 3 (2023) 11,
-    magpylib ``current_circle_Hfield``).
+    magpylib ``current_circle_Hfield``), with fewer points on faces far from every observer
+    (:data:`ADAPTIVE_ORDERS`; at most ``order``).
     """
     import magpylib as magpy
 
     p = np.asarray(points_m, dtype=float).reshape(-1, 3)
-    muK = np.asarray(muK_T, dtype=float).reshape(-1)
     x, y = p[:, 0] - axis_xy[0], p[:, 1] - axis_xy[1]
     rho = np.hypot(x, y)
     z = p[:, 2]
-    Br = np.zeros(p.shape[0])
-    Bz = np.zeros(p.shape[0])
+    q = p.shape[0]
     s, e = edges.start_m, edges.end_m
+    ne = s.shape[0]
+    G = np.zeros((q, 2, ne))
     vert = (np.abs(s[:, 0] - e[:, 0]) <= 1e-15 * np.maximum(s[:, 0], 1e-300)) & (s[:, 0] > 0.0)
-    on = muK != 0.0
-    iv = np.nonzero(vert & on)[0]
+    iv = np.nonzero(vert)[0]
     a = s[iv, 0]
     hz = np.abs(e[iv, 1] - s[iv, 1])
     zc = 0.5 * (e[iv, 1] + s[iv, 1])
     per = max(1, FIELD_CHUNK // max(1, iv.size))
-    for i in range(0, p.shape[0], per):
+    for i in range(0, q, per):
         sl = slice(i, i + per)
         m = rho[sl].size
         B = magpy.core.magnet_cylinder_axial_Bfield(np.repeat((0.5 * hz / a)[None], m, 0).ravel(),
                                                     (rho[sl][:, None] / a).ravel(),
                                                     ((z[sl][:, None] - zc) / a).ravel()).reshape(3, m, iv.size)
-        Br[sl] += B[0] @ muK[iv]
-        Bz[sl] += B[2] @ muK[iv]
-    io = np.nonzero(~vert & on)[0]
+        G[sl, 0, iv] = B[0]
+        G[sl, 1, iv] = B[2]
+    io = np.nonzero(~vert)[0]
     if io.size:
-        sub = Edges(s[io], e[io])
-        pe, we = sub.points(order)
-        r0 = pe[..., 0].ravel()
-        z0 = pe[..., 1].ravel()
-        cur = (we * muK[io][:, None]).ravel()  # mu0 * current of each loop (T m)
-        keep = r0 > 0.0
-        r0, z0, cur = r0[keep], z0[keep], cur[keep]
-        per = max(1, FIELD_CHUNK // max(1, r0.size))
-        for i in range(0, p.shape[0], per):
-            sl = slice(i, i + per)
-            m = rho[sl].size
-            H = magpy.core.current_circle_Hfield(np.repeat(r0[None], m, 0).ravel(), np.repeat(rho[sl][:, None], r0.size, 1).ravel(),
-                                                 (z[sl][:, None] - z0[None]).ravel(), np.repeat(cur[None], m, 0).ravel())
-            H = H.reshape(3, m, r0.size)
-            Br[sl] += H[0].sum(axis=1)
-            Bz[sl] += H[2].sum(axis=1)
+        mid = 0.5 * (s[io] + e[io])
+        L = np.linalg.norm(e[io] - s[io], axis=1)
+        dmin = np.full(io.size, np.inf)
+        for i in range(0, q, 4096):
+            d2 = (rho[i:i + 4096, None] - mid[None, :, 0]) ** 2 + (z[i:i + 4096, None] - mid[None, :, 1]) ** 2
+            dmin = np.minimum(dmin, np.sqrt(d2.min(axis=0)))
+        ratio = L / np.maximum(dmin, 1e-300)
+        orders = np.full(io.size, order)
+        for lim, n in reversed(ADAPTIVE_ORDERS):
+            orders[ratio < lim] = min(n, order)
+        for n in np.unique(orders):
+            sel = io[orders == n]
+            pe, we = Edges(s[sel], e[sel]).points(int(n))
+            r0 = pe[..., 0].ravel()  # Gauss points are interior: r0 > 0 on every face
+            z0 = pe[..., 1].ravel()
+            cur = we.ravel()
+            per = max(1, FIELD_CHUNK // max(1, r0.size))
+            for i in range(0, q, per):
+                sl = slice(i, i + per)
+                m = rho[sl].size
+                H = magpy.core.current_circle_Hfield(np.repeat(r0[None], m, 0).ravel(),
+                                                     np.repeat(rho[sl][:, None], r0.size, 1).ravel(),
+                                                     (z[sl][:, None] - z0[None]).ravel(),
+                                                     np.repeat(cur[None], m, 0).ravel()).reshape(3, m, sel.size, int(n))
+                G[sl, 0, sel] += H[0].sum(axis=-1)
+                G[sl, 1, sel] += H[2].sum(axis=-1)
+    return G
+
+
+def face_sheet_field_T(edges: Edges, muK_T, points_m, axis_xy, order: int = 6, matrix=None) -> np.ndarray:
+    """B (T) at world points (q, 3) of azimuthal sheets ``mu0 K`` (e,) or (s, e) on faces about
+    the axis; returns (q, 3) or (s, q, 3). ``matrix`` is :func:`face_field_matrix` at these points."""
+    p = np.asarray(points_m, dtype=float).reshape(-1, 3)
+    muK = np.asarray(muK_T, dtype=float)
+    G = face_field_matrix(edges, p, axis_xy, order) if matrix is None else matrix
+    B = np.einsum("qce,se->sqc", G, np.atleast_2d(muK))
+    x, y = p[:, 0] - axis_xy[0], p[:, 1] - axis_xy[1]
+    rho = np.hypot(x, y)
     with np.errstate(invalid="ignore", divide="ignore"):
         c = np.where(rho > 0, x / np.where(rho > 0, rho, 1.0), 0.0)
         sn = np.where(rho > 0, y / np.where(rho > 0, rho, 1.0), 0.0)
-    return np.stack((Br * c, Br * sn, Bz), axis=-1)
+    out = np.stack((B[..., 0] * c, B[..., 0] * sn, B[..., 1]), axis=-1)
+    return out if muK.ndim > 1 else out[0]
 
 
 def _curves(design: Design, curves) -> tuple:
     if curves is None:
         out = []
         for c in design.cores:
+            if getattr(c, "bh_curve", None):
+                out.append(TableCurve.from_points([h for h, _ in c.bh_curve], [b for _, b in c.bh_curve],
+                                                  f"core {c.name}.bh_curve"))
+                continue
             mu_r = float(c.relative_permeability)
             if not np.isfinite(mu_r) or mu_r <= 1.0:
                 raise GeometryError(f"core {c.name}", "relative_permeability", "> 1", mu_r)

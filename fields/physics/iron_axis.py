@@ -87,6 +87,130 @@ def floater_rhs_axis(model: IronModel, floater_z_m) -> np.ndarray:
     return face @ model.mesh.incidence
 
 
+@dataclass(frozen=True)
+class AxialIronParts:
+    """Linear-iron pieces of the axial force at n on-axis floater heights (shared by every current).
+
+    Attributes
+    ----------
+    floater_z_m : ndarray, shape (n,)
+        Height of the floater frame origin (m).
+    F0_N : ndarray, shape (n,)
+        Force at zero current with linear iron (N).
+    Fk_N_per_A : ndarray, shape (n, k)
+        Force per ampere of each coil with linear iron (N/A).
+    source_F0_N, source_Fk_N_per_A : ndarray, shape (n,), (n, k)
+        The iron-free parts (fixed magnets, coils per ampere).
+    force_per_J : ndarray, shape (n, 2c)
+        Force on the floater per unit cell polarization (N/T): ``F_iron = force_per_J . J``.
+    b_floater : ndarray, shape (n, 2c)
+        The floater's right-hand sides (T m^3).
+    J_floater_T : ndarray, shape (n, 2c)
+        Linear response of the iron to the floater (T).
+    """
+
+    floater_z_m: np.ndarray
+    F0_N: np.ndarray
+    Fk_N_per_A: np.ndarray
+    source_F0_N: np.ndarray
+    source_Fk_N_per_A: np.ndarray
+    force_per_J: np.ndarray
+    b_floater: np.ndarray
+    J_floater_T: np.ndarray
+
+    def rhs(self, currents_A, model: IronModel) -> np.ndarray:
+        """Right-hand sides (n, 2c) at coil currents (k,)."""
+        return model.b_magnets[None] + (np.asarray(currents_A, dtype=float) @ model.b_coils)[None] + self.b_floater
+
+    def force_N(self, J_T, currents_A) -> np.ndarray:
+        """Force (n,) of cell polarizations J (n, 2c) or (n, c, 2) at currents (k,)."""
+        J = np.asarray(J_T, dtype=float).reshape(self.force_per_J.shape)
+        I = np.asarray(currents_A, dtype=float).reshape(-1)
+        return self.source_F0_N + self.source_Fk_N_per_A @ I + np.einsum("nx,nx->n", self.force_per_J, J)
+
+
+def _coaxial_or_fail(model: IronModel):
+    coil_sheets, mag_sheets = _coaxial_sheets(model.design, model.axis_xy_m, model.settings["layers"])
+    if any(s is None for s in coil_sheets) or (model.design.magnets and mag_sheets is None):
+        raise GeometryError("axial_iron_forces", "coils and magnets", "coaxial with the cores", None)
+    return coil_sheets, mag_sheets
+
+
+def axial_iron_parts(model: IronModel, floater_z_m) -> AxialIronParts:
+    """Linear-iron axial force pieces of the on-axis, untilted floater at heights (n,) (m).
+
+    The axial force is the floater's cap charges times the flux through its cap discs of the
+    coils' and magnets' sheets (closed form) and of the iron's face sheets (loop-loop mutual
+    inductance along each face); the iron's response to the floater is one back-substitution
+    per height.
+    """
+    from fields.physics.axial import floater_cap_discs
+
+    d = model.design
+    z = np.asarray(floater_z_m, dtype=float).reshape(-1)
+    k = len(d.coils)
+    coil_sheets, mag_sheets = _coaxial_or_fail(model)
+    rad, zf, q = floater_cap_discs(d.floater)
+    zd = z[:, None] + zf[None, :]  # (g, d)
+    g, nd = zd.shape
+    Phi_c = np.zeros((g, k, nd))
+    for i, sh in enumerate(coil_sheets):
+        Phi_c[:, i] = axial_disc_flux_Wb(sh, rad, zd).sum(axis=-1)
+    Phi_m = axial_disc_flux_Wb(mag_sheets, rad, zd).sum(axis=-1) if mag_sheets is not None else np.zeros((g, nd))
+    Lq = edge_loop_inductance(model.mesh.edges, np.tile(rad, g), zd.reshape(-1),
+                              model.settings["face_points"]).reshape(-1, g, nd)  # (e, g, d)
+    Cq = (model.mesh.incidence.T @ (Lq @ q)).T / mu_0  # (g, 2c) N/T
+    b_f = floater_rhs_axis(model, z)
+    J_f = model.solve_linear(b_f)
+    S0 = Phi_m @ q
+    Sk = np.einsum("gkd,d->gk", Phi_c, q)
+    F0 = S0 + np.einsum("gc,gc->g", Cq, J_f + model.J_magnets_T[None])
+    Fk = Sk + Cq @ model.J_coils_T_per_A.T
+    return AxialIronParts(z, F0, Fk, S0, Sk, Cq, b_f, J_f)
+
+
+def saturable_axial_forces(model: IronModel, parts: AxialIronParts, currents_A):
+    """Axial force with saturable iron at every height of ``parts`` and every row of currents.
+
+    One :func:`fields.physics.iron_newton.newton_sweep` runs through all (height, current)
+    pairs in a serpentine order (neighbours close), so that each solve starts near its answer.
+
+    Parameters
+    ----------
+    model : IronModel
+    parts : AxialIronParts
+    currents_A : ndarray, shape (c, k)
+
+    Returns
+    -------
+    Fz_N : ndarray, shape (n, c)
+    J_T : ndarray, shape (n, c, cells, 2)
+    saturated_cells : ndarray of int, shape (n, c)
+    steps : ndarray of int, shape (n, c)
+    """
+    from fields.physics.iron_newton import newton_sweep
+
+    I = np.atleast_2d(np.asarray(currents_A, dtype=float))
+    n, nc = parts.floater_z_m.size, I.shape[0]
+    order = []
+    for ci in np.argsort(I[:, 0] if I.shape[1] else np.zeros(nc), kind="stable"):
+        rows = range(n) if len(order) // max(n, 1) % 2 == 0 else range(n - 1, -1, -1)
+        order += [(a, int(ci)) for a in rows]
+    bs = np.array([model.b_magnets + I[ci] @ model.b_coils + parts.b_floater[a] for a, ci in order])
+    J, sat, steps = newton_sweep(model, bs)
+    Fz = np.empty((n, nc))
+    Jo = np.empty((n, nc) + J.shape[1:])
+    nsat = np.empty((n, nc), dtype=int)
+    st = np.empty((n, nc), dtype=int)
+    for j, (a, ci) in enumerate(order):
+        Jo[a, ci] = J[j]
+        Fz[a, ci] = (parts.source_F0_N[a] + parts.source_Fk_N_per_A[a] @ I[ci]
+                     + parts.force_per_J[a] @ J[j].reshape(-1))
+        nsat[a, ci] = int(sat[j].sum())
+        st[a, ci] = steps[j]
+    return Fz, Jo, nsat, st
+
+
 def axial_iron_forces(model: IronModel, gaps_m, currents_A, saturable: bool = True) -> AxialIronForces:
     """Axial force and coil flux linkage of the on-axis floater at gaps and currents.
 
@@ -104,8 +228,6 @@ def axial_iron_forces(model: IronModel, gaps_m, currents_A, saturable: bool = Tr
     -------
     AxialIronForces
     """
-    from fields.physics.axial import floater_cap_discs
-
     d = model.design
     gaps = np.asarray(gaps_m, dtype=float).reshape(-1)
     k = len(d.coils)
@@ -116,45 +238,22 @@ def axial_iron_forces(model: IronModel, gaps_m, currents_A, saturable: bool = Tr
     P = d.study.floater_origin_m(gaps)
     if (np.any(np.abs(P[:, :2] - model.axis_xy_m) > 1e-12) or np.any(np.asarray(d.study.floater_rotvec_rad) != 0.0)):
         raise GeometryError("axial_iron_forces", "floater poses", "on the cores' axis and untilted", P[0].tolist())
-    coil_sheets, mag_sheets = _coaxial_sheets(d, model.axis_xy_m, model.settings["layers"])
-    if any(s is None for s in coil_sheets) or (d.magnets and mag_sheets is None):
-        raise GeometryError("axial_iron_forces", "coils and magnets", "coaxial with the cores", None)
-    rad, zf, q = floater_cap_discs(d.floater)
-    zd = P[:, 2:3] + zf[None, :]  # (g, d)
-    g, nd = zd.shape
-    # sources' disc flux (closed form)
-    Phi_c = np.zeros((g, k, nd))
-    for i, sh in enumerate(coil_sheets):
-        Phi_c[:, i] = axial_disc_flux_Wb(sh, rad, zd).sum(axis=-1)
-    Phi_m = axial_disc_flux_Wb(mag_sheets, rad, zd).sum(axis=-1) if mag_sheets is not None else np.zeros((g, nd))
-    # iron: flux of unit face sheets through every cap disc at every gap
-    Lq = edge_loop_inductance(model.mesh.edges, np.tile(rad, g), zd.reshape(-1),
-                              model.settings["face_points"]).reshape(-1, g, nd)  # (e, g, d)
-    Cq = (model.mesh.incidence.T @ (Lq @ q)).T / mu_0  # force per unit cell polarization (g, 2c) (N/T)
-    b_f = floater_rhs_axis(model, P[:, 2])
-    J_f = model.solve_linear(b_f)  # (g, 2c)
-    F0 = Phi_m @ q + np.einsum("gc,gc->g", Cq, J_f + model.J_magnets_T[None])
-    Fk = np.einsum("gkd,d->gk", Phi_c, q) + Cq @ model.J_coils_T_per_A.T
-    Flin = F0[:, None] + Fk @ I.T
-    # flux linkage: iron share by reciprocity; floater share over its sheets
+    parts = axial_iron_parts(model, P[:, 2])
+    coil_sheets, _ = _coaxial_or_fail(model)
+    g = gaps.size
+    Flin = parts.F0_N[:, None] + parts.Fk_N_per_A @ I.T
     fl_link = _floater_linkage(model, coil_sheets, P[:, 2])  # (g, k)
-    Jlin = (J_f[:, None, :] + model.J_magnets_T[None, None] + np.einsum("ck,kx->cx", I, model.J_coils_T_per_A)[None])
+    Jlin = (parts.J_floater_T[:, None, :] + model.J_magnets_T[None, None]
+            + np.einsum("ck,kx->cx", I, model.J_coils_T_per_A)[None])
     link_lin = model.coil_linkage_Wb(Jlin) + fl_link[:, None, :]
     Fz = Flin.copy()
     link = link_lin.copy()
     nsat = np.zeros((g, I.shape[0]), dtype=int)
     steps = np.zeros((g, I.shape[0]), dtype=int)
     if saturable:
-        for a in range(g):
-            for ci in range(I.shape[0]):
-                b = model.b_magnets + I[ci] @ model.b_coils + b_f[a]
-                sol = model.solve(b)
-                J = sol.J_T.reshape(-1)
-                Fz[a, ci] = Phi_m[a] @ q + (I[ci] @ Phi_c[a]) @ q + Cq[a] @ J
-                link[a, ci] = model.coil_linkage_Wb(J) + fl_link[a]
-                nsat[a, ci] = int(sol.saturated.sum())
-                steps[a, ci] = sol.steps
-    return AxialIronForces(gaps, I, Fz, Flin, F0, Fk, link, link_lin, nsat, steps)
+        Fz, J, nsat, steps = saturable_axial_forces(model, parts, I)
+        link = model.coil_linkage_Wb(J.reshape(g, I.shape[0], -1)) + fl_link[:, None, :]
+    return AxialIronForces(gaps, I, Fz, Flin, parts.F0_N, parts.Fk_N_per_A, link, link_lin, nsat, steps)
 
 
 def _floater_linkage(model: IronModel, coil_sheets, floater_z_m) -> np.ndarray:

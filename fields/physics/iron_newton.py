@@ -36,6 +36,11 @@ STRONG_FRACTION = 1e-4
 DIRECT_SHARE = 0.5
 #: cells above this fraction of their saturation polarization are reported as saturated
 SATURATION_FRACTION = 0.8
+#: stopping tolerance of the family sweeps (T): polarization changes of 1e-8 T move the force
+#: by about 1e-8 of itself
+SWEEP_TOL_T = 1e-8
+#: a chord step that shrinks the update by less than this factor triggers a new Jacobian factor
+CHORD_RATE = 0.25
 
 
 @dataclass(frozen=True)
@@ -168,3 +173,121 @@ def _inside(J: np.ndarray, Js: np.ndarray, J_old_mag: np.ndarray) -> np.ndarray:
     if np.any(over):
         Jc[over] *= (cap[over] / mag[over])[:, None] * (1.0 - 1e-12)
     return Jc.reshape(-1)
+
+
+def _jacobian_factor(model, J: np.ndarray, groups, chi0, vol):
+    """Cholesky factor of the exact Jacobian ``A + U(J)`` at polarizations J (2c,)."""
+    c = model.cells
+    Ti = np.empty((c, 2, 2))
+    Jc = J.reshape(c, 2)
+    for idx, cv in groups:
+        _, Ti[idx] = field_and_inverse_tensor(cv, Jc[idx])
+    U = vol[:, None, None] * (Ti - np.eye(2)[None] / chi0[:, None, None])
+    return linalg.cho_factor(_full_jacobian(model, U), check_finite=False)
+
+
+def newton_sweep(model, bs, tol_T: float = SWEEP_TOL_T) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Saturable polarizations for a sequence of nearby right-hand sides (a family along gap or current).
+
+    The first right-hand side is solved by :func:`newton_solve`. Each next one starts from the
+    previous solution plus the Jacobian's response to the change of ``b`` (a first-order
+    predictor) and takes chord steps with the last factored Jacobian (modified Newton; Kelley,
+    Iterative Methods for Linear and Nonlinear Equations, SIAM 1995, ch. 5); the Jacobian is
+    refactored at the current iterate when a step contracts by less than ``CHORD_RATE``.
+
+    Parameters
+    ----------
+    model : IronModel
+    bs : ndarray, shape (m, 2c)
+        Right-hand sides, ordered so that neighbours are close.
+    tol_T : float
+        Stop when no cell's polarization changes by more than this (T).
+
+    Returns
+    -------
+    J_T : ndarray, shape (m, c, 2)
+    saturated : ndarray of bool, shape (m, c)
+        ``|J| > SATURATION_FRACTION Js`` per cell.
+    steps : ndarray of int, shape (m,)
+        Chord or Newton steps per right-hand side.
+    """
+    bs = np.atleast_2d(np.asarray(bs, dtype=float))
+    m = bs.shape[0]
+    c = model.cells
+    vol = model.mesh.volume_m3
+    V = np.repeat(vol, 2)
+    D = model.D
+    chi0 = model.chi_cells[::2]
+    Js = model.saturation_cells_T
+    groups = [(np.nonzero(model.cell_curve == i)[0], cv) for i, cv in enumerate(model.curves)]
+    out = np.empty((m, 2 * c))
+    steps = np.zeros(m, dtype=int)
+    fac = None
+    cache = getattr(model, "_field_cache", {})
+    for i in range(m):
+        if fac is None:
+            start = _warm_start(model, bs[i], cache.get("last_solution"), groups, V)
+            sol = newton_solve(model, bs[i], start, tol_T)
+            out[i] = sol.J_T.reshape(-1)
+            steps[i] = sol.steps
+            fac = _jacobian_factor(model, out[i], groups, chi0, vol)
+            continue
+        J = _inside(out[i - 1] + linalg.cho_solve(fac, bs[i] - bs[i - 1], check_finite=False), Js,
+                    np.linalg.norm(out[i - 1].reshape(c, 2), axis=1))
+        prev = np.inf
+        for step in range(1, NEWTON_MAX_STEPS + 1):
+            h = np.empty((c, 2))
+            Jc = J.reshape(c, 2)
+            for idx, cv in groups:
+                h[idx], _ = field_and_inverse_tensor(cv, Jc[idx])
+            R = V * h.reshape(-1) + D @ J - bs[i]
+            J_new = _inside(J - linalg.cho_solve(fac, R, check_finite=False), Js, np.linalg.norm(Jc, axis=1))
+            upd = float(np.max(np.abs(J_new - J)))
+            J = J_new
+            if upd <= tol_T:
+                break
+            if upd > CHORD_RATE * prev:
+                fac = _jacobian_factor(model, J, groups, chi0, vol)
+            prev = upd
+        else:
+            raise SolverError(f"iron solve: chord steps did not reach {tol_T:g} T in {NEWTON_MAX_STEPS} steps; "
+                              f"last update {upd:g} T")
+        out[i] = J
+        steps[i] = step
+    if m:
+        cache["last_solution"] = (bs[-1].copy(), out[-1].copy())
+    Jm = out.reshape(m, c, 2)
+    return Jm, np.linalg.norm(Jm, axis=2) > SATURATION_FRACTION * Js[None], steps
+
+
+def _warm_start(model, b, last, groups, V):
+    """The previous sweep's last solution moved by the linear response to the change of b, when
+    its residual is below the linear solution's (else None: start from the linear solution)."""
+    if last is None or last[0].shape != b.shape:
+        return None
+    J_lin = model.solve_linear(b)
+    J_w = _inside(last[1] + model.A_inv @ (b - last[0]), model.saturation_cells_T,
+                  np.linalg.norm(last[1].reshape(-1, 2), axis=1))
+
+    def resid(J):
+        h = np.empty((model.cells, 2))
+        Jc = J.reshape(-1, 2)
+        for idx, cv in groups:
+            h[idx], _ = field_and_inverse_tensor(cv, Jc[idx])
+        return float(np.max(np.abs(V * h.reshape(-1) + model.D @ J - b)))
+
+    try:
+        return J_w if resid(J_w) < resid(_inside(J_lin, model.saturation_cells_T, np.zeros(model.cells))) else None
+    except FloatingPointError:
+        return None
+
+
+def incremental_response(model, J_T, b) -> np.ndarray:
+    """``dJ = (A + U(J))^-1 b``: the saturable cells' response (2c,) or (2c, m) to a small change of
+    the right-hand side ``b`` (2c,) or (2c, m) at polarizations J (c, 2) (the Jacobian of the
+    Galerkin equations, as in :func:`newton_solve`)."""
+    vol = model.mesh.volume_m3
+    chi0 = model.chi_cells[::2]
+    groups = [(np.nonzero(model.cell_curve == i)[0], cv) for i, cv in enumerate(model.curves)]
+    fac = _jacobian_factor(model, np.asarray(J_T, dtype=float).reshape(-1), groups, chi0, vol)
+    return linalg.cho_solve(fac, np.asarray(b, dtype=float), check_finite=False)

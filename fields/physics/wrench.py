@@ -20,6 +20,18 @@ Routes, per pose:
 The error estimate is the difference between the requested rule level and the next coarser one
 (fewer coil layers and fewer surface nodes); it bounds the error of the coarser result and is
 therefore conservative for the returned one.
+
+Soft-iron cores (``core_model="cells"``, the default) are solved for their magnetization by the
+ring-cell method (:mod:`fields.physics.iron`) at a cell level tied to the rule level
+(:data:`IRON_LEVELS`); the error estimate then compares with the next coarser rule level *and*
+the next coarser cell level (:data:`fields.physics.iron.COARSER`), so it holds the cell
+discretisation error too. On the axis of an axisymmetric design the axial force comes from
+:func:`fields.physics.iron_axis.axial_iron_parts` (closed-form cap flux of the sources and of
+the iron's face sheets); elsewhere from the charges in the field of
+:func:`fields.physics.iron_basis.iron_field_basis`. :class:`WrenchBasis` holds linear iron
+(initial susceptibility); :func:`wrench` at given currents solves the saturable iron (Newton).
+``core_model="uniform"`` keeps the uniformly magnetized core of :mod:`fields.physics.cores`
+(for comparison only).
 """
 
 from __future__ import annotations
@@ -35,10 +47,14 @@ from fields.physics.charges import floater_surface_rule
 from fields.physics.checks import input_error, pose_arrays
 from fields.physics.contact import CONTACT_CLEARANCE_M, clearance_m
 from fields.physics.cores import clip_polarization, core_models
-from fields.physics.field_basis import fixed_field_basis
+from fields.physics.field_basis import cell_field_basis, check_core_model, fixed_field_basis
 from fields.physics.kernels import CHUNK
 from fields.physics.levels import LEVEL_NAMES, RuleLevel, coarser_level, rule_level
 from fields.physics.nearfield import graded_floater_rule, near_field_poses, pose_groups
+
+
+#: cell level of the iron solve per rule level
+IRON_LEVELS = {"coarse": "coarse", "fast": "coarse", "standard": "fine", "high": "fine", "reference": "finer"}
 
 
 def _apply(base: np.ndarray, per_A: np.ndarray, currents_A) -> np.ndarray:
@@ -121,7 +137,8 @@ class Wrench:
 # --------------------------------------------------------------------------- evaluation
 
 
-def _surface_wrench(design: Design, P, Rv, level: RuleLevel, axisym: bool, currents_A=None, rule=None):
+def _surface_wrench(design: Design, P, Rv, level: RuleLevel, axisym: bool, currents_A=None, rule=None,
+                    core_model: str = "cells", iron_level: str = "fine"):
     """F0, Fk, T0, Tk, clipped F and T at currents, clipped and box-saturated flags for the poses
     P (n,3) at one rule level; ``rule`` (points (q,3), charges (q,)) replaces the floater's plain
     surface rule."""
@@ -140,13 +157,17 @@ def _surface_wrench(design: Design, P, Rv, level: RuleLevel, axisym: bool, curre
     sat_box = np.zeros(n, dtype=bool)
     layers = level.layers
     per = max(1, CHUNK // max(1, q * max(layers, 1)))
-    cores = core_models(design) if design.cores else ()
+    cells = bool(design.cores) and core_model == "cells"
+    cores = core_models(design) if design.cores and not cells else ()
+    if cells:
+        return _cell_surface_wrench(design, P, Rv, xf, s, c_f, currents_A, iron_level)
     for a in range(0, n, per):
         sl = slice(a, a + per)
         R = Rotation.from_rotvec(Rv[sl]).as_matrix()
         X = np.einsum("nij,qj->nqi", R, xf) + P[sl, None, :]
         arm = X - (np.einsum("nij,j->ni", R, c_f) + P[sl])[:, None, :]
-        fb = fixed_field_basis(design, X, P[sl], Rv[sl], layers=layers, grade_within=level.layer_grade_within)
+        fb = fixed_field_basis(design, X, P[sl], Rv[sl], layers=layers, grade_within=level.layer_grade_within,
+                               core_model="uniform")
         F0[sl] = np.einsum("q,nqi->ni", s, fb.B0_T)
         Fk[sl] = np.einsum("q,nkqi->nki", s, fb.Bk_T_per_A)
         T0[sl] = np.einsum("q,nqi->ni", s, np.cross(arm, fb.B0_T))
@@ -167,6 +188,61 @@ def _surface_wrench(design: Design, P, Rv, level: RuleLevel, axisym: bool, curre
             Fc[sl] = np.einsum("q,nqi->ni", s, B)
             Tc[sl] = np.einsum("q,nqi->ni", s, np.cross(arm, B))
     return F0, Fk, T0, Tk, Fc, Tc, sat, sat_box
+
+
+def _cell_surface_wrench(design: Design, P, Rv, xf, s, c_f, currents_A, iron_level: str):
+    """:func:`_surface_wrench` with the cell solve of the cores (general poses)."""
+    from fields.physics.iron import iron_model
+    from fields.physics.iron_basis import iron_field_at_currents
+
+    model = iron_model(design, iron_level)
+    n = P.shape[0]
+    R = Rotation.from_rotvec(Rv).as_matrix()
+    X = np.einsum("nij,qj->nqi", R, xf) + P[:, None, :]
+    arm = X - (np.einsum("nij,j->ni", R, c_f) + P)[:, None, :]
+    fb = cell_field_basis(design, X, P, Rv, iron_level)
+    F0 = np.einsum("q,nqi->ni", s, fb.B0_T)
+    Fk = np.einsum("q,nkqi->nki", s, fb.Bk_T_per_A)
+    T0 = np.einsum("q,nqi->ni", s, np.cross(arm, fb.B0_T))
+    Tk = np.einsum("q,nkqi->nki", s, np.cross(arm[:, None], fb.Bk_T_per_A))
+    Fc = np.zeros((n, 3))
+    Tc = np.zeros((n, 3))
+    sat = np.zeros(n, dtype=bool)
+    if currents_A is not None:
+        res = iron_field_at_currents(model, X, P, Rv, np.asarray(currents_A, dtype=float))
+        Fc = np.einsum("q,nqi->ni", s, res.B_T)
+        Tc = np.einsum("q,nqi->ni", s, np.cross(arm, res.B_T))
+        sat = np.array([len(c) > 0 for c in res.saturated_cells], dtype=bool)
+    return F0, Fk, T0, Tk, Fc, Tc, sat, np.asarray(fb.core_saturated)
+
+
+def _iron_axis_wrench(design: Design, P, currents_A, iron_level: str):
+    """The result tuple of :func:`_surface_wrench` on the axis with the cell solve (axial force
+    from the closed-form cap flux; transverse force and torque zero by symmetry)."""
+    from fields.physics.iron import iron_model
+    from fields.physics.iron_axis import axial_iron_parts, saturable_axial_forces
+    from fields.physics.iron_newton import SATURATION_FRACTION
+
+    model = iron_model(design, iron_level)
+    parts = axial_iron_parts(model, P[:, 2])
+    res = list(_axis_wrench(parts.F0_N, parts.Fk_N_per_A, None))
+    n = P.shape[0]
+    k = len(design.coils)
+    thr = SATURATION_FRACTION * model.saturation_cells_T
+    box = np.zeros(n, dtype=bool)
+    from fields.physics.cores import rated_current_box
+
+    J0 = (parts.J_floater_T + model.J_magnets_T[None]).reshape(n, -1, 2)
+    for I in rated_current_box(design):
+        J = J0 + (I @ model.J_coils_T_per_A).reshape(1, -1, 2) if k else J0
+        box |= np.any(np.linalg.norm(J, axis=-1) > thr[None], axis=1)
+    res[7] = box
+    if currents_A is not None:
+        Fz, _, nsat, _ = saturable_axial_forces(model, parts, np.asarray(currents_A, dtype=float)[None])
+        res[4] = np.zeros((n, 3))
+        res[4][:, 2] = Fz[:, 0]
+        res[6] = nsat[:, 0] > 0
+    return tuple(res)
 
 
 def _axis_wrench(F0z, Fkz, currents_A):
@@ -196,9 +272,20 @@ def _levels(order: str | RuleLevel, estimate_error: bool) -> tuple[RuleLevel, Ru
     return rule_level(order), coarser_level(order)
 
 
+def _iron_levels(order, estimate_error: bool) -> tuple[str, str]:
+    from fields.physics.iron import COARSER
+
+    name = IRON_LEVELS.get(order, "fine") if isinstance(order, str) else "fine"
+    return name, (COARSER[name] if estimate_error else name)
+
+
 def _evaluate(design: Design, positions_m, rotvecs_rad, order: str | RuleLevel, currents_A=None,
-              estimate_error: bool = True, near_field: bool = True, axis_symmetry: bool = True):
+              estimate_error: bool = True, near_field: bool = True, axis_symmetry: bool = True,
+              core_model: str = "cells"):
+    check_core_model(core_model, "wrench")
     level, lower = _levels(order, estimate_error)
+    cells = bool(design.cores) and core_model == "cells"
+    iron_hi, iron_lo = _iron_levels(order, estimate_error)
     P, Rv = pose_arrays(positions_m, rotvecs_rad, "wrench")
     n = P.shape[0]
     k = len(design.coils)
@@ -219,7 +306,7 @@ def _evaluate(design: Design, positions_m, rotvecs_rad, order: str | RuleLevel, 
     # group of nearby poses so that a stiffness stencil shares one discretisation; the closed-form
     # on-axis route needs no cap rule (but keeps plain coil layers, which converge slowly for a
     # cap just under a winding's end face: coil designs send such poses to the graded route)
-    pool = general | (axial & (bool(design.coils) or not closed_form))
+    pool = general | (axial & (bool(design.coils) or not closed_form) & (not cells))
     if near_field:
         graded, edges = near_field_poses(design, P, Rv, np.where(pool, clearance, np.inf))
         graded &= pool
@@ -238,20 +325,24 @@ def _evaluate(design: Design, positions_m, rotvecs_rad, order: str | RuleLevel, 
         # the axis), so that differences across it (stiffness stencils) stay consistent
         if seed is not None:
             rule = graded_floater_rule(design, edges, P[seed], Rv[seed], level)
-            res = _surface_wrench(design, P[mask], Rv[mask], level, False, currents_A, rule)
+            res = _surface_wrench(design, P[mask], Rv[mask], level, False, currents_A, rule, core_model, iron_hi)
             if estimate_error:
                 rule_lo = graded_floater_rule(design, edges, P[seed], Rv[seed], lower)
-                res_lo = _surface_wrench(design, P[mask], Rv[mask], lower, False, currents_A, rule_lo)
+                res_lo = _surface_wrench(design, P[mask], Rv[mask], lower, False, currents_A, rule_lo, core_model,
+                                         iron_lo)
             else:
                 res_lo = res
+        elif axisym and cells:
+            res = _iron_axis_wrench(design, P[mask], currents_A, iron_hi)
+            res_lo = _iron_axis_wrench(design, P[mask], currents_A, iron_lo) if estimate_error else res
         elif axisym and closed_form:
             counts = (level.layers, lower.layers) if estimate_error else (level.layers,)
             F0z, Fkz = axial_cap_force(design, P[mask], counts)
             res, res_lo = _axis_wrench(F0z, Fkz[0], currents_A), _axis_wrench(F0z, Fkz[-1], currents_A)
         else:
-            res = _surface_wrench(design, P[mask], Rv[mask], level, axisym, currents_A)
-            res_lo = (_surface_wrench(design, P[mask], Rv[mask], lower, axisym, currents_A) if estimate_error
-                      else res)
+            res = _surface_wrench(design, P[mask], Rv[mask], level, axisym, currents_A, None, core_model, iron_hi)
+            res_lo = (_surface_wrench(design, P[mask], Rv[mask], lower, axisym, currents_A, None, core_model, iron_lo)
+                      if estimate_error else res)
         if axisym:  # exact symmetry: transverse force and all torque vanish
             for r in (res, res_lo):
                 r[0][:, :2] = 0.0
@@ -276,7 +367,8 @@ def _evaluate(design: Design, positions_m, rotvecs_rad, order: str | RuleLevel, 
 
 
 def wrench_basis(design: Design, positions_m, rotvecs_rad, order: str | RuleLevel = "standard",
-                 estimate_error: bool = True, near_field: bool = True, axis_symmetry: bool = True) -> WrenchBasis:
+                 estimate_error: bool = True, near_field: bool = True, axis_symmetry: bool = True,
+                 core_model: str = "cells") -> WrenchBasis:
     """Force and torque bases of the floater at n poses.
 
     Parameters
@@ -299,11 +391,14 @@ def wrench_basis(design: Design, positions_m, rotvecs_rad, order: str | RuleLeve
     axis_symmetry : bool
         Use the symmetry of on-axis poses (closed-form cap flux or 1-D radial cap rule, exact
         zeros off the axis direction) (default). False evaluates them like any other pose.
+    core_model : str
+        ``"cells"`` (default: the ring-cell solve of the cores, linear iron at the initial
+        susceptibility in this basis) or ``"uniform"`` (uniformly magnetized cores, comparison).
 
     Returns
     -------
     WrenchBasis
-        Linear in the currents; exact without cores and for unclipped cores. Torque is about the
+        Linear in the currents; exact without cores and for linear iron. Torque is about the
         floater's centre of mass.
 
     Notes
@@ -319,12 +414,13 @@ def wrench_basis(design: Design, positions_m, rotvecs_rad, order: str | RuleLeve
     radial cap rule on the axis.
     """
     out, eF, eT, contact, clearance = _evaluate(design, positions_m, rotvecs_rad, order, None, estimate_error,
-                                                near_field, axis_symmetry)
+                                                near_field, axis_symmetry, core_model)
     return WrenchBasis(out[0], out[1], out[2], out[3], eF, eT, contact, clearance, out[7])
 
 
 def wrench(design: Design, positions_m, rotvecs_rad, currents_A, order: str | RuleLevel = "standard",
-           estimate_error: bool = True, near_field: bool = True, axis_symmetry: bool = True) -> Wrench:
+           estimate_error: bool = True, near_field: bool = True, axis_symmetry: bool = True,
+           core_model: str = "cells") -> Wrench:
     """Force and torque on the floater at n poses and one set of currents.
 
     Parameters
@@ -333,14 +429,15 @@ def wrench(design: Design, positions_m, rotvecs_rad, currents_A, order: str | Ru
     positions_m : ndarray, shape (n, 3)
     rotvecs_rad : ndarray, shape (n, 3) or (3,)
     currents_A : array_like, shape (k,)
-    order, estimate_error, near_field, axis_symmetry
+    order, estimate_error, near_field, axis_symmetry, core_model
         As in :func:`wrench_basis`.
 
     Returns
     -------
     Wrench
-        Core polarizations are clipped at saturation (nonlinear in the currents).
+        With cells the saturable iron is solved by Newton's method at these currents (``"uniform"``
+        clips the core polarization at saturation); nonlinear in the currents.
     """
     out, eF, eT, contact, clearance = _evaluate(design, positions_m, rotvecs_rad, order, currents_A, estimate_error,
-                                                near_field, axis_symmetry)
+                                                near_field, axis_symmetry, core_model)
     return Wrench(out[4], out[5], eF, eT, contact, clearance, out[6])

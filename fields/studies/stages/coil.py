@@ -120,7 +120,10 @@ def run_coil(design: Design, out: Path, curves=None, stability=None) -> CoilResu
         sheet, w = _sheet(design, k, c, eq, ax)
         sheets.append(sheet)
         warnings += w
-    Lmat = inductance.mutual_inductance_matrix(design) if design.coils else np.zeros((0, 0))
+    # cores: incremental inductance at the operating point (hover currents, operating gap)
+    I_op = np.asarray(eq.currents_A, dtype=float) if (design.cores and eq is not None) else None
+    Lmat = (inductance.mutual_inductance_matrix(design, currents_A=I_op, gap_m=eq.gap_m if I_op is not None else None)
+            if design.coils else np.zeros((0, 0)))
     result = CoilResult(coils=tuple(sheets), inductance_matrix_H=Lmat, control_axis=ax.name, control_pattern=ax.pattern,
                         warnings=tuple(group_coil_warnings(list(dict.fromkeys(warnings)), [x.name for x in design.coils])),
                         files=file_list(out, "coil.json", "coil_heat.csv"))

@@ -34,6 +34,8 @@ class AtOperatingGap:
     ki_N_per_A: float
     kz_at_hover_N_per_m: float
     F0_N: float
+    saturation_onset_A: float = float("nan")
+    max_force_error_at_gap_N: float = float("nan")
 
 
 @dataclass(frozen=True)
@@ -68,14 +70,20 @@ def _write_tables(design: Design, c: analysis.AxialCurves, out: Path) -> None:
 
     cols = ["gap_m", "height_m"] + [f"Fup_N_at_{I:g}A" for I in c.currents_A] + [
         "F0_N", "ki_N_per_A", "kz0_N_per_m", "kz_at_hover_N_per_m", "hover_current_A", "hover_within_limit",
-        "max_total_mass_kg", "min_total_mass_kg", "max_payload_kg", "min_payload_kg", "contact", "error_F_N"]
+        "max_total_mass_kg", "min_total_mass_kg", "max_payload_kg", "min_payload_kg", "contact", "error_F_N",
+        "saturation_onset_A"]
     kzh = c.kz_at_hover()
+    onset = c.saturation_onset_A if c.saturation_onset_A is not None else np.full(len(c.gaps_m), np.nan)
     rows = [[c.gaps_m[i], c.heights_m[i], *c.Fup_N[i], c.F0_N[i], c.ki_N_per_A[i], c.kz0_N_per_m[i], kzh[i],
              c.hover_current_A[i], bool(c.hover_within_limit[i]), c.max_total_mass_kg[i], c.min_total_mass_kg[i],
-             c.max_payload_kg[i], c.min_payload_kg[i], bool(c.contact[i]), c.error_F_N[i]] for i in range(len(c.gaps_m))]
+             c.max_payload_kg[i], c.min_payload_kg[i], bool(c.contact[i]), c.error_F_N[i],
+             onset[i]] for i in range(len(c.gaps_m))]
     write_csv(out / "curves.csv", cols, rows, header_lines(
         design.name, "axial force versus gap; F_up is the magnetic force along up (N); "
-                     "k = -dF/dh (positive restores); drive pattern " + str(c.pattern.tolist())))
+                     "k = -dF/dh (positive restores); drive pattern " + str(c.pattern.tolist())
+                     + ("; iron core by the ring-cell solve (B-H curve): error_F_N is |fine - coarse| plus interpolation "
+                        "tails, the largest over the family's currents; saturation_onset_A is the |current| from which the "
+                        "force departs from affine by more than 0.1 %" if c.core_model == "cells" else "")))
     kz_cols = [f"kz_N_per_m_at_{I:g}A" for I in c.currents_A]
     write_csv(out / "kz_table.csv", ["gap_m"] + kz_cols, [[g, *k] for g, k in zip(c.gaps_m, c.kz_N_per_m)],
               header_lines(design.name, "axial stiffness k_z = -dF_up/dh versus gap and current"))
@@ -83,9 +91,13 @@ def _write_tables(design: Design, c: analysis.AxialCurves, out: Path) -> None:
 
 def _at_operating_gap(design: Design, c: analysis.AxialCurves) -> AtOperatingGap:
     i = int(np.argmin(np.abs(c.gaps_m - design.study.operating_gap_m)))
+    ki = c.ki_at_hover_N_per_A if c.ki_at_hover_N_per_A is not None else c.ki_N_per_A
     return AtOperatingGap(gap_m=float(c.gaps_m[i]), hover_current_A=float(c.hover_current_A[i]),
-                          ki_N_per_A=float(c.ki_N_per_A[i]), kz_at_hover_N_per_m=float(c.kz_at_hover()[i]),
-                          F0_N=float(c.F0_N[i]))
+                          ki_N_per_A=float(ki[i]), kz_at_hover_N_per_m=float(c.kz_at_hover()[i]),
+                          F0_N=float(c.F0_N[i]),
+                          saturation_onset_A=float(c.saturation_onset_A[i]) if c.saturation_onset_A is not None else float("nan"),
+                          max_force_error_at_gap_N=float(np.max(c.error_Fup_N[i])) if c.error_Fup_N is not None
+                          else float(c.error_F_N[i]))
 
 
 def run_curves(design: Design, out: Path) -> CurvesResult:

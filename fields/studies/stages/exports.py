@@ -32,15 +32,21 @@ def _tables(design: Design, c, exp: Path) -> list[str]:
     g = c.gaps_m[ok]
     F0, f = c.F0_N[ok], c.ki_N_per_A[ok]
     kz0, dki = c.kz0_N_per_m[ok], c.dki_dh_N_per_A_m[ok]
-    Fz = F0[:, None] + f[:, None] * I[None, :]
-    kz = kz0[:, None] - dki[:, None] * I[None, :]
-    ki = np.repeat(f[:, None], len(I), axis=1)
     W = design.weight_N
     Fgrid = np.linspace(0.0, 3.0 * W, 13)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        Iinv = (Fgrid[None, :] - F0[:, None]) / f[:, None]
-    hdr = header_lines(design.name, "affine in current (iron-free or unsaturated core): F_up(g, I) = F0(g) + I ki(g); "
-                                    "k = -dF_up/dh; drive pattern " + str(c.pattern.tolist()))
+    if getattr(c, "core_model", "none") == "cells":
+        Fz, kz, ki, Iinv = _saturable_tables(design, g, I, Fgrid, c.pattern)
+        hdr = header_lines(design.name, "soft-iron core solved by ring cells with its B-H curve: F_up(g, I) is not affine in "
+                                        "current; ki = dF_up/dI (spline in current); k = -dF_up/dh; drive pattern "
+                                        + str(c.pattern.tolist()))
+    else:
+        Fz = F0[:, None] + f[:, None] * I[None, :]
+        kz = kz0[:, None] - dki[:, None] * I[None, :]
+        ki = np.repeat(f[:, None], len(I), axis=1)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            Iinv = (Fgrid[None, :] - F0[:, None]) / f[:, None]
+        hdr = header_lines(design.name, "affine in current (iron-free): F_up(g, I) = F0(g) + I ki(g); "
+                                        "k = -dF_up/dh; drive pattern " + str(c.pattern.tolist()))
     for name, vals, what, colfmt, colvals in (
             ("table_Fz.csv", Fz, "upward magnetic force Fz_N at gap (rows) and current (columns)", "Fz_N_at_{:.6g}A", I),
             ("table_kz.csv", kz, "axial stiffness kz_N_per_m", "kz_N_per_m_at_{:.6g}A", I),
@@ -55,11 +61,33 @@ def _tables(design: Design, c, exp: Path) -> list[str]:
     units = {"gap_m": "m", "current_A": "A", "force_N": "N (columns of I_of_F_A)", "Fz_N": "N, [gap][current]",
              "kz_N_per_m": "N/m, [gap][current]", "ki_N_per_A": "N/A, [gap][current]", "I_of_F_A": "A, [gap][force]"}
     notes = ["Interpolation: bilinear in (gap, current) on these grids is accurate to the grid spacing squared;",
-             "force is exactly affine in current here, so interpolate along current linearly without loss.",
+             ("the iron's B-H curve makes the force non-affine in current: interpolate along current with care."
+              if getattr(c, "core_model", "none") == "cells" else
+              "force is exactly affine in current here, so interpolate along current linearly without loss."),
              f"Weight of the floater: {W!r} N; max current {imax!r} A."]
     write_atomic(exp / "tables.h", formats.c_header(design.name, arrays, units, notes))
     files.append(str(exp / "tables.h"))
     return files
+
+
+def _saturable_tables(design: Design, g, I, Fgrid, pattern):
+    """Fz, kz, ki = dF/dI and I(F) on the (gap, current) grid from the saturable family."""
+    from scipy.interpolate import CubicSpline
+
+    from fields import analysis
+
+    fam = analysis.axial_curves(design, gaps_m=g, currents_A=I, pattern=pattern)
+    Fz, kz = fam.Fup_N, fam.kz_N_per_m
+    ki = np.empty_like(Fz)
+    Iinv = np.full((len(g), len(Fgrid)), np.nan)
+    for i in range(len(g)):
+        s = CubicSpline(I, Fz[i])
+        ki[i] = s(I, 1)
+        for j, F in enumerate(Fgrid):
+            r = [x for x in s.solve(F, extrapolate=False) if I[0] <= x <= I[-1]]
+            if r:
+                Iinv[i, j] = min(r, key=abs)
+    return Fz, kz, ki, Iinv
 
 
 def _spice(design: Design, control, exp: Path) -> list[str]:
@@ -70,7 +98,10 @@ def _spice(design: Design, control, exp: Path) -> list[str]:
     t, prm = control.table, control.params
     sp = formats.spice_subcircuit(design.name, "hf_plant", t.positions_m, t.F0_N, t.Fk_N_per_A,
                                   prm.resistance_ohm, prm.inductance_H, prm.mass_kg,
-                                  prm.gravity_m_per_s2 or 0.0, prm.axis_name)
+                                  prm.gravity_m_per_s2 or 0.0, prm.axis_name,
+                                  inductance_note=("soft-iron core solved by ring cells at the hover current and "
+                                                   "operating gap; the coil datasheet lists L(gap)") if design.cores else
+                                  "air coil")
     write_atomic(exp / "plant.sub", sp)
     return [str(exp / "plant.sub")]
 
