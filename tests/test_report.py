@@ -110,19 +110,28 @@ def test_report_opens_in_headless_browser(report_dir, tmp_path):
 
 @pytest.mark.slow
 def test_csv_and_c_header_round_trip(report_dir):
+    import csv
+
     exp = report_dir / "exports"
-    arrays = formats.parse_c_header((exp / "tables.h").read_text())
     p = formats.c_ident(load(SUSPENSION).name) + "_"  # every C name carries the design's prefix
-    for csv_name, h_name in (("table_Fz.csv", "FZ_N"), ("table_kz.csv", "KZ_N_PER_M"), ("table_ki.csv", "KI_N_PER_A"),
-                             ("table_I_of_F.csv", "I_OF_F_A")):
-        cols, data = read_csv(exp / csv_name)
-        assert cols[0] == "gap_m"
-        # full precision in both files: the same binary64 values (IEEE 754-2008, sec. 5.12.2)
-        np.testing.assert_array_equal(data[:, 0], arrays[p + "GAP_M"])
-        table = data[:, 1:]
-        ok = np.isfinite(table)  # C has no NaN or infinity: those entries are the flag (NaN when read back)
-        np.testing.assert_array_equal(table[ok], arrays[p + h_name][ok])
-        assert np.all(np.isnan(arrays[p + h_name][~ok]))
+    for hname, single in (("tables.h", False), ("tables_float.h", True)):
+        arrays = formats.parse_c_header((exp / hname).read_text())
+        for csv_name, h_name, axis1, value in (("table_Fz.csv", "FZ_N", "current_A", "Fz_N"),
+                                               ("table_kz.csv", "KZ_N_PER_M", "current_A", "kz_N_per_m"),
+                                               ("table_ki.csv", "KI_N_PER_A", "current_A", "ki_N_per_A"),
+                                               ("table_I_of_F.csv", "I_OF_F_A", "force_N", "I_A")):
+            rows = list(csv.DictReader((exp / csv_name).read_text().splitlines()))  # long format, header first
+            assert list(rows[0]) == ["gap_m", axis1, value]
+            g = np.array(sorted({float(r["gap_m"]) for r in rows}))
+            x1 = np.array(sorted({float(r[axis1]) for r in rows}))
+            table = np.array([float(r[value]) if r[value] else math.nan for r in rows]).reshape(len(g), len(x1))
+            # full precision in both files: the same binary64 values (IEEE 754-2008, sec. 5.12.2);
+            # single precision: the nearest binary32
+            cast = (lambda a: a.astype(np.float32).astype(float)) if single else (lambda a: a)
+            np.testing.assert_array_equal(cast(g), cast(arrays[p + "GAP_M"]))
+            ok = np.isfinite(table)  # no value (beyond the max current): the flag in C, NaN when read back
+            np.testing.assert_array_equal(cast(table[ok]), cast(arrays[p + h_name][ok]))
+            assert np.all(np.isnan(arrays[p + h_name][~ok]))
     # the header itself round-trips binary64 exactly
     a = np.array([[1 / 3, -2.5e-7], [math.pi, 1e300]])
     back = formats.parse_c_header(formats.c_header("t", {"x": a}, {"x": "N"}, []))
@@ -133,12 +142,13 @@ def test_csv_and_c_header_round_trip(report_dir):
 def test_force_table_matches_the_curves(report_dir):
     cols, data = read_csv(report_dir / "exports" / "table_Fz.csv")
     ccols, cdata = read_csv(report_dir / "curves.csv")
-    # F(g, I) at I = 0 column equals F0 in curves.csv at the same gaps (independent export paths)
-    j0 = [i for i, c in enumerate(cols) if re.fullmatch(r"Fz_N_at_-?0A", c)]
-    assert j0
-    F0 = dict(zip(np.round(cdata[:, 0], 12), cdata[:, ccols.index("F0_N")]))
-    for row in data:
-        assert row[j0[0]] == pytest.approx(F0[round(row[0], 12)], rel=1e-8)
+    # F(g, I) at I = 0 equals F0 in curves.csv at the same gaps (independent export paths)
+    assert cols == ["gap_m", "current_A", "Fz_N"]
+    at0 = data[data[:, 1] == 0.0]
+    assert len(at0)
+    F0 = dict(zip(cdata[:, 0], cdata[:, ccols.index("F0_N")]))
+    for g, _, F in at0:
+        assert F == pytest.approx(F0[g], rel=1e-8)
 
 
 @pytest.mark.slow
@@ -334,11 +344,11 @@ def test_exported_mesh_is_closed_with_the_model_volume(report_dir):
     import trimesh
 
     d = load(SUSPENSION)
-    mesh = trimesh.load(str(report_dir / "exports" / "geometry.stl"), force="mesh")
+    mesh = trimesh.load(str(report_dir / "exports" / "geometry_mm.stl"), force="mesh")
     assert mesh.is_watertight
-    model = sum(s.volume_m3 for s in bodies.design_solids(d))
-    # STL stores float32 vertices: volume agrees to ~1e-6 relative
-    assert mesh.volume == pytest.approx(model, rel=1e-5)
+    model_mm3 = sum(s.volume_m3 for s in bodies.design_solids(d)) * 1e9
+    # the STL text keeps 10 significant digits per coordinate: volume agrees to ~1e-8 relative
+    assert mesh.volume == pytest.approx(model_mm3, rel=1e-6)
 
 
 def _complete(path: Path) -> bool:

@@ -218,7 +218,8 @@ def c_header(design_name: str, arrays: dict[str, np.ndarray], units: dict[str, s
 
 
 def force_tables_header(design_name: str, gap_m, current_A, force_N, Fz_N, kz_N_per_m, ki_N_per_A, I_of_F_A,
-                        max_current_A: float, weight_N: float, precision: str = "double") -> str:
+                        max_current_A: float, weight_N: float, precision: str = "double",
+                        affine_in_current: bool = True) -> str:
     """The firmware header of the force tables: F_z, k_z, k_i on (gap, current) and the inverse
     table I(gap, F), whose entries beyond +-``max_current_A`` (the coil cannot give that force)
     or not finite are ``<P>_NO_VALUE``; a lookup function per table (:func:`c_header`)."""
@@ -228,8 +229,9 @@ def force_tables_header(design_name: str, gap_m, current_A, force_N, Fz_N, kz_N_
     units = {"gap_m": "m", "current_A": "A", "force_N": "N (columns of I_of_F_A)", "Fz_N": "N, [gap][current]",
              "kz_N_per_m": "N/m, [gap][current]", "ki_N_per_A": "N/A, [gap][current]",
              "I_of_F_A": "A, [gap][force]: the current that gives force F at the gap"}
-    notes = ["Interpolation: bilinear in (gap, current) is accurate to the grid spacing squared; the force is",
-             "affine in current here, so interpolating along current loses nothing.",
+    notes = ["Interpolation: bilinear in (gap, current) is accurate to the grid spacing squared;",
+             ("the force is affine in current here, so interpolating along current loses nothing." if affine_in_current
+              else "the iron's B-H curve makes the force non-affine in current: interpolate along current with care."),
              f"Weight of the floater {weight_N!r} N; max current {imax!r} A."]
     tables = {"Fz_N": ("gap_m", "current_A"), "kz_N_per_m": ("gap_m", "current_A"),
               "ki_N_per_A": ("gap_m", "current_A"), "I_of_F_A": ("gap_m", "force_N")}

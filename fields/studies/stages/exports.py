@@ -23,7 +23,7 @@ class ExportsResult:
 def _tables(design: Design, c, exp: Path) -> list[str]:
     """Force, stiffness, force-per-ampere and inverse tables on a (gap, current) grid: CSV + C header."""
     from fields.io import formats
-    from fields.io.export import header_lines, write_atomic, write_csv
+    from fields.io.export import header_lines, write_atomic, write_long_csv
 
     files = []
     imax = c.max_current_A
@@ -47,26 +47,22 @@ def _tables(design: Design, c, exp: Path) -> list[str]:
             Iinv = (Fgrid[None, :] - F0[:, None]) / f[:, None]
         hdr = header_lines(design.name, "affine in current (iron-free): F_up(g, I) = F0(g) + I ki(g); "
                                         "k = -dF_up/dh; drive pattern " + str(c.pattern.tolist()))
-    for name, vals, what, colfmt, colvals in (
-            ("table_Fz.csv", Fz, "upward magnetic force Fz_N at gap (rows) and current (columns)", "Fz_N_at_{:.6g}A", I),
-            ("table_kz.csv", kz, "axial stiffness kz_N_per_m", "kz_N_per_m_at_{:.6g}A", I),
-            ("table_ki.csv", ki, "force per ampere ki_N_per_A", "ki_N_per_A_at_{:.6g}A", I),
-            ("table_I_of_F.csv", Iinv, "current I_A that gives force F (columns) at each gap; beyond +-max current the "
-             "coil cannot do it", "I_A_at_{:.6g}N", Fgrid)):
-        cols = ["gap_m"] + [colfmt.format(v) for v in colvals]
-        write_csv(exp / name, cols, [[gi, *row] for gi, row in zip(g, vals)], hdr + [f"# {what}"])
-        files.append(str(exp / name))
-    arrays = {"gap_m": g, "current_A": I, "force_N": Fgrid, "Fz_N": Fz, "kz_N_per_m": kz, "ki_N_per_A": ki,
-              "I_of_F_A": Iinv}
-    units = {"gap_m": "m", "current_A": "A", "force_N": "N (columns of I_of_F_A)", "Fz_N": "N, [gap][current]",
-             "kz_N_per_m": "N/m, [gap][current]", "ki_N_per_A": "N/A, [gap][current]", "I_of_F_A": "A, [gap][force]"}
-    notes = ["Interpolation: bilinear in (gap, current) on these grids is accurate to the grid spacing squared;",
-             ("the iron's B-H curve makes the force non-affine in current: interpolate along current with care."
-              if getattr(c, "core_model", "none") == "cells" else
-              "force is exactly affine in current here, so interpolate along current linearly without loss."),
-             f"Weight of the floater: {W!r} N; max current {imax!r} A."]
-    write_atomic(exp / "tables.h", formats.c_header(design.name, arrays, units, notes))
-    files.append(str(exp / "tables.h"))
+    reachable = np.isfinite(Iinv) & (np.abs(Iinv) <= imax)
+    by_current = {"gap_m": g, "current_A": I}
+    for name, values, what, axes in (
+            ("table_Fz.csv", {"Fz_N": Fz}, "upward magnetic force Fz_N at each gap and current", by_current),
+            ("table_kz.csv", {"kz_N_per_m": kz}, "axial stiffness kz_N_per_m at each gap and current", by_current),
+            ("table_ki.csv", {"ki_N_per_A": ki}, "force per ampere ki_N_per_A at each gap and current", by_current),
+            ("table_I_of_F.csv", {"I_A": np.where(reachable, Iinv, np.nan)},
+             "current I_A that gives the force force_N at each gap; empty where it would exceed +-max current",
+             {"gap_m": g, "force_N": Fgrid})):
+        write_long_csv(exp / name, axes, values, hdr + [what])
+        files += [str(exp / name), str(exp / (Path(name).stem + ".meta.json"))]
+    affine = getattr(c, "core_model", "none") != "cells"
+    for fname, precision in (("tables.h", "double"), ("tables_float.h", "single")):
+        write_atomic(exp / fname, formats.force_tables_header(design.name, g, I, Fgrid, Fz, kz, ki, Iinv, imax, W,
+                                                              precision=precision, affine_in_current=affine))
+        files.append(str(exp / fname))
     return files
 
 
@@ -118,9 +114,10 @@ def _meshes(design: Design, exp: Path):
     for name, m in meshes.items():
         scene.add_geometry(m, node_name=name, geom_name=name)
     whole = trimesh.util.concatenate(list(meshes.values()))
-    write_atomic(exp / "geometry.stl", whole.export(file_type="stl"))
+    stl = exp / f"geometry_{bodies.STL_UNIT}.stl"
+    write_atomic(stl, bodies.stl_text_mm(design))
     write_atomic(exp / "geometry.glb", scene.export(file_type="glb"))
-    return [str(exp / "geometry.stl"), str(exp / "geometry.glb")], whole
+    return [str(stl), str(exp / "geometry.glb")], whole
 
 
 def run_exports(design: Design, out: Path, curves, control=None) -> ExportsResult:
