@@ -57,11 +57,17 @@ GROWTH_RATIO = 1.5
 
 @dataclass(frozen=True)
 class SwitchStage:
-    """The power stage between the supply and the coil (module docstring)."""
+    """The power stage between the supply and the coil (module docstring).
+
+    ``current_limit_A``: a cycle-by-cycle current limit (the stage chops to keep ``|i|`` at the
+    limit), modelled by its average: at the limit the current is held there (the mean voltage
+    ``R i + k v``) until the comparator switches the other way. None: no limit.
+    """
 
     kind: str
     supply_voltage_V: float
     diode_drop_V: float = DIODE_DROP_V
+    current_limit_A: float | None = None
 
     def __post_init__(self) -> None:
         if self.kind not in SWITCH_KINDS:
@@ -205,6 +211,10 @@ class _Loop:
         ax, st = self.ax, self.st
         s, v, i = x[0], x[1], x[2]
         k = float(ax.force_per_ampere_N_per_A(s))
+        if mode in ("clamp_on", "clamp_off"):  # held at the current limit by chopping (average)
+            V = ax.resistance_ohm * i + k * v
+            acc = (float(ax.force_N(s, i)) - self.F0) / ax.mass_kg if math.isfinite(ax.mass_kg) else 0.0
+            return [v, acc, 0.0, ax.resistance_ohm * i * i, V * i]
         if mode == "on":
             V, Isup = st.on_voltage_V, i
         elif mode == "off":
@@ -257,6 +267,16 @@ def simulate_switched(axis: SwitchedAxis, stage: SwitchStage, half_band: float, 
         return x[2]
     ev_zero.terminal, ev_zero.direction = True, -1
 
+    ilim = stage.current_limit_A if stage.current_limit_A is not None else math.inf
+
+    def ev_lim_hi(t, x, *a):  # on: the current reaches +limit
+        return x[2] - ilim
+    ev_lim_hi.terminal, ev_lim_hi.direction = True, 1
+
+    def ev_lim_lo(t, x, *a):  # H-bridge off: the current reaches -limit
+        return x[2] + ilim
+    ev_lim_lo.terminal, ev_lim_lo.direction = True, -1
+
     x = np.array([s0_m, 0.0, I0, 0.0, 0.0])
     sg = lp.sigma(x)
     mode = "on" if sg < 0 else "off"
@@ -275,7 +295,11 @@ def simulate_switched(axis: SwitchedAxis, stage: SwitchStage, half_band: float, 
         if t >= t_end_s - 1e-15:
             break
         target = half if t < half - 1e-15 else t_end_s
-        evs = [ev_off] if mode == "on" else [ev_on] + ([ev_zero] if mode == "off" and stage.kind == "low_side" else [])
+        if mode in ("on", "clamp_on"):
+            evs = [ev_off] + ([ev_lim_hi] if mode == "on" and math.isfinite(ilim) else [])
+        else:
+            evs = [ev_on] + ([ev_zero] if mode == "off" and stage.kind == "low_side" else []) \
+                + ([ev_lim_lo] if mode == "off" and stage.kind == "h_bridge" and math.isfinite(ilim) else [])
         sol = solve_ivp(lp.rhs, (t, target), x, args=(mode,), method="RK45", rtol=1e-8, atol=1e-12,
                         events=evs + [ev_lo, ev_hi], max_step=mstep, dense_output=False)
         if sol.status < 0:
@@ -290,7 +314,7 @@ def simulate_switched(axis: SwitchedAxis, stage: SwitchStage, half_band: float, 
         rec_t += sol.t[keep].tolist() + [t_new]
         rec_s += sol.y[0][keep].tolist() + [x_new[0]]
         rec_i += sol.y[2][keep].tolist() + [x_new[2]]
-        if mode == "on" and t_new > half:
+        if mode in ("on", "clamp_on") and t_new > half:
             on_time_2nd += t_new - max(t, half)
         t, x = t_new, x_new
         if e_half is None and t >= half - 1e-15:
@@ -307,6 +331,12 @@ def simulate_switched(axis: SwitchedAxis, stage: SwitchStage, half_band: float, 
         elif name is ev_zero:
             x[2] = 0.0
             mode = "blocked"
+        elif name is ev_lim_hi:
+            x[2] = ilim
+            mode = "clamp_on"
+        elif name is ev_lim_lo:
+            x[2] = -ilim
+            mode = "clamp_off"
     else:
         raise SolverError(f"simulate_switched: more than {MAX_EVENTS} switching events (band too narrow)")
     T, S, Ic = np.array(rec_t), np.array(rec_s), np.array(rec_i)

@@ -46,7 +46,7 @@ class CaptureRegion:
     saturated_share : ndarray, shape (a, b)
         Share of samples with a drive at a limit.
     fate : ndarray of str, shape (a, b)
-        "held", or the last event of a lost run.
+        "held", "lost", "open swing" or "not settled" (see :func:`_fate`).
     t_end_s : float
     start : str
         How the controller state began (see :func:`simulate_multiaxis`).
@@ -68,6 +68,11 @@ class CaptureRegion:
     def held_fraction(self) -> float:
         return float(np.mean(self.held)) if self.held.size else 0.0
 
+    @property
+    def judged_fraction(self) -> float:
+        """Share of the grid that was judged (not an open swing out of the model box)."""
+        return float(np.mean(self.fate != "open swing")) if self.fate.size else 0.0
+
     def rows(self) -> tuple[list[str], list[list]]:
         """CSV-friendly: one row per start."""
         ua, ub = (_unit(a) for a in self.axes)
@@ -79,7 +84,9 @@ class CaptureRegion:
 
     def to_dict(self) -> dict:
         return jsonable({"axes": list(self.axes), "offsets_a": self.offsets_a, "offsets_b": self.offsets_b,
-                         "held_fraction": self.held_fraction, "t_end_s": self.t_end_s, "start": self.start,
+                         "held_fraction": self.held_fraction, "judged_fraction": self.judged_fraction,
+                         "fates": {f: int(np.sum(self.fate == f)) for f in ("held", "lost", "open swing", "not settled")},
+                         "t_end_s": self.t_end_s, "start": self.start,
                          "force_model_error": self.force_model_error})
 
 
@@ -104,10 +111,13 @@ def _unit(axis: str) -> str:
 
 
 def _fate(run) -> str:
+    """"held", "lost", "open swing" (left the model box only on axes no loop acts on: a stable
+    or neutral mode left open keeps swinging in the undamped model; not judged) or "not settled"."""
     if run.held:
         return "held"
-    lost = [e for e in run.events if "lost" in e]
-    return lost[-1] if lost else "not settled"
+    if run.left_box_axes:
+        return "open swing" if not set(run.left_box_axes) & set(run.converged_axes) else "lost"
+    return "not settled"
 
 
 def capture_region(plant: MultiaxisPlant, report: StructureReport, regulator: Regulator, model: ForceModel,

@@ -346,7 +346,7 @@ def _headroom(plant: MultiaxisPlant) -> np.ndarray:
 
 def design_lqg(plant: MultiaxisPlant, report: StructureReport, sample_rate: SampleRate | None = None,
                control_weight: float = 1.0, observer_noise_share: float = SENSOR_NOISE_SHARE,
-               current_weight: float = 1.0) -> Regulator:
+               current_weight: float = 0.0) -> Regulator:
     """LQR on the controlled modes with a Kalman predictor (module docstring, (b)).
 
     Parameters
@@ -359,7 +359,9 @@ def design_lqg(plant: MultiaxisPlant, report: StructureReport, sample_rate: Samp
         Multiplies the input weight of Bryson's rule (larger: gentler, slower).
     current_weight : float
         Multiplies Bryson's weight ``1/(current headroom)^2`` on the coil-current states of a
-        voltage-driven plant (0: currents free, as long as the voltage allows).
+        voltage-driven plant (default 0: currents free as long as the voltage allows; a weight
+        trades stability margin for gentler currents without extending the capture, since the
+        drive's current limit is simulated anyway).
     observer_noise_share : float
         Sensor noise standard deviation as a share of each sensor's full scale.
     """
@@ -400,7 +402,7 @@ def design_lqg(plant: MultiaxisPlant, report: StructureReport, sample_rate: Samp
              "design_states": 2 * r + ne}
     notes = [(f"LQR weights (Bryson): 1/(reference motion)^2 on each controlled mode (1 mm or 1 degree of its dominant "
              f"axis), 1/(headroom)^2 x {control_weight:g} on each input"
-             + (f", 1/(current headroom)^2 x {current_weight:g} on each coil current" if ne else "")),
+             + (f", 1/(current headroom)^2 x {current_weight:g} on each coil current" if ne and current_weight else "")),
              (f"Kalman predictor: sensor noise {observer_noise_share:g} of full scale; modal force noise p_max^2 x (reference "
              "motion) on each controlled mode")]
     return _evaluate(plant, report, reg, T, "lqg", Bd.copy(), sr, names, gains, notes, (Ad, Bd, Cr))

@@ -225,6 +225,8 @@ class MultiaxisSimulation:
     settled : bool
         Held, and the controlled modes and axes decayed below ``settle_share`` of their largest
         excursion (or of 0.1 mm / 0.1 deg) by the end of the run.
+    left_box_axes : tuple of str
+        The axes on which the floater left the force model's box (the run stops there).
     """
 
     t_s: np.ndarray
@@ -241,6 +243,7 @@ class MultiaxisSimulation:
     events: tuple[str, ...] = field(default_factory=tuple)
     force_model_error: dict = field(default_factory=dict)
     settled: bool = False
+    left_box_axes: tuple[str, ...] = ()
 
     def to_dict(self) -> dict:
         return jsonable({k: getattr(self, k) for k in self.__dataclass_fields__ if k not in ("q", "currents_A",
@@ -407,6 +410,7 @@ def simulate_multiaxis(plant: MultiaxisPlant, report: StructureReport, regulator
     sat = 0
     lost = False
     i_held = I0.copy()  # ideal current drive: the current applied over the last interval
+    left_axes: tuple = ()
     lqg_window = start == "measured" and regulator.estimator_model is not None
     n_open = window_samples(plant, regulator) if lqg_window else 0
     win_y, win_i = [], []
@@ -414,6 +418,7 @@ def simulate_multiaxis(plant: MultiaxisPlant, report: StructureReport, regulator
         q = x[:n]
         i_now = x[2 * n:] if drive != "current" else i_held
         if np.any(np.abs(q) > model.span * (1 + 1e-9)):
+            left_axes = tuple(a for a, d, s in zip(plant.free_axes, q, model.span) if abs(d) > s)
             events.append(f"t = {step * T:.4g} s: the floater left the modelled box (+-span) on "
                           f"{', '.join(a for a, d, s in zip(plant.free_axes, q, model.span) if abs(d) > s)}: lost")
             lost = True
@@ -484,13 +489,13 @@ def simulate_multiaxis(plant: MultiaxisPlant, report: StructureReport, regulator
             conv[a] = bool(final[j] <= settle_share * (SETTLE_FLOOR_M if a in ("x", "y", "z") else SETTLE_FLOOR_RAD))
     settled = held and all(conv.values())
     # held: not lost and the controlled motion does not grow (the last quarter's peak within
-    # GROWTH_LIMIT of the third quarter's) and ends inside half the box; a start that also
+    # GROWTH_LIMIT of the third quarter's, or below 0.1 mm / 0.1 deg) and ends inside half the box; a start that also
     # excites modes left open (undamped in the model) keeps them swinging, and the controlled
     # axes may follow that swing without ever decaying
     q3 = eta_all[len(eta_all) // 2:3 * len(eta_all) // 4]
     q4 = eta_all[3 * len(eta_all) // 4:]
-    bounded = (len(q3) > 0 and len(q4) > 0 and bool(np.all(np.max(q4, axis=0) <= np.maximum(GROWTH_LIMIT * np.max(q3, axis=0),
-                                                                                        floor)))
+    bounded = (len(q3) > 0 and len(q4) > 0
+               and bool(np.all(np.max(q4, axis=0) <= np.maximum(GROWTH_LIMIT * np.max(q3, axis=0), floor / settle_share)))
                and bool(np.all(final <= 0.5 * model.span)))
     held = (not lost) and (settled or bounded)
     if sat:
@@ -498,7 +503,7 @@ def simulate_multiaxis(plant: MultiaxisPlant, report: StructureReport, regulator
     return MultiaxisSimulation(np.array(ts), q_t, cur, np.array(vs).reshape(-1, k), np.array(ys).reshape(len(ts), -1),
                                held, conv, final, np.max(np.abs(q_t), axis=0), sat / max(len(ts), 1),
                                np.max(np.abs(cur), axis=0) if len(cur) else np.zeros(k), tuple(events),
-                               dict(model.relative_error), bool(settled))
+                               dict(model.relative_error), bool(settled), left_axes)
 
 
 def _settle_floor(plant: MultiaxisPlant, report: StructureReport) -> np.ndarray:
