@@ -533,13 +533,14 @@ def multiaxis_responses(runs: dict, free_axes, coil_names, title: str = ""):
     return fig
 
 
-def switched_runs(runs, linear=None, title: str = ""):
-    """On/off runs through a real switch: position and coil current versus time, per band."""
+def switched_runs(runs, linear=None, title: str = "", labels=None):
+    """On/off runs through a real switch: position and coil current versus time, per band
+    (``labels``: one legend text per run, default the band in the sensor's unit)."""
     fig, (ax, axi) = plt.subplots(2, 1, figsize=(8, 6), sharex=True)
-    for r in runs:
+    for n, r in enumerate(runs):
         if r.t_s.size < 2:
             continue
-        lab = f"band +-{r.band:.3g}: {r.status}"
+        lab = (labels[n] if labels is not None else f"band +-{r.band:.3g}") + f": {r.status}"
         ax.plot(r.t_s * 1e3, r.s_m * 1e3, lw=0.8, label=lab)
         axi.plot(r.t_s * 1e3, r.current_A, lw=0.8)
     if linear is not None:

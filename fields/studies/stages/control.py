@@ -176,7 +176,8 @@ def _axis_tables(design: Design, eq, ax, grid_points: int = 81):
 
 def _axis_sensor(design: Design, eq, ax, s_grid, poses, I0):
     """(name, Sensor, gain per m, crosstalk per A, unit) for the control axis: the beam gate for a
-    vertical axis when there is one, else the first Hall sensor, else an ideal position sensor."""
+    vertical axis when there is one, else the Hall sensor whose axis lines up best with the
+    control axis (the first on a tie), else an ideal position sensor."""
     from scipy.interpolate import CubicSpline
 
     from fields.devices import beam as sensmod
@@ -200,7 +201,10 @@ def _axis_sensor(design: Design, eq, ax, s_grid, poses, I0):
         spl = CubicSpline(s_grid, y)
         return sen.name, Sensor(lambda s, i: spl(s), rng, unit), float(spl(0.0, 1)), 0.0, unit
     if halls:
-        sen = halls[0]
+        # the Hall whose sensing axis lines up best with the control axis (a sideways axis needs
+        # the sensor that sees it; a vertical axis without a beam the one most along the vertical)
+        sen = max(halls, key=lambda h: abs(float(np.asarray(h.axis, float) @ ax.direction))
+                  / max(float(np.linalg.norm(h.axis)), 1e-300))
         pt = np.asarray(sen.position_m, float)[None, :]
         axis = np.asarray(sen.axis, float)
         y = np.array([float(np.ravel(np.asarray(floater_field_T(design, pt, p[None, :], r[None, :])).reshape(-1, 3)[0] @ axis)[0])
@@ -391,7 +395,8 @@ def _write_on_off(design: Design, out: Path, st) -> list[str]:
                                    "duty", "describing_function_frequency_Hz"], rows,
               header_lines(design.name, f"on/off control through a {st.switch} switch stage; compare "
                                         "linear_joule_power_W in control.json"))
-    fig = plots.switched_runs(st.runs, st.linear_trace, title=f"{design.name}: on/off control, {st.switch.replace('_', '-')} "
+    fig = plots.switched_runs(st.runs, st.linear_trace, labels=[f"band +-{h * 1e3:g} mm (as motion)" for h in st.half_band_equivalent_m],
+                              title=f"{design.name}: on/off control, {st.switch.replace('_', '-')} "
                                                                "switch (dashed: linear controller)")
     write_png(out / "on_off.png", fig)
     close_figure(fig)

@@ -90,9 +90,13 @@ def multiaxis_study(design: Design, equilibrium, inductance_H=None, with_capture
     try:
         rp = mx.check_structure(pdp, design)
         pd = mx.design_mode_pd(pdp, rp, sample_rate=sr)
+        if not (pd.stable and pd.stable_cold):
+            raise mx.DesignRefused("mode-space PD: " + "; ".join(n for n in pd.notes if n.startswith("not decoupled"))
+                                   + f"; its closed loop is unstable (largest |z| {pd.spectral_radius:.4g} hot, "
+                                     f"{pd.spectral_radius_cold:.4g} cold): use the LQG")
         pm = mx.mimo_margins(pdp, rp, pd)
     except mx.DesignRefused as e:
-        refusal = str(e)
+        pd, pm, refusal = None, None, str(e)
     if not with_capture:
         return MultiaxisOutcome(plant, report, sr, lqg, lm, pdp, pd, pm, refusal)
     model = mx.force_model(design, plant, span_length_m=BOX_LENGTH_M, span_angle_rad=BOX_ANGLE_RAD)

@@ -119,7 +119,8 @@ def switch_study(design, ax, params, plant, table, sensor, sensor_gain_per_m: fl
              f"cycle-by-cycle current limit at {params.max_current_A:.3g} A (modelled by its average: held at the limit)",
              f"coil at its hot resistance {R:.4g} ohm, inductance {L * 1e3:.4g} mH (pattern {np.asarray(ax.pattern).tolist()})",
              "describing function of a relay with hysteresis (Atherton 1975; Slotine & Li 1991, sec. 5.3) on the "
-             "linear plant: an estimate for comparison, not exact for an unstable plant"]
+             "linear plant (no current limit): an estimate for comparison, not exact for an unstable plant, and far off "
+             "when the current sits at its limit"]
     if ax.index != 2:
         notes.append("a sideways control axis studied alone (the other axes held): the single-loop view")
     return SwitchStudy(
