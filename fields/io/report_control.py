@@ -123,7 +123,8 @@ def _releases(ma: dict, out: Path) -> str:
                         + _n(v, f"{p}.max_deviation.{a}", "mm" if a.endswith("_m") else "deg", 3, 1e3 if a.endswith("_m") else _ANGLE)
                         for a, v in r["max_deviation"].items())
         rows.append([esc(k), "<b>held</b>" if r["held"] else "<b>LOST</b>", dev,
-                     _n(max(r["peak_current_A"]), f"{p}.peak_current_A", "A", 3),
+                     _n(max(r["peak_current_A"]), f"{p}.peak_current_A[{r['peak_current_A'].index(max(r['peak_current_A']))}]",
+                        "A", 3),
                      _n(r["saturated_share"], f"{p}.saturated_share", digits=2)])
     S.append(table(["release at rest from", "outcome", "largest excursion", "peak current", "share of samples at a limit"],
                    rows, left_cols=2))

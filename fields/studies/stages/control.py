@@ -435,7 +435,8 @@ def _authority_refusal(design: Design, err: Exception) -> dict | None:
 def _refused_result(design: Design, out: Path, refusal: dict, multiaxis: dict | None, pieces=None,
                     outcome=None) -> ControlResult:
     lines = (f"{design.name}: control REFUSED - the loop cannot be closed (no gains, no margins)",
-             *[f"  {r}" for r in refusal["reasons"]], *[f"  fix: {f}" for f in refusal["fix"]])
+             *[f"  {r}" for r in refusal["reasons"]], *[f"  fix: {f}" for f in refusal["fix"]],
+             *[f"  sensor {sn['name']}: {n}" for sn in (multiaxis or {}).get("sensors", []) for n in sn["notes"]])
     r = ControlResult(status="refused", route="multi-axis", summary=lines, refusal=refusal, multiaxis=multiaxis,
                       **_axis_fields(pieces), files=file_list(out, "control.json", *(["mimo_plant.csv"] if multiaxis else [])),
                       table=None if pieces is None else pieces.table, params=None if pieces is None else pieces.params,
@@ -462,6 +463,7 @@ def _summary(design, o, sa, st) -> tuple[str, ...]:
     md = o.report
     lines = [f"{design.name}: control over the free axes {', '.join(o.plant.free_axes)} (structure: {md.status})"]
     lines += [f"  mode {m.text}" for m in md.modes]
+    lines += [f"  sensor {sn.name}: {n}" for sn in o.plant.sensors for n in sn.notes]
     if md.status != "closable":
         return tuple(lines)
     lines.append(f"  sample rate {o.sample_rate.rate_Hz:g} Hz: {o.sample_rate.rule}")
