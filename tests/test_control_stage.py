@@ -120,7 +120,7 @@ def test_coil_without_vertical_pull_is_refused_with_no_authority(tmp_path, capsy
     refuse, name the mode and the missing authority, and print no gains or margins."""
     text = SUSPENSION.read_text().replace("axis = [0, 0, 1]             # positive current", "axis = [1, 0, 0]  # positive current")
     # no iron core (its attraction alone would pull at zero current); the gap is measured to the coil
-    text = re.sub(r"\[\[cores\]\].*?(?=\[floater\])", "", text, flags=re.S).replace('gap_reference = "iron core"',
+    text = re.sub(r"\[\[cores\]\].*?(?=\[floater\])", "", text, flags=re.DOTALL).replace('gap_reference = "iron core"',
                                                                                        'gap_reference = "lift coil"')
     p = tmp_path / "sideways_coil.toml"
     p.write_text(text)
@@ -143,7 +143,7 @@ def test_one_sensor_ring_variant_is_refused_by_the_stage(tmp_path):
     only its x-sensing Hall cannot see 'sideways y' and 'tilt about x'; the stage refuses, names
     both modes and suggests a y-sensing Hall; control.json has no gains or margins."""
     text = RING.read_text()
-    text = re.sub(r'\[\[sensors\]\]\ntype = "hall"\nname = "hall y".*?(?=\n\[study\])', "", text, flags=re.S)
+    text = re.sub(r'\[\[sensors\]\]\ntype = "hall"\nname = "hall y".*?(?=\n\[study\])', "", text, flags=re.DOTALL)
     p = tmp_path / "ring_one_hall.toml"
     p.write_text(text)
     d = load(p)
@@ -251,6 +251,6 @@ def _resolve(data, path: str):
             j = rest.index("]")
             node, rest = node[int(rest[1:j])], rest[j + 1:].lstrip(".")
             continue
-        key = max((k for k in node if rest == k or rest.startswith(k + ".") or rest.startswith(k + "[")), key=len)
+        key = max((k for k in node if rest == k or rest.startswith((k + ".", k + "["))), key=len)
         node, rest = node[key], rest[len(key):].lstrip(".")
     return node

@@ -180,8 +180,8 @@ def _axis_sensor(design: Design, eq, ax, s_grid, poses, I0):
     control axis (the first on a tie), else an ideal position sensor."""
     from scipy.interpolate import CubicSpline
 
-    from fields.devices import beam as sensmod
     from fields.control.plant import Sensor
+    from fields.devices import beam as sensmod
     from fields.physics.field_basis import fixed_field_basis, floater_field_T
 
     st = design.study
@@ -329,8 +329,13 @@ def _single_axis(design: Design, out: Path, pc: _AxisPieces):
     from fields import control as dyn
     from fields.io import plots
     from fields.io.wording import crosstalk_note, design_rules, plant_note
-    from fields.studies.stages.control_data import (controller_data, margins_data, plant_data, proportional_data,
-                                                    simulation_rows)
+    from fields.studies.stages.control_data import (
+        controller_data,
+        margins_data,
+        plant_data,
+        proportional_data,
+        simulation_rows,
+    )
 
     plant, params, table, sensor = pc.plant, pc.params, pc.table, pc.sensor
     T = _nice_sample_time(plant.min_sample_rate_Hz)

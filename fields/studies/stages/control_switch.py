@@ -111,16 +111,16 @@ def switch_study(design, ax, params, plant, table, sensor, sensor_gain_per_m: fl
             lin_pj = float(np.mean(linear_run.currents_A[sel] ** 2 @ Rk))
         pat = np.asarray(ax.pattern, float)
         trace = (t, linear_run.q[:, axis_index], linear_run.currents_A @ pat / max(pat @ pat, 1e-300))
-    notes = [f"switch: {kind.replace('_', '-')}: on {stage.on_voltage_V:g} V, off {stage.off_voltage_V:g} V"
-             + (" (flyback diode; the current never reverses)" if kind == "low_side" else " (the current may reverse)"),
-             f"comparator: sigma = (y - y0) + t_lead dy/dt, t_lead = 2/p = {lead * 1e3:.3g} ms; bands are the signal "
-             f"change for {', '.join(f'{b * 1e3:g}' for b in BAND_MOTIONS_M)} mm",
+    notes = [(f"switch: {kind.replace('_', '-')}: on {stage.on_voltage_V:g} V, off {stage.off_voltage_V:g} V"
+              + (" (flyback diode; the current never reverses)" if kind == "low_side" else " (the current may reverse)")),
+             (f"comparator: sigma = (y - y0) + t_lead dy/dt, t_lead = 2/p = {lead * 1e3:.3g} ms; bands are the signal "
+              f"change for {', '.join(f'{b * 1e3:g}' for b in BAND_MOTIONS_M)} mm"),
              f"start at rest {START_M * 1e3:g} mm from the equilibrium; measures over the second half of {RUN_S:g} s",
              f"cycle-by-cycle current limit at {params.max_current_A:.3g} A (modelled by its average: held at the limit)",
              f"coil at its hot resistance {R:.4g} ohm, inductance {L * 1e3:.4g} mH (pattern {np.asarray(ax.pattern).tolist()})",
-             "describing function of a relay with hysteresis (Atherton 1975; Slotine & Li 1991, sec. 5.3) on the "
-             "linear plant (no current limit): an estimate for comparison, not exact for an unstable plant, and far off "
-             "when the current sits at its limit"]
+             ("describing function of a relay with hysteresis (Atherton 1975; Slotine & Li 1991, sec. 5.3) on the "
+              "linear plant (no current limit): an estimate for comparison, not exact for an unstable plant, and far off "
+              "when the current sits at its limit")]
     if ax.index != 2:
         notes.append("a sideways control axis studied alone (the other axes held): the single-loop view")
     return SwitchStudy(
