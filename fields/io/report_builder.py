@@ -50,8 +50,9 @@ def _verdict(J: dict, failed: dict) -> list[str]:
             warnings += src.get("warnings", [])
     if stab:
         warnings += stab.get("notes", [])
-    if ctrl and ctrl.get("sensor_crosstalk_per_A"):
-        warnings.append(f"control: {ctrl['crosstalk_note']}")
+    from fields.io.report_control import warnings as control_warnings
+
+    warnings += control_warnings(ctrl)
     if warnings:
         S.append('<div class="warn"><h3>Warnings</h3><ul>' + "".join(f"<li>{esc(w)}</li>" for w in dict.fromkeys(warnings))
                  + "</ul></div>")
@@ -73,9 +74,9 @@ def _key_numbers(J: dict, out: Path) -> list[str]:
         rows.append(["axial stiffness k_z there (k = -dF/dz)", num(op["kz_at_hover_N_per_m"], "curves.json", "at_operating_gap.kz_at_hover_N_per_m", "N/m")])
     if stab:
         rows.append(["equilibrium gap (six-axis)", num(stab["equilibrium"]["gap_m"], "stability.json", "equilibrium.gap_m", "mm", scale=1e3)])
-    if ctrl:
-        rows.append([f"unstable pole ({esc(ctrl['axis'])})", num(ctrl["unstable_pole_rad_per_s"], "control.json", "unstable_pole_rad_per_s", "rad/s")])
-        rows.append(["minimum sample rate", num(ctrl["min_sample_rate_Hz"], "control.json", "min_sample_rate_Hz", "Hz")])
+    from fields.io.report_control import key_rows
+
+    rows += key_rows(ctrl)
     if coil:
         for i, c in enumerate(coil["coils"]):
             op = c["at_operating_point"]
@@ -168,69 +169,10 @@ def _sensors(sens: dict, out: Path) -> list[str]:
 
 
 def _control(J: dict, out: Path) -> list[str]:
-    """Plant, controller starting point, margins, simulations, on/off study."""
-    stab, curves, coil, sens, ctrl = (J[k] for k in _FILES)
-    S: list[str] = []
-    if ctrl:
-        u = ctrl["sensor_unit"]
-        pd = ctrl["controller_pd"]
-        pid = ctrl["controller_pid"]
-        m = ctrl["margins_pd"]
-        S.append(f"<h2>Control model along {esc(ctrl['axis'])}</h2>")
-        S.append(f"<p>Plant (voltage drive, states s, v, I; output the {esc(ctrl['sensor'])} signal in {esc(u)}): "
-                 f"unstable pole {num(ctrl['unstable_pole_rad_per_s'], 'control.json', 'unstable_pole_rad_per_s', 'rad/s')} "
-                 f"(time constant {num(ctrl['unstable_time_constant_s'], 'control.json', 'unstable_time_constant_s', 'ms', scale=1e3)}), "
-                 f"electrical pole R/L {num(ctrl['electrical_pole_rad_per_s'], 'control.json', 'electrical_pole_rad_per_s', 'rad/s')}; "
-                 f"sample at least {num(ctrl['min_sample_rate_Hz'], 'control.json', 'min_sample_rate_Hz', 'Hz')}, "
-                 f"loop delay at most {num(ctrl['max_loop_delay_s'], 'control.json', 'max_loop_delay_s', 'ms', scale=1e3)}. "
-                 "State-space matrices and transfer function: <code>plant.json</code>.</p>")
-        S.append("<ul>" + "".join(f"<li>{esc(r)}</li>" for r in ctrl["rules"]) + "</ul>")
-        g_rows = []
-        for name, c, key in (("PD (lead)", pd, "controller_pd"), ("PID", pid, "controller_pid")):
-            g_rows.append([name, num(c["crossover_rad_per_s"], "control.json", f"{key}.crossover_rad_per_s", "rad/s"),
-                           num(c[f"kp_A_per_{u}"], "control.json", f"{key}.kp_A_per_{u}", f"A/{u}"),
-                           num(c[f"kd_A_s_per_{u}"], "control.json", f"{key}.kd_A_s_per_{u}", f"A s/{u}"),
-                           num(c[f"ki_A_per_{u}_s"], "control.json", f"{key}.ki_A_per_{u}_s", f"A/({u} s)"),
-                           num(c["derivative_filter_tau_s"], "control.json", f"{key}.derivative_filter_tau_s", "ms", scale=1e3)])
-        S.append("<h3>Controller starting point</h3>" + table(["design", "crossover", "Kp", "Kd", "Ki", "derivative filter"], g_rows)
-                 + f"<p>Discrete form at T = {num(ctrl['sample_time_s'], 'control.json', 'sample_time_s', 'ms', scale=1e3)}: "
-                 f"{esc(pd['discretisation'])}; coefficients in <code>control.json</code>. Voltage drive uses an analog current "
-                 f"loop of gain {num(pd['current_loop_gain_V_per_A'], 'control.json', 'controller_pd.current_loop_gain_V_per_A', 'V/A')}.</p>")
-        an = pd.get("analog")
-        if an:
-            S.append("<p>Analog build (IEC 60063 series): "
-                     f"R1 {num(an['R1_ohm'], 'control.json', 'controller_pd.analog.R1_ohm', 'ohm')}, "
-                     f"C1 {num(an['C1_F'], 'control.json', 'controller_pd.analog.C1_F', 'nF', scale=1e9)}, "
-                     f"R3 {num(an['R3_ohm'], 'control.json', 'controller_pd.analog.R3_ohm', 'ohm')}, "
-                     f"R2 {num(an['R2_ohm'], 'control.json', 'controller_pd.analog.R2_ohm', 'ohm')}; "
-                     f"{esc(an['circuit'])}.</p>")
-        else:
-            S.append("<p>No practical single op-amp lead network fits these numbers; build it digitally.</p>")
-        lo, hi = m["gain_interval"]
-        S.append("<h3>Margins (PD)</h3><p>The open loop is unstable, so the loop is stable only for a band of gains: "
-                 f"{num(lo, 'control.json', 'margins_pd.gain_interval[0]', digits=3)} to "
-                 f"{num(hi, 'control.json', 'margins_pd.gain_interval[1]', digits=3)} times the design gain. Phase margin "
-                 f"{num(m['phase_margin_deg'], 'control.json', 'margins_pd.phase_margin_deg', 'deg', digits=3)}; "
-                 f"counter-clockwise encirclements of -1: {num(m['encirclements_ccw'], 'control.json', 'margins_pd.encirclements_ccw', digits=3)} "
-                 f"(unstable open-loop poles: {num(m['open_loop_unstable_poles'], 'control.json', 'margins_pd.open_loop_unstable_poles', digits=3)}); "
-                 f"peak sensitivity {num(m['peak_sensitivity'], 'control.json', 'margins_pd.peak_sensitivity', digits=3)}.</p>")
-        S.append(f"<p>Pure proportional feedback: {esc(ctrl['proportional_only']['explanation'])}</p>")
-        S.append(img(out / "control_bode.png", "Bode plot") + img(out / "control_nyquist.png", "Nyquist plot")
-                 + img(out / "control_step.png", "nonlinear responses") + img(out / "capture.png", "capture range"))
-        cb = ctrl["capture"]["band_m"]
-        S.append(f"<p>Capture band (starting at rest): {num(cb[0], 'control.json', 'capture.band_m[0]', '', scale=1e3)} to "
-                 f"{num(cb[1], 'control.json', 'capture.band_m[1]', 'mm', scale=1e3)} from the equilibrium.</p>")
-        h = ctrl["hysteresis"]
-        hrows = [[num(b, "control.json", f"hysteresis.band_widths_m[{i}]", "mm", scale=1e3), esc(h["status"][i]),
-                  num(h["amplitude_m"][i], "control.json", f"hysteresis.amplitude_m[{i}]", "mm", scale=1e3),
-                  num(h["frequency_Hz"][i], "control.json", f"hysteresis.frequency_Hz[{i}]", "Hz"),
-                  num(h["mean_joule_power_W"][i], "control.json", f"hysteresis.mean_joule_power_W[{i}]", "W")]
-                 for i, b in enumerate(h["band_widths_m"])]
-        S.append("<h3>On/off control with a hysteresis band</h3>" + table(["band", "outcome", "amplitude", "frequency", "coil power"], hrows, left_cols=0)
-                 + f"<p>The linear PD controller over the same run: amplitude "
-                 f"{num(h['linear_amplitude_m'], 'control.json', 'hysteresis.linear_amplitude_m', 'mm', scale=1e3)}, coil power "
-                 f"{num(h['linear_mean_joule_power_W'], 'control.json', 'hysteresis.linear_mean_joule_power_W', 'W')}.</p>")
-    return S
+    """The control section (:mod:`fields.io.report_control`)."""
+    from fields.io.report_control import control_section
+
+    return control_section(J["control.json"], out)
 
 
 def _accuracy(J: dict) -> list[str]:

@@ -9,9 +9,11 @@ Typical use::
     reg = mx.design_lqg(plant, report)                       # raises LoopNotClosable if refused
     margins = mx.mimo_margins(plant, report, reg)
     model = mx.force_model(design, plant)
-    run = mx.simulate_multiaxis(plant, report, reg, model, design)
+    run = mx.simulate_multiaxis(plant, report, reg, model, design)      # estimator started from measurements
+    region = mx.capture_region(plant, report, reg, model, design, ("z", "x"), offsets_z, offsets_x)
 """
 
+from fields.control.multiaxis.capture import CaptureRegion, LargestOffset, capture_region, largest_offset
 from fields.control.multiaxis.design import (
                                              Regulator,
                                              SampleRate,
@@ -39,6 +41,7 @@ from fields.control.multiaxis.simulate import (
                                              default_start,
                                              force_model,
                                              simulate_multiaxis,
+                                             window_samples,
 )
 from fields.control.multiaxis.structure import (
                                              DesignRefused,
@@ -50,10 +53,42 @@ from fields.control.multiaxis.structure import (
 )
 
 __all__ = [
-    "ChannelMargins", "DesignRefused", "DiskMargin", "ForceModel", "LoopNotClosable", "MimoMargins", "ModeCheck",
-    "MultiaxisPlant", "MultiaxisSimulation", "Regulator", "SampleRate", "SensorModel", "SensorSuggestion",
-    "StructureReport", "beam_fraction_at_poses", "check_structure", "choose_sample_rate", "coil_resistances",
-    "compensated_output", "default_start", "design_lqg", "design_mode_pd", "disk_gain_phase",
-    "disk_margins_from_loop", "force_model", "hall_parts", "input_loop", "mimo_margins", "multiaxis_plant",
-    "passive_regulator", "sensor_readings", "simulate_multiaxis", "zoh",
+                                             "CaptureRegion",
+                                             "ChannelMargins",
+                                             "DesignRefused",
+                                             "DiskMargin",
+                                             "ForceModel",
+                                             "LargestOffset",
+                                             "LoopNotClosable",
+                                             "MimoMargins",
+                                             "ModeCheck",
+                                             "MultiaxisPlant",
+                                             "MultiaxisSimulation",
+                                             "Regulator",
+                                             "SampleRate",
+                                             "SensorModel",
+                                             "SensorSuggestion",
+                                             "StructureReport",
+                                             "beam_fraction_at_poses",
+                                             "capture_region",
+                                             "check_structure",
+                                             "choose_sample_rate",
+                                             "coil_resistances",
+                                             "compensated_output",
+                                             "default_start",
+                                             "design_lqg",
+                                             "design_mode_pd",
+                                             "disk_gain_phase",
+                                             "disk_margins_from_loop",
+                                             "force_model",
+                                             "hall_parts",
+                                             "input_loop",
+                                             "largest_offset",
+                                             "mimo_margins",
+                                             "multiaxis_plant",
+                                             "passive_regulator",
+                                             "sensor_readings",
+                                             "simulate_multiaxis",
+                                             "window_samples",
+                                             "zoh",
 ]

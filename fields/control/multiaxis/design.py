@@ -129,6 +129,10 @@ class Regulator:
     gains : dict
         Design numbers (JSON-ready arrays).
     notes : tuple of str
+    estimator_model : tuple or None
+        LQG only: ``(Ad, Bd, C)`` of the design model the predictor runs on (states: the
+        controlled modal coordinates, their rates, the coil currents), for starting the
+        estimate from measurements (:func:`fields.control.multiaxis.simulate.simulate_multiaxis`).
     """
 
     kind: str
@@ -144,13 +148,14 @@ class Regulator:
     stable_cold: bool
     gains: dict
     notes: tuple[str, ...] = field(default_factory=tuple)
+    estimator_model: tuple | None = None
 
     @property
     def dt(self) -> float:
         return float(self.ss.dt) if self.ss is not None and self.ss.dt not in (None, True) else 0.0
 
     def to_dict(self) -> dict:
-        d = {k: getattr(self, k) for k in self.__dataclass_fields__ if k not in ("ss", "sample_rate")}
+        d = {k: getattr(self, k) for k in self.__dataclass_fields__ if k not in ("ss", "sample_rate", "estimator_model")}
         if self.ss is not None:
             d["A"], d["B"], d["C"], d["D"] = self.ss.A, self.ss.B, self.ss.C, self.ss.D
         d["sample_rate"] = None if self.sample_rate is None else {
@@ -222,7 +227,7 @@ def spectral_radius_outside(poles: np.ndarray, open_eigs: np.ndarray) -> float:
     return float(np.max(np.abs(poles[keep]))) if np.any(keep) else 0.0
 
 
-def _evaluate(plant, report, reg, T, kind, aw, sr, names, gains, notes) -> Regulator:
+def _evaluate(plant, report, reg, T, kind, aw, sr, names, gains, notes, model=None) -> Regulator:
     C, _ = compensated_output(plant)
     Ad, Bd = zoh(plant.A, plant.B, T)
     Ad2, Bd2 = zoh(plant.A_cold, plant.B_cold, T)
@@ -232,7 +237,7 @@ def _evaluate(plant, report, reg, T, kind, aw, sr, names, gains, notes) -> Regul
     r1, r2 = spectral_radius_outside(p, oe), spectral_radius_outside(p2, oe)
     tol = 1e-9
     return Regulator(kind, reg, aw, sr, tuple(names), p, p2, r1, r2, bool(r1 < 1 - tol), bool(r2 < 1 - tol),
-                     gains, tuple(notes))
+                     gains, tuple(notes), model)
 
 
 def _require(report: StructureReport) -> None:
@@ -340,7 +345,8 @@ def _headroom(plant: MultiaxisPlant) -> np.ndarray:
 
 
 def design_lqg(plant: MultiaxisPlant, report: StructureReport, sample_rate: SampleRate | None = None,
-               control_weight: float = 1.0, observer_noise_share: float = SENSOR_NOISE_SHARE) -> Regulator:
+               control_weight: float = 1.0, observer_noise_share: float = SENSOR_NOISE_SHARE,
+               current_weight: float = 0.0) -> Regulator:
     """LQR on the controlled modes with a Kalman predictor (module docstring, (b)).
 
     Parameters
@@ -351,6 +357,11 @@ def design_lqg(plant: MultiaxisPlant, report: StructureReport, sample_rate: Samp
         Default :func:`choose_sample_rate`.
     control_weight : float
         Multiplies the input weight of Bryson's rule (larger: gentler, slower).
+    current_weight : float
+        Multiplies Bryson's weight ``1/(current headroom)^2`` on the coil-current states of a
+        voltage-driven plant (default 0: currents free as long as the voltage allows; a weight
+        trades stability margin for gentler currents without extending the capture, since the
+        drive's current limit is simulated anyway).
     observer_noise_share : float
         Sensor noise standard deviation as a share of each sensor's full scale.
     """
@@ -368,6 +379,8 @@ def design_lqg(plant: MultiaxisPlant, report: StructureReport, sample_rate: Samp
     ne = Ar.shape[0] - 2 * r
     qd = np.zeros(Ar.shape[0])
     qd[:r] = [1.0 / m.reference_amplitude**2 for m in modes]
+    if ne:  # coil currents are states (voltage drive): Bryson's weight on their headroom too
+        qd[2 * r:] = current_weight / np.maximum(plant.max_current_A - np.abs(plant.bias_currents_A), 1e-300) ** 2
     Q = np.diag(qd)
     R = np.diag(control_weight / _headroom(plant) ** 2)
     K, _, _ = control.dlqr(Ad, Bd, Q, R)
@@ -388,7 +401,8 @@ def design_lqg(plant: MultiaxisPlant, report: StructureReport, sample_rate: Samp
              "estimator_poles": np.linalg.eigvals(Ad - L @ Cr), "separation_poles": sep,
              "design_states": 2 * r + ne}
     notes = [(f"LQR weights (Bryson): 1/(reference motion)^2 on each controlled mode (1 mm or 1 degree of its dominant "
-             f"axis), 1/(headroom)^2 x {control_weight:g} on each input"),
+             f"axis), 1/(headroom)^2 x {control_weight:g} on each input"
+             + (f", 1/(current headroom)^2 x {current_weight:g} on each coil current" if ne and current_weight else "")),
              (f"Kalman predictor: sensor noise {observer_noise_share:g} of full scale; modal force noise p_max^2 x (reference "
              "motion) on each controlled mode")]
-    return _evaluate(plant, report, reg, T, "lqg", Bd.copy(), sr, names, gains, notes)
+    return _evaluate(plant, report, reg, T, "lqg", Bd.copy(), sr, names, gains, notes, (Ad, Bd, Cr))

@@ -18,7 +18,8 @@ Rigid body
 Coils
     ``L i' = V - R i - (dW/dI)^T q'`` with the back-EMF from the pose-dependent bases
     (reciprocity), ``L`` constant (the plant's matrix), ``R`` the hot or cold resistance.
-    Voltage drive: ``V = clip(V0 + u, +-supply)``. Analog current loop: ``V = clip(R0 i_cmd +
+    Voltage drive: ``V = clip(V0 + u, +-supply)``, with the driver's current limit (a coil at
+    its max current gets the voltage that holds it there). Analog current loop: ``V = clip(R0 i_cmd +
     Kc (i_cmd - i), +-supply)`` with ``i_cmd = clip(I0 + u, +-max current)``. Ideal current
     drive: ``i = clip(I0 + u, +-max current)``.
 Digital controller
@@ -26,6 +27,18 @@ Digital controller
     is subtracted with the measured currents; the regulator's output computed from samples up
     to ``t_k`` is applied from ``t_{k+1}`` through a zero-order hold; the LQG predictor is fed
     the applied (saturated) input. Between samples, fixed-step fourth-order Runge-Kutta.
+Start
+    The floater is released at rest at a pose deviation, the coils at their bias. With
+    ``start="measured"`` the controller's state is started from measurements instead of from
+    the equilibrium (a predictor started at zero sees the whole offset as a surprise and its
+    velocity estimate, and so the command, jumps): the LQG predictor keeps the drive at its
+    bias for a short open-loop window of ``N`` samples (the fewest for which the sensor and
+    coil-current rows over the window determine its design state, plus one), then takes the
+    least-squares state on its own model over the window, predicted one sample ahead
+    (deadbeat/least-squares initialisation of an observer; e.g. Franklin, Powell & Workman,
+    Digital Control of Dynamic Systems, 3rd ed., 1998, sec. 8.2 and the observability matrix of
+    sec. 4.3); the mode-space PD starts bumpless, its filter states as if the first reading had
+    always been there (no derivative kick).
 
 Index letters: ``t`` time samples, ``n`` free axes, ``k`` coils, ``s`` sensors, ``p`` poses.
 """
@@ -50,6 +63,14 @@ from fields.physics.wrench import wrench_basis
 #: default box half-widths of the force model
 SPAN_LENGTH_M = 2e-3
 SPAN_ANGLE_RAD = math.radians(2.0)
+#: deviations below settle_share of these count as settled whatever the start (0.1 mm, 0.1 deg:
+#: a design scale, not physics)
+SETTLE_FLOOR_M = 1e-4
+SETTLE_FLOOR_RAD = math.radians(0.1)
+#: a controlled motion whose last-quarter peak exceeds this multiple of the third quarter's grows
+GROWTH_LIMIT = 1.2
+#: share of the max current at which the digital current limit of a voltage drive acts
+CURRENT_LIMIT_SHARE = 0.98
 #: a fitted column whose data stay below this share of its group's largest value is zero
 SYMMETRY_ZERO = 1e-9
 
@@ -188,8 +209,8 @@ class MultiaxisSimulation:
     outputs : ndarray, shape (t, s)
         Sensor outputs in their units (clipped at the range).
     held : bool
-        Stayed inside the modelled box and the controlled modes decayed below ``settle_share``
-        of their start within the run.
+        Stayed inside the modelled box and the controlled motion settled or, excited by modes
+        left open, stayed bounded without growing (see ``settled``).
     converged_axes : dict
         Per controlled axis (1 % or more of a controlled mode's kinetic energy): the deviation
         over the last 5 % of the run is below ``settle_share`` of its largest value. Axes left
@@ -201,6 +222,11 @@ class MultiaxisSimulation:
     peak_current_A : ndarray, shape (k,)
     events : tuple of str
     force_model_error : dict
+    settled : bool
+        Held, and the controlled modes and axes decayed below ``settle_share`` of their largest
+        excursion (or of 0.1 mm / 0.1 deg) by the end of the run.
+    left_box_axes : tuple of str
+        The axes on which the floater left the force model's box (the run stops there).
     """
 
     t_s: np.ndarray
@@ -216,6 +242,8 @@ class MultiaxisSimulation:
     peak_current_A: np.ndarray
     events: tuple[str, ...] = field(default_factory=tuple)
     force_model_error: dict = field(default_factory=dict)
+    settled: bool = False
+    left_box_axes: tuple[str, ...] = ()
 
     def to_dict(self) -> dict:
         return jsonable({k: getattr(self, k) for k in self.__dataclass_fields__ if k not in ("q", "currents_A",
@@ -272,14 +300,63 @@ def default_start(plant: MultiaxisPlant, report: StructureReport, regulator: Reg
     return q0 * min(1.0, headroom_share / worst) if worst > 0 else q0
 
 
+def window_samples(plant: MultiaxisPlant, regulator: Regulator) -> int:
+    """Samples of the open-loop window of the "measured" LQG start (module docstring): the
+    fewest for which the stacked sensor and current rows over the window have full rank, at
+    least 2, plus one for margin."""
+    Ad, _, C = regulator.estimator_model
+    k = plant.n_coils
+    ne = Ad.shape[0]
+    E = np.zeros((k, ne))
+    E[:, ne - k:] = np.eye(k) if plant.drive != "current" else np.zeros((k, k))
+    rows, P = [], np.eye(ne)
+    for m in range(1, 4 * ne + 2):
+        rows.append(np.vstack([C, E]) @ P)
+        P = Ad @ P
+        sv = np.linalg.svd(np.vstack(rows), compute_uv=False)
+        if m >= 2 and sv[-1] > 1e-9 * sv[0]:
+            return m + 1
+    raise ValueError("window_samples: the design model is not observable from the sensors and coil currents")
+
+
+def _window_estimate(plant: MultiaxisPlant, regulator: Regulator, ys: list, di: list) -> np.ndarray:
+    """Least-squares design state at the end of an open-loop window (deviations, no input)."""
+    Ad, _, C = regulator.estimator_model
+    k = plant.n_coils
+    ne = Ad.shape[0]
+    E = np.zeros((k, ne))
+    if plant.drive != "current":
+        E[:, ne - k:] = np.eye(k)
+    ws = np.array([1.0 / max(s.full_scale, 1e-300) for s in plant.sensors])
+    wi = 1.0 / np.maximum(plant.max_current_A, 1e-300)
+    H = np.vstack([ws[:, None] * C, wi[:, None] * E])
+    rows, rhs, P = [], [], np.eye(ne)
+    for y, i in zip(ys, di):
+        rows.append(H @ P)
+        rhs.append(np.concatenate([ws * y, wi * i]))
+        P = Ad @ P
+    z0, *_ = np.linalg.lstsq(np.vstack(rows), np.concatenate(rhs), rcond=None)
+    return P @ z0  # P = Ad^N: the prediction for the first closed-loop sample
+
+
+STARTS = ("measured", "zero")
+
+
 def simulate_multiaxis(plant: MultiaxisPlant, report: StructureReport, regulator: Regulator, model: ForceModel,
                        design: Design, q0=None, t_end_s: float = 1.0, corner: str = "hot",
-                       settle_share: float = 0.02) -> MultiaxisSimulation:
-    """Run the digital regulator against the nonlinear floater (module docstring)."""
+                       settle_share: float = 0.02, start: str = "measured") -> MultiaxisSimulation:
+    """Run the digital regulator against the nonlinear floater (module docstring).
+
+    ``start`` chooses how the controller's state begins when the floater is released at ``q0``
+    (at rest, coils at their bias): "measured" (default) starts it from measurements (see the
+    module docstring, Start); "zero" starts it at the equilibrium, as if the floater were there.
+    """
     n, k = plant.n_axes, plant.n_coils
     T = regulator.dt
     if T <= 0:
         raise ValueError("simulate_multiaxis: the regulator is not discrete (passive design: nothing to simulate)")
+    if start not in STARTS:
+        raise ValueError(f"simulate_multiaxis: start must be one of {STARTS}, got {start!r}")
     q0 = default_start(plant, report, regulator) if q0 is None else np.asarray(q0, float).reshape(n)
     M = plant.mass_matrix
     Minv = np.linalg.inv(M)
@@ -310,11 +387,10 @@ def simulate_multiaxis(plant: MultiaxisPlant, report: StructureReport, regulator
         dx[:n] = v
         dx[n:2 * n] = Minv @ W
         if drive == "voltage":
-            V = cmd
-            dx[2 * n:] = Linv @ (V - R * i - G @ v)
+            dx[2 * n:] = _limited_rate(Linv, cmd - R * i - G @ v, i, imax)
         elif drive == "current_loop":
             V = np.clip(R0 * cmd + Kc * (cmd - i), -Vs, Vs)
-            dx[2 * n:] = Linv @ (V - R * i - G @ v)
+            dx[2 * n:] = _limited_rate(Linv, V - R * i - G @ v, i, imax)
         return dx
 
     lam = np.max(np.abs(np.linalg.eigvals(plant.A))) if plant.A.size else 1.0
@@ -334,36 +410,57 @@ def simulate_multiaxis(plant: MultiaxisPlant, report: StructureReport, regulator
     sat = 0
     lost = False
     i_held = I0.copy()  # ideal current drive: the current applied over the last interval
+    left_axes: tuple = ()
+    lqg_window = start == "measured" and regulator.estimator_model is not None
+    n_open = window_samples(plant, regulator) if lqg_window else 0
+    win_y, win_i = [], []
     for step in range(steps + 1):
         q = x[:n]
         i_now = x[2 * n:] if drive != "current" else i_held
         if np.any(np.abs(q) > model.span * (1 + 1e-9)):
+            left_axes = tuple(a for a, d, s in zip(plant.free_axes, q, model.span) if abs(d) > s)
             events.append(f"t = {step * T:.4g} s: the floater left the modelled box (+-span) on "
                           f"{', '.join(a for a, d, s in zip(plant.free_axes, q, model.span) if abs(d) > s)}: lost")
             lost = True
             break
         y = _sensor_outputs(model, q, np.asarray(i_now, float), design)
-        u_cmd = Rg.C @ xi
+        ycomp = (y - Di @ np.asarray(i_now, float)) - (y0 - comp0)
+        if step == 0 and start == "measured" and not lqg_window and Rg.nstates:
+            # bumpless start: the filter states as if this first reading had always been there
+            xi = np.linalg.solve(np.eye(Rg.nstates) - Rg.A, Rg.B @ ycomp)
+        if step < n_open:
+            win_y.append(ycomp)
+            win_i.append(np.asarray(i_now, float) - I0)
+        elif lqg_window and step == n_open:
+            xi = _window_estimate(plant, regulator, win_y, win_i)
+        u_cmd = Rg.C @ xi if step >= n_open else np.zeros(k)
         if drive == "voltage":
             V = np.clip(plant.bias_voltages_V + u_cmd, -Vs, Vs)
+            # the driver's current limit, sample by sample: a coil near its limit that the command
+            # would push further gets the voltage that holds its current (the predictor is told)
+            i_arr = np.asarray(i_now, float)
+            near = (np.abs(i_arr) >= CURRENT_LIMIT_SHARE * imax) & (np.sign(V - R0 * i_arr) == np.sign(i_arr))
+            V = np.where(near, R0 * i_arr, V)
             applied = V - plant.bias_voltages_V
             cmd = V
-            hit = np.any(np.abs(V) >= Vs * (1 - 1e-12))
+            hit = np.any(np.abs(V) >= Vs * (1 - 1e-12)) or np.any(np.abs(i_now) >= imax * (1 - 1e-9))
         else:
             ic = np.clip(I0 + u_cmd, -imax, imax)
             applied = ic - I0
             cmd = ic
             hit = np.any(np.abs(ic) >= imax * (1 - 1e-12))
         sat += int(hit)
-        ycomp = (y - Di @ np.asarray(i_now, float)) - (y0 - comp0)
         ts.append(step * T)
         qs.append(q.copy())
         cs.append(np.asarray(i_now, float).copy())
         vs.append(cmd.copy() if drive == "voltage" else np.full(k, np.nan))
         ys.append(y)
-        xi = Rg.A @ xi + Rg.B @ ycomp + regulator.antiwindup @ (applied - u_cmd)
+        if step >= n_open:
+            xi = Rg.A @ xi + Rg.B @ ycomp + regulator.antiwindup @ (applied - u_cmd)
         for _ in range(sub):
             x = _rk4(lambda z, c=cmd: deriv(z, c), x, h)
+            if drive != "current":  # the limit holds within a step too (a chopping driver)
+                x[2 * n:] = np.clip(x[2 * n:], -imax, imax)
         if drive == "current":
             i_held = cmd
         if not np.all(np.isfinite(x)):
@@ -380,16 +477,45 @@ def simulate_multiaxis(plant: MultiaxisPlant, report: StructureReport, regulator
     for j, a in enumerate(plant.free_axes):
         if any(m.shares[a] >= 0.01 for m in ctrl):
             conv[a] = bool(final[j] <= settle_share * max(abs(q0[j]), np.max(np.abs(q_t[:, j]))))
-    eta_start = _controlled_coordinates(plant, report, q0)
-    eta_end = np.max(np.abs(np.array([_controlled_coordinates(plant, report, qq) for qq in q_t[-tail:]])), axis=0)
-    held = (not lost) and bool(np.all(eta_end <= settle_share * np.maximum(np.abs(eta_start), 1e-300))) \
-        and all(conv.values())
+    eta_all = np.abs(np.array([_controlled_coordinates(plant, report, qq) for qq in q_t]).reshape(len(q_t), -1))
+    eta_end = np.max(eta_all[-tail:], axis=0) if len(eta_all) else np.zeros(0)
+    # settled: below settle_share of the largest excursion, or below settle_share of the floor
+    # (a start on a mode left open barely moves the controlled ones, which then need no decay)
+    floor = settle_share * _settle_floor(plant, report)
+    big = np.max(eta_all, axis=0) if len(eta_all) else np.zeros(0)
+    held = (not lost) and bool(np.all(eta_end <= np.maximum(settle_share * big, floor)))
+    for j, a in enumerate(plant.free_axes):
+        if a in conv and not conv[a]:
+            conv[a] = bool(final[j] <= settle_share * (SETTLE_FLOOR_M if a in ("x", "y", "z") else SETTLE_FLOOR_RAD))
+    settled = held and all(conv.values())
+    # held: not lost and the controlled motion does not grow (the last quarter's peak within
+    # GROWTH_LIMIT of the third quarter's, or below 0.1 mm / 0.1 deg) and ends inside half the box; a start that also
+    # excites modes left open (undamped in the model) keeps them swinging, and the controlled
+    # axes may follow that swing without ever decaying
+    q3 = eta_all[len(eta_all) // 2:3 * len(eta_all) // 4]
+    q4 = eta_all[3 * len(eta_all) // 4:]
+    bounded = (len(q3) > 0 and len(q4) > 0
+               and bool(np.all(np.max(q4, axis=0) <= np.maximum(GROWTH_LIMIT * np.max(q3, axis=0), floor / settle_share)))
+               and bool(np.all(final <= 0.5 * model.span)))
+    held = (not lost) and (settled or bounded)
     if sat:
         events.append(f"a drive was at its limit in {sat} of {len(ts)} samples")
     return MultiaxisSimulation(np.array(ts), q_t, cur, np.array(vs).reshape(-1, k), np.array(ys).reshape(len(ts), -1),
                                held, conv, final, np.max(np.abs(q_t), axis=0), sat / max(len(ts), 1),
                                np.max(np.abs(cur), axis=0) if len(cur) else np.zeros(k), tuple(events),
-                               dict(model.relative_error))
+                               dict(model.relative_error), bool(settled), left_axes)
+
+
+def _settle_floor(plant: MultiaxisPlant, report: StructureReport) -> np.ndarray:
+    """Modal amplitude of SETTLE_FLOOR_M / SETTLE_FLOOR_RAD on each controlled mode's dominant axis."""
+    names = [m for m in report.controlled if report.mode(m).kind in ("unstable", "neutral")]
+    out = []
+    for nm in names:
+        m = report.mode(nm)
+        j = plant.free_axes.index(m.dominant_axis)
+        ref = SETTLE_FLOOR_M if m.dominant_axis in ("x", "y", "z") else SETTLE_FLOOR_RAD
+        out.append(ref / max(abs(m.shape[j]), 1e-300))
+    return np.array(out)
 
 
 def _controlled_coordinates(plant: MultiaxisPlant, report: StructureReport, q: np.ndarray) -> np.ndarray:
@@ -413,6 +539,22 @@ def _sensor_outputs(model: ForceModel, q, i, design: Design) -> np.ndarray:
             f = float(np.clip(v[c0], 0.0, 1.0))
             out.append(s.output_span_V * (1 - f) if s.output_span_V else f)
     return np.array(out)
+
+
+def _limited_rate(Linv: np.ndarray, w: np.ndarray, i: np.ndarray, imax: np.ndarray) -> np.ndarray:
+    """Coil current rates ``Linv w`` with the driver's current limit: a coil at its limit whose
+    current would grow further gets the voltage that holds it there (its rate set to zero, the
+    mutual coupling to the other coils kept)."""
+    di = Linv @ w
+    J = (np.abs(i) >= imax) & (np.sign(di) == np.sign(i))
+    if not np.any(J):
+        return di
+    F = ~J
+    w = w.copy()
+    w[J] = -np.linalg.solve(Linv[np.ix_(J, J)], Linv[np.ix_(J, F)] @ w[F]) if np.any(F) else 0.0
+    di = Linv @ w
+    di[J] = 0.0
+    return di
 
 
 def _rk4(f, x, h):
