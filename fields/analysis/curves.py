@@ -258,8 +258,6 @@ def _iron_curves(design: Design, gaps, cur, d, pos, rot) -> AxialCurves:
     mmax = np.maximum(fmax, 0.0) / g
     mmin = np.maximum(fmin, 0.0) / g
     mag = design.floater.magnet_mass_kg
-    inom = float(design.coils[0].nominal_current_A) if design.coils else 0.0
-    j_nom = int(np.argmin(np.abs(cur - inom)))
     # dki/dh of the affine model: the hover stiffness is then kz0 - I dki/dh; with cores use the
     # family's own k_z at the hover current instead (AxialCurves.kz_at_hover reads this field)
     dki = dfk

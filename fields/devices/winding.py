@@ -129,7 +129,8 @@ def coil_wire(coil: Coil) -> tuple[Wire, tuple[Notice, ...]]:
         assumed = float(coil.fill_factor) if coil.fill_factor else DEFAULT_FILL_FACTOR
         d = float(np.sqrt(4.0 * assumed * area / (np.pi * N)))
         source = "inferred"
-        notices.append(Notice("wire_inferred", coil.name, {"diameter_m": d, "turns": N, "fill": assumed}))
+        notices.append(Notice("wire_inferred", coil.name, {"diameter_m": d, "turns": N, "fill": assumed,
+                                                           "fill_given": coil.fill_factor is not None}))
     if not (np.isfinite(d) and d > 0):
         raise InputError(f"coil {coil.name}: the wire diameter must be positive; got {d!r}.")
     fill = N * np.pi * d * d / 4.0 / area

@@ -350,7 +350,7 @@ def _sensor(t: _Table, i: int):
 # --------------------------------------------------------------------------------------------
 
 
-def _study(t: _Table, fixed: tuple[Solid, ...], floater: Floater, file: str) -> Study:
+def _study(t: _Table, fixed: tuple[Solid, ...], floater: Floater, file: str, has_coils: bool = True) -> Study:
     t.done(("gap_min", "gap_max", "gap_points", "operating_gap", "gap_reference", "gap_side", "currents",
             "lateral_span", "lateral_points", "tilt_span", "tilt_points", "gravity", "gravity_direction",
             "supply_voltage", "floater_tilt_axis", "floater_tilt_angle", "floater_lateral_position",
@@ -429,7 +429,8 @@ def _study(t: _Table, fixed: tuple[Solid, ...], floater: Floater, file: str) -> 
         tilt_span_rad=t.quantity("tilt_span", "angle", math.radians(10.0), positive=True),
         tilt_points=int(t.number("tilt_points", 41, integer=True, minimum=3, maximum=100000)),
         gravity_m_per_s2=gravity,
-        supply_voltage_V=t.quantity("supply_voltage", "voltage", positive=True),
+        # a design without coils drives nothing: it needs no supply (NaN stands for "none")
+        supply_voltage_V=t.quantity("supply_voltage", "voltage", math.nan if not has_coils else ..., positive=True),
         floater_rotvec_rad=tilt_rot, free_axes=free,
         ambient_temperature_C=t.quantity("ambient_temperature", "temperature", 25.0),
         convection_W_per_m2K=t.quantity("convection_coefficient", "heat_transfer", 10.0, positive=True),
@@ -486,7 +487,7 @@ def loads(text: str, file: str = "<string>", base_dir: str | Path = ".", check_o
         magnet_solid(m, False) for m in magnets)
     if "study" not in data:
         raise GeometryError(f"{file}: study", "a design", "given a [study] section (gap_min, gap_max, supply_voltage, ...)", "none")
-    study = _study(root.sub("study"), fixed, floater, file)
+    study = _study(root.sub("study"), fixed, floater, file, has_coils=bool(coils))
     root.done(TOP_KEYS)
     design = Design(name=name, description=description, source=file, coils=coils, cores=cores,
                     magnets=magnets, floater=floater, sensors=sensors, study=study, invented=invented)

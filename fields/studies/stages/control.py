@@ -27,8 +27,7 @@ import numpy as np
 
 from fields import analysis
 from fields.errors import GeometryError, SolverError
-from fields.io.export import header_lines, write_csv, write_json, write_png
-from fields.io.serialize import internal, optional
+from fields.studies.result_fields import internal, optional
 from fields.model.design import Design
 from fields.studies.stages.common import close_figure, file_list, slug
 
@@ -225,6 +224,7 @@ def _axis_sensor(design: Design, eq, ax, s_grid, poses, I0):
 
 def _write_plant_csv(path: Path, design: Design, raw_plant, plant) -> None:
     """State-space matrices and transfer-function coefficients, one matrix entry per row."""
+    from fields.io.export import header_lines, write_csv
     rows = []
     for label, pl in (("as_wired", raw_plant), ("crosstalk_compensated", plant)):
         A, B, C, D = (np.atleast_2d(np.asarray(m, float)) for m in (pl.ss.A, pl.ss.B, pl.ss.C, pl.ss.D))
@@ -326,6 +326,7 @@ def _axis_pieces(design: Design, eq, ax, mplant) -> _AxisPieces:
 
 def _single_axis(design: Design, out: Path, pc: _AxisPieces):
     """PD/PID starting point, margins, simulations and 1-D capture band; writes their files."""
+    from fields.io.export import header_lines, write_csv, write_json, write_png
     from fields import control as dyn
     from fields.io import plots
     from fields.io.wording import crosstalk_note, design_rules, plant_note
@@ -390,7 +391,8 @@ def _single_axis(design: Design, out: Path, pc: _AxisPieces):
 
 
 def _write_on_off(design: Design, out: Path, st) -> list[str]:
-    from fields.io import plots
+    from fields.io.export import header_lines, write_csv, write_png
+    from fields.io import plots_control
 
     rows = list(zip(st.half_band_signal, st.half_band_equivalent_m, st.status, st.amplitude_m, st.frequency_Hz,
                     st.ripple_current_A, st.mean_current_A, st.joule_power_W, st.supply_power_W, st.duty,
@@ -400,7 +402,7 @@ def _write_on_off(design: Design, out: Path, st) -> list[str]:
                                    "duty", "describing_function_frequency_Hz"], rows,
               header_lines(design.name, f"on/off control through a {st.switch} switch stage; compare "
                                         "linear_joule_power_W in control.json"))
-    fig = plots.switched_runs(st.runs, st.linear_trace, labels=[f"band +-{h * 1e3:g} mm (as motion)" for h in st.half_band_equivalent_m],
+    fig = plots_control.switched_runs(st.runs, st.linear_trace, labels=[f"band +-{h * 1e3:g} mm (as motion)" for h in st.half_band_equivalent_m],
                               title=f"{design.name}: on/off control, {st.switch.replace('_', '-')} "
                                                                "switch (dashed: linear controller)")
     write_png(out / "on_off.png", fig)
@@ -439,6 +441,7 @@ def _authority_refusal(design: Design, err: Exception) -> dict | None:
 
 def _refused_result(design: Design, out: Path, refusal: dict, multiaxis: dict | None, pieces=None,
                     outcome=None) -> ControlResult:
+    from fields.io.export import write_json
     lines = (f"{design.name}: control REFUSED - the loop cannot be closed (no gains, no margins)",
              *[f"  {r}" for r in refusal["reasons"]], *[f"  fix: {f}" for f in refusal["fix"]],
              *[f"  sensor {sn['name']}: {n}" for sn in (multiaxis or {}).get("sensors", []) for n in sn["notes"]])
@@ -513,6 +516,7 @@ def run_control(design: Design, out: Path, stability=None, coil=None, switch: st
     reused. ``switch`` chooses the on/off stage ("auto", "low_side", "h_bridge");
     ``with_capture`` False skips the releases, capture region and on/off study (quick check).
     """
+    from fields.io.export import write_json
     from fields.studies.stages.control_multi import multiaxis_data, multiaxis_study, write_multiaxis_files
     from fields.studies.stages.control_switch import switch_study
     from fields.studies.stages.stability import run_stability

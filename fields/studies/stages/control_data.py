@@ -11,7 +11,6 @@ import math
 
 import numpy as np
 
-from fields.io.serialize import to_data
 
 
 def _f(x) -> float | None:
@@ -26,6 +25,7 @@ def _complex(z) -> dict[str, list]:
 
 def plant_data(p) -> dict:
     """plant.json entry of a :class:`fields.control.plant.Plant`."""
+    from fields.io.serialize import to_data
     from fields.io.wording import design_rules
 
     return {
@@ -49,6 +49,7 @@ def plant_data(p) -> dict:
 
 def analog_data(net) -> dict | None:
     """The op-amp network with its circuit sentence."""
+    from fields.io.serialize import to_data
     from fields.io.wording import circuit_text
 
     if net is None:
@@ -61,6 +62,7 @@ def analog_data(net) -> dict | None:
 
 def controller_data(c) -> dict:
     """control.json entry of a :class:`fields.control.design.ControllerDesign`."""
+    from fields.io.serialize import to_data
     from fields.io.wording import discretisation_text
 
     u = c.signal_unit

@@ -13,7 +13,6 @@ from pathlib import Path
 
 import numpy as np
 
-from fields.io.export import header_lines, write_csv, write_png
 from fields.model.design import Design
 from fields.studies.stages.common import close_figure, slug
 
@@ -236,7 +235,8 @@ def multiaxis_data(o: MultiaxisOutcome, coil=None) -> dict:
 
 def write_multiaxis_files(design: Design, out: Path, o: MultiaxisOutcome) -> list[str]:
     """mimo_plant.csv always; the releases and the capture region when they were run."""
-    from fields.io import plots
+    from fields.io.export import header_lines, write_csv, write_png
+    from fields.io import plots_control
 
     out = Path(out)
     head, rows = o.plant.matrix_rows()
@@ -250,7 +250,7 @@ def write_multiaxis_files(design: Design, out: Path, o: MultiaxisOutcome) -> lis
             f = f"mimo_sim_{slug(k)}.csv"
             write_csv(out / f, h, rr, header_lines(design.name, f"nonlinear multi-axis release '{k}'; held: {r.held}"))
             names.append(f)
-        fig = plots.multiaxis_responses({k: v for k, v in o.releases.items() if "zero" not in k and "PD" not in k},
+        fig = plots_control.multiaxis_responses({k: v for k, v in o.releases.items() if "zero" not in k and "PD" not in k},
                                         o.plant.free_axes, o.plant.coil_names,
                                         title=f"{design.name}: nonlinear releases (LQG, hot coils)")
         write_png(out / "mimo_releases.png", fig)
@@ -261,7 +261,7 @@ def write_multiaxis_files(design: Design, out: Path, o: MultiaxisOutcome) -> lis
         write_csv(out / "capture_region.csv", h, rr,
                   header_lines(design.name, f"capture region: release at rest from each start, LQG, {o.region.t_end_s:g} s; "
                                             f"force-model fit error {o.region.force_model_error}"))
-        fig = plots.capture_region_map(o.region, title=f"{design.name}: capture region (LQG, measured start)")
+        fig = plots_control.capture_region_map(o.region, title=f"{design.name}: capture region (LQG, measured start)")
         write_png(out / "capture_region.png", fig)
         close_figure(fig)
         names += ["capture_region.csv", "capture_region.png"]

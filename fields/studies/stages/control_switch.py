@@ -13,7 +13,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fields.io.serialize import internal
+from fields.studies.result_fields import internal
 
 #: band half-widths on the sensor signal, as the signal change of these motions along the axis
 BAND_MOTIONS_M = (0.05e-3, 0.1e-3, 0.2e-3, 0.5e-3)

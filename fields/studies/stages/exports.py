@@ -129,7 +129,7 @@ def run_exports(design: Design, out: Path, curves, control=None) -> ExportsResul
 
     exp = Path(out) / "exports"
     files = _tables(design, curves.curves, exp)
-    if control is not None:
+    if control is not None and getattr(control, "table", None) is not None:  # a single-axis plant exists
         files += _spice(design, control, exp)
     mesh_files, whole = _meshes(design, exp)
     files += mesh_files
