@@ -33,13 +33,7 @@ CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
 NGSPICE = shutil.which("ngspice")
 
 
-@pytest.fixture(scope="module")
-def report_dir(tmp_path_factory):
-    out = tmp_path_factory.mktemp("report")
-    # the README's Quick start command, run in-process
-    rc = cli.main(["report", str(SUSPENSION), "-o", str(out), "-q"])
-    assert rc == 0
-    return out
+# report_dir: the README's Quick start command run once per session (tests/conftest.py)
 
 
 class _Nums(HTMLParser):

@@ -235,6 +235,12 @@ def _iron_curves(design: Design, gaps, cur, d, pos, rot) -> AxialCurves:
         F0[ok], dF0[ok] = uz * fam.F0_N, fam.dF0_dz_N_per_m
         fk[ok], dfk[ok] = uz * (fam.Fk_N_per_A @ d), fam.dFk_dz_N_per_A_m @ d
         sat[ok] = fam.saturated
+        # the zero-current force and stiffness from the saturable solve itself where the family has
+        # I = 0 (the floater magnet alone can saturate the core locally: F0 is then not the
+        # unsaturated intercept); ki stays the unsaturated response per ampere
+        zero = np.flatnonzero(cur == 0.0)
+        if zero.size:
+            F0[ok], dF0[ok] = Fup[ok, zero[0]], dF[ok, zero[0]]
     # heights along up: h = uz z, so dF_up/dh = dFz/dz
     kz = -dF
     kz0 = -dF0

@@ -86,7 +86,7 @@ def pose_map(design: Design, kind: str = "lateral", gaps_m=None, coordinate=None
     for a in range(0, len(P), chunk):
         # maps use the plain cap rule: fast, accurate to ~1e-3 within a few mm of a source edge
         b = (wrench_basis(design, P[a:a + chunk], Rv[a:a + chunk], order="fast", estimate_error=False, near_field=False)
-             if cells else wrench_basis(design, P[a:a + chunk], Rv[a:a + chunk], near_field=False))
+             if cells else wrench_basis(design, P[a:a + chunk], Rv[a:a + chunk], estimate_error=False, near_field=False))
         F[a:a + chunk] = b.force(I) if len(I) else b.F0_N
         T[a:a + chunk] = b.torque(I) if len(I) else b.T0_Nm
         contact[a:a + chunk] = b.contact

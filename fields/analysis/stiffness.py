@@ -98,7 +98,8 @@ def stiffness_matrix(design: Design, position_m, rotvec_rad, currents_A=None,
         from fields.physics.wrench import wrench
 
         return finish(_AtCurrents(wrench(design, P, Rv, I, estimate_error=False)), I)
-    return finish(wrench_basis(design, P, Rv), I)
+    # the error bar is the finite-difference one (Richardson); no second quadrature level needed
+    return finish(wrench_basis(design, P, Rv, estimate_error=False), I)
 
 
 class _AtCurrents:
@@ -171,7 +172,7 @@ def stiffness_versus_gap(design: Design, gaps_m=None, currents_A=None, at_hover:
     if design.cores:  # every pose needs its own iron response: the fast rule and the coarse cell level
         b = wrench_basis(design, P, Rv, order="fast", estimate_error=False, near_field=False)
     else:
-        b = wrench_basis(design, P, Rv, near_field=False)
+        b = wrench_basis(design, P, Rv, estimate_error=False, near_field=False)
     m = 2 * len(axes)
     F0 = b.F0_N.reshape(len(gaps), m, 3)
     T0 = b.T0_Nm.reshape(len(gaps), m, 3)

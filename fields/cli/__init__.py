@@ -10,7 +10,15 @@ import the numerical stack only when they run.
 from __future__ import annotations
 
 import argparse
+import os
 import sys
+
+# The solver's linear algebra is many small and medium factorisations; a multithreaded BLAS pool
+# on top of the sweep's worker processes oversubscribes the cores and runs many times slower
+# (measured on a 2-core machine). One BLAS thread per process unless the user chose otherwise;
+# this must happen before numpy is first imported (the subcommand modules import it lazily).
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
 
 from fields import __version__
 from fields.cli import check, coil, control, curves, figures, report, sensors, stability, sweep

@@ -540,3 +540,5 @@ def objectives_vs_categories(parameters: dict, objectives: dict, feasible, categ
             ax.tick_params(labelsize=7)
     axes[0, 0].legend(fontsize=7, loc="best")
     fig.suptitle(title or "objectives versus parameters", fontsize=11)
+    fig.tight_layout()
+    return fig

@@ -112,8 +112,8 @@ def _releases(ma: dict, out: Path) -> str:
          "the force engine over the box "
          + ", ".join(f"{esc(k)} +-{_n(v, 'multiaxis.force_model.box_half_width.' + k, digits=3, scale=1e3 if k.endswith('_m') else _ANGLE)}"
                      f" {'mm' if k.endswith('_m') else 'deg'}" for k, v in ma["force_model"]["box_half_width"].items())
-         + "; largest validation error (relative): "
-         + ", ".join(f"{esc(k)} {_n(v, 'multiaxis.force_model.relative_error.' + k, digits=2)}"
+         + "; largest validation error: "
+         + ", ".join(f"{esc(k)} {_n(v, 'multiaxis.force_model.relative_error.' + k, digits=2, scale=100.0)} %"
                      for k, v in ma["force_model"]["relative_error"].items())
          + ". Sampling, one-sample delay, voltage and current limits and the coil's electrical dynamics are simulated.</p>"]
     rows = []

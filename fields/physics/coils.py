@@ -17,7 +17,7 @@ from scipy.constants import mu_0
 
 from fields.model.design import Coil, rotation_matrix
 from fields.physics.checks import input_error
-from fields.physics.kernels import CHUNK, to_own_frame
+from fields.physics.kernels import CHUNK, blocked, to_own_frame
 from fields.physics.quadrature import gauss_legendre
 
 #: observers beyond an end face of a winding and closer to it than this fraction of the winding's
@@ -134,8 +134,8 @@ def coil_field_per_ampere_T(coil: Coil, points_m, layers: int = 8,
         for s in range(0, rr.shape[0], per):
             ri, Ji = rr[s : s + per], scale * ww[s : s + per]
             L = ri.shape[0]
-            Bc = magpy.core.magnet_cylinder_axial_Bfield((0.5 * h / ri).reshape(-1), (rho[idx][None, :] / ri).reshape(-1),
-                                                        (z[idx][None, :] / ri).reshape(-1))
+            Bc = blocked(magpy.core.magnet_cylinder_axial_Bfield, np.broadcast_to(0.5 * h / ri, (L, m)).reshape(-1),
+                         (rho[idx][None, :] / ri).reshape(-1), (z[idx][None, :] / ri).reshape(-1))
             Br[idx] += (Bc[0].reshape(L, m) * Ji).sum(axis=0)
             Bz[idx] += (Bc[2].reshape(L, m) * Ji).sum(axis=0)
     with np.errstate(invalid="ignore", divide="ignore"):

@@ -52,13 +52,17 @@ def _stiffness_columns(design: Design, op) -> dict[str, Any]:
     d = analysis.drive_pattern(design)
     eq = op.equilibrium
     P, Rv, finish = analysis.stiffness_stencil(design, eq.position_m, eq.rotvec_rad)
-    b = wrench_basis(design, P, Rv)
+    saturable = bool(design.cores) and len(design.coils) > 0
+    # with cores the stiffness comes from the saturable solve at the operating currents (the
+    # report's rule, analysis.stiffness_matrix); the basis at the centre pose gives k_i there
+    b = wrench_basis(design, P[-1:], Rv[-1:]) if saturable else wrench_basis(design, P, Rv)
     out: dict[str, Any] = {"ki_N_per_A": float((b.Fk_N_per_A[-1] @ up) @ d) if len(design.coils) else 0.0,
                            "contact": bool(np.any(b.contact)), "core_saturation": False}
     if out["contact"]:
         out.update({c: math.nan for c in _STIFFNESS_COLUMNS})
         return out
-    stiff = finish(b, op.currents_A)
+    stiff = (analysis.stiffness_matrix(design, eq.position_m, eq.rotvec_rad, op.currents_A) if saturable
+             else finish(b, op.currents_A))
     K = stiff.K
     kz = float(up @ K[:3, :3] @ up)
     out["kz_N_per_m"] = kz

@@ -53,7 +53,7 @@ class MultiaxisOutcome:
 def _practical_starts(plant, report) -> dict:
     """0.5 mm along x and z, 1 degree about the first tilt axis (those that are free)."""
     out = {}
-    for a, v, label in (("x", PRACTICAL_LENGTH_M, "sideways x 0.5 mm"), ("z", PRACTICAL_LENGTH_M, "vertical 0.5 mm"),
+    for a, v, label in (("x", PRACTICAL_LENGTH_M, "sideways x 500 um"), ("z", PRACTICAL_LENGTH_M, "vertical 500 um"),
                         ("ry", PRACTICAL_ANGLE_RAD, "tilt about y 1 deg"), ("rx", PRACTICAL_ANGLE_RAD, "tilt about x 1 deg")):
         if a in plant.free_axes and not (label.startswith("tilt about x") and "ry" in plant.free_axes):
             q = np.zeros(plant.n_axes)
@@ -101,13 +101,13 @@ def multiaxis_study(design: Design, equilibrium, inductance_H=None, with_capture
     model = mx.force_model(design, plant, span_length_m=BOX_LENGTH_M, span_angle_rad=BOX_ANGLE_RAD)
     releases = {k: mx.simulate_multiaxis(plant, report, lqg, model, design, q0=q, t_end_s=RELEASE_S)
                 for k, q in _practical_starts(plant, report).items()}
-    releases["vertical 0.5 mm, estimator started at zero"] = mx.simulate_multiaxis(
-        plant, report, lqg, model, design, q0=_practical_starts(plant, report).get("vertical 0.5 mm",
+    releases["vertical 500 um, estimator started at zero"] = mx.simulate_multiaxis(
+        plant, report, lqg, model, design, q0=_practical_starts(plant, report).get("vertical 500 um",
                                                                                     np.zeros(plant.n_axes)),
         t_end_s=RELEASE_S, start="zero")
     if pd is not None:
-        releases["vertical 0.5 mm, mode-space PD"] = mx.simulate_multiaxis(
-            pdp, report, pd, model, design, q0=_practical_starts(plant, report).get("vertical 0.5 mm",
+        releases["vertical 500 um, mode-space PD"] = mx.simulate_multiaxis(
+            pdp, report, pd, model, design, q0=_practical_starts(plant, report).get("vertical 500 um",
                                                                                      np.zeros(plant.n_axes)),
             t_end_s=RELEASE_S)
     tilt = "ry" if "ry" in plant.free_axes else ("rx" if "rx" in plant.free_axes else None)
