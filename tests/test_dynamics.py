@@ -492,6 +492,30 @@ def test_capture_range_agrees_with_solve_ivp(params, table):
         assert rout.events or abs(rout.s_m[-1]) >= cap.tolerance_m
 
 
+@pytest.mark.parametrize("n_s, n_v", [(41, 15), (40, 14), (7, 2), (5, 11)])
+def test_capture_grids_of_any_size_give_one_zero_row_and_a_picture(params, table, n_s, n_v):
+    """A symmetric linspace in velocity puts about -2.8e-17 where 0 was meant (floating-point
+    rounding of (-v + k dv), common practice, no source): that is the zero-velocity row, not an
+    extra one, so the map has exactly the grid's shape, even or odd; and the picture is drawn from
+    the result's own grids (a report once failed here with 'C (16, 41) incompatible with X (41)')."""
+    from fields.io import plots
+
+    c = design_controller(linear_plant(params, "current"), sample_time_s=T_S)
+    s0 = np.linspace(-0.004, 0.004, n_s)
+    vmax = 0.013801900950475237  # linspace(-vmax, vmax, 15)[7] is -1.7e-18 here, not 0
+    v0 = np.linspace(-vmax, vmax, n_v)
+    if n_v == 15:
+        assert v0[7] != 0.0  # the case that once added a row
+    cap = capture_range(params, table, c, s0, v0, t_end_s=0.2, band_refine_rounds=0)
+    extra = 0 if n_v % 2 else 1  # even counts have no middle point: 0 is added
+    assert cap.captured.shape == (n_s, n_v + extra)
+    assert np.count_nonzero(cap.v0_grid_m_per_s == 0.0) == 1
+    assert np.all(np.diff(cap.v0_grid_m_per_s) > 0)
+    fig = plots.capture_map(cap, title="t")
+    assert fig.axes
+    plots.close(fig)
+
+
 def test_hysteresis_study(params, table):
     c = design_controller(linear_plant(params, "current"), sample_time_s=T_S)
     bands = np.array([0.2e-3, 0.5e-3, 1e-3])

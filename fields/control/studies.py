@@ -72,7 +72,11 @@ class CaptureResult:
 
 def _capture_grids(s0_grid_m, v0_grid_m_per_s, table: ForceTable):
     s0g = np.sort(np.asarray(s0_grid_m, dtype=float).ravel())
-    v0g = np.asarray(v0_grid_m_per_s, dtype=float).ravel()
+    v0g = np.asarray(v0_grid_m_per_s, dtype=float).ravel().copy()
+    # a symmetric linspace puts -2.8e-17 where 0 was meant: that is the zero-velocity row, not a
+    # second one beside it (rounding of the grid, not a start the user asked for)
+    if v0g.size:
+        v0g[np.abs(v0g) <= 1e-12 * float(np.max(np.abs(v0g)))] = 0.0
     if not np.any(v0g == 0):
         v0g = np.concatenate([v0g, [0.0]])
     v0g = np.sort(v0g)

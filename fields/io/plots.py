@@ -322,10 +322,12 @@ def time_responses(sims: dict, title: str = ""):
     return fig
 
 
-def capture_map(cap, s0, v0, title: str = ""):
-    """Start positions and velocities from which the loop brings the floater to rest."""
+def capture_map(cap, title: str = ""):
+    """Start positions and velocities from which the loop brings the floater to rest, drawn on
+    the result's own grids (one source for the picture and capture.csv)."""
     from matplotlib.colors import ListedColormap
 
+    s0, v0 = cap.s0_grid_m, cap.v0_grid_m_per_s
     fig, ax = plt.subplots(figsize=(7.5, 4.8))
     ax.pcolormesh(np.asarray(s0) * 1e3, np.asarray(v0) * 1e3, np.asarray(cap.captured, float).T,
                   cmap=ListedColormap(["#f3a6a0", "#9fd8a4"]), vmin=0, vmax=1, shading="nearest")

@@ -376,12 +376,13 @@ def _single_axis(design: Design, out: Path, pc: _AxisPieces):
         write_csv(out / sim_files[k], rows[0], rows[1:],
                   header_lines(design.name, f"nonlinear simulation '{k}' along {sa.axis}; s from the equilibrium"))
     write_csv(out / "capture.csv", ["s0_m", "v0_m_per_s", "captured", "fate"],
-              [[a, b, bool(cap.captured[i, j]), str(cap.fate[i, j])] for i, a in enumerate(s0) for j, b in enumerate(v0)],
+              [[a, b, bool(cap.captured[i, j]), str(cap.fate[i, j])] for i, a in enumerate(cap.s0_grid_m)
+               for j, b in enumerate(cap.v0_grid_m_per_s)],
               header_lines(design.name, f"capture map along {sa.axis} with the PD starting controller"))
     for name, fig in (("control_bode.png", plots.bode(m_pd, title=f"{design.name}: loop with the PD starting design")),
                       ("control_nyquist.png", plots.nyquist(m_pd, title=f"{design.name}: Nyquist plot (PD)")),
                       ("control_step.png", plots.time_responses(sims, title=f"{design.name}: nonlinear responses along {sa.axis}")),
-                      ("capture.png", plots.capture_map(cap, s0, v0, title=f"{design.name}: capture range (PD)"))):
+                      ("capture.png", plots.capture_map(cap, title=f"{design.name}: capture range (PD)"))):
         write_png(out / name, fig)
         close_figure(fig)
     files = ["plant.json", "plant.csv", "capture.csv", *sim_files.values(), "control_bode.png", "control_nyquist.png",
