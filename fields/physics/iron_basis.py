@@ -290,15 +290,21 @@ def iron_field_at_currents(model: IronModel, points_m, positions_m, rotvecs_rad,
         bh = bh_f + H.b_magnets[None] + np.einsum("k,kmfx->mfx", I, H.b_coils)[None]
         Jh = np.zeros_like(bh)
         size = np.zeros((n, H.harmonics + 1))
+    B0s = []
     for i in range(n):
         sol = model.solve(model.b_magnets + I @ model.b_coils + b_f[i])
         Js[i] = sol.J_T
         B0 = model.field_T(sol.J_T, pts[i])
         B[i] += B0
+        B0s.append(B0)
         sat.append(np.nonzero(sol.saturated)[0])
         steps[i] = sol.steps
+    if H is not None:
+        live = np.flatnonzero(np.any(bh.reshape(n, -1) != 0.0, axis=1))
+        Jh[live] = H.solve_linearized_many(bh[live], Js[live])
+    for i in range(n):
+        B0 = B0s[i]
         if H is not None and np.any(bh[i] != 0.0):
-            Jh[i] = H.solve_linearized(bh[i], sol.J_T)
             Bh = H.field_T(Jh[i][None], pts[i])[0]
             B[i] += Bh.sum(axis=0)
             size[i, 0] = np.max(np.linalg.norm(B0, axis=-1))

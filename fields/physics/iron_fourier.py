@@ -152,9 +152,35 @@ def _pair_classes(el: _Elements):
     return near, mid & iu, ~near & ~mid & iu
 
 
+#: relative size of the last refinement step (largest entry over the solution's largest) and the
+#: most refinement steps of :meth:`HarmonicIron.solve_linearized_many`
+LINEARIZED_RTOL = 1e-12
+LINEARIZED_STEPS = 25
+
+#: element kernel matrices by mesh geometry: they depend on the cells and faces only (not on the
+#: B-H curve, the coils or the floater), so designs of a sweep that share their cores share them
+_KERNEL_CACHE: dict = {}
+_KERNEL_CACHE_SIZE = 4
+
+
 def element_kernel_matrices(model: IronModel, mmax: int) -> np.ndarray:
-    """``K_ab = int_a int_b g_m dmu dmu'`` (mmax+1, E, E) over all element pairs, m = 0..mmax."""
+    """``K_ab = int_a int_b g_m dmu dmu'`` (mmax+1, E, E) over all element pairs, m = 0..mmax.
+
+    Cached by the mesh's geometry (vertex coordinates of cells and faces, exact bytes) and mmax;
+    the returned array is read-only."""
     el = _elements(model)
+    key = (int(mmax), el.polys.tobytes(), el.s0.tobytes(), el.s1.tobytes())
+    hit = _KERNEL_CACHE.get(key)
+    if hit is None:
+        hit = _element_kernel_matrices(el, mmax)
+        hit.flags.writeable = False
+        if len(_KERNEL_CACHE) >= _KERNEL_CACHE_SIZE:
+            _KERNEL_CACHE.pop(next(iter(_KERNEL_CACHE)))
+        _KERNEL_CACHE[key] = hit
+    return hit
+
+
+def _element_kernel_matrices(el: _Elements, mmax: int) -> np.ndarray:
     E, c = el.count, el.cells
     K = np.zeros((mmax + 1, E, E))
     near, mid, far = _pair_classes(el)
@@ -332,6 +358,69 @@ class HarmonicIron:
             f = linalg.cho_factor(A.reshape(3 * c, 3 * c))
             x = bh[..., m, :, :]
             out[..., m, :, :] = linalg.cho_solve(f, x.reshape(-1, x.shape[-1]).T).T.reshape(x.shape)
+        return out
+
+    def solve_linearized_many(self, bh, J0s_T) -> np.ndarray:
+        """:meth:`solve_linearized` for n nearby states at once: bh (n, M, 2, 3c), J0s (n, c, 2).
+
+        The poses of a stencil or a short family differ little, so one Cholesky factor per
+        harmonic (at the first state) preconditions all of them: each solve is iterative
+        refinement with that factor (x += A0^-1 (b - A_i x), a stationary iteration that
+        converges when A0^-1 A_i is near the identity; Golub and Van Loan, Matrix Computations,
+        4th ed., 2013, sec. 3.5.3 and 11.2) until a step is below LINEARIZED_RTOL of the
+        solution; a state for which it contracts slowly (a step over half the last) gets its own
+        factor. The answers equal per-pose factorisations to
+        that tolerance.
+        """
+        m0 = self.model
+        c = self.cells
+        bh = np.asarray(bh, dtype=float)
+        n = bh.shape[0]
+        out = np.zeros_like(bh)
+        if n == 0:
+            return out
+        J0s = np.asarray(J0s_T, dtype=float).reshape(n, c, 2)
+        blks = np.empty((n, c, 3, 3))
+        for i in range(n):
+            J3 = np.zeros((c, 3))
+            J3[:, 0], J3[:, 2] = J0s[i, :, 0], J0s[i, :, 1]
+            Ti = np.empty((c, 3, 3))
+            for k, cv in enumerate(m0.curves):
+                idx = np.nonzero(m0.cell_curve == k)[0]
+                _, Ti[idx] = field_and_inverse_tensor(cv, J3[idx])
+            blks[i] = 0.5 * m0.mesh.volume_m3[:, None, None] * Ti
+        idx = np.arange(c)
+
+        def matrix(m, blk):
+            A = self.D[m].copy().reshape(c, 3, c, 3)
+            A[idx, :, idx, :] += blk
+            return A.reshape(3 * c, 3 * c)
+
+        for m in range(self.harmonics):
+            f0 = linalg.cho_factor(matrix(m, blks[0]), check_finite=False)
+            for i in range(n):
+                b = bh[i, m].reshape(-1, 3 * c).T  # (3c, 2)
+                if not np.any(b):
+                    continue
+                x = linalg.cho_solve(f0, b, check_finite=False)
+                if i and not np.array_equal(blks[i], blks[0]):
+                    Dm = self.D[m]
+                    last, done = np.inf, False
+                    for _ in range(LINEARIZED_STEPS):
+                        Ax = Dm @ x + np.einsum("cab,cbf->caf", blks[i], x.reshape(c, 3, -1)).reshape(3 * c, -1)
+                        dx = linalg.cho_solve(f0, b - Ax, check_finite=False)
+                        x = x + dx
+                        size = float(np.max(np.abs(dx)))
+                        if size <= LINEARIZED_RTOL * float(np.max(np.abs(x))):
+                            done = True
+                            break
+                        if size > 0.5 * last:  # contracting too slowly: this state needs its own factor
+                            break
+                        last = size
+                    if not done:
+                        x = linalg.cho_solve(linalg.cho_factor(matrix(m, blks[i]), check_finite=False), b,
+                                             check_finite=False)
+                out[i, m] = x.T.reshape(bh.shape[2:])
         return out
 
     # ----------------------------------------------------------------- fields
