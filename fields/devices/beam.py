@@ -340,8 +340,10 @@ def beam_response(design: Design, sensor: BeamGate, gaps_m=None, operating_gap_m
     fo = beam_blocked_fraction(design, sensor, [g0 - h, g0, g0 + h])
     s0 = (fo[2] - fo[0]) / (2 * h)
     lr = linear_range(gaps, slope, g0, s0, linearity_tolerance, slope_fn=slope_fn)
-    lat = tuple(float((beam_blocked_fraction(design, sensor, [g0], h * e)[0]
-                       - beam_blocked_fraction(design, sensor, [g0], -h * e)[0]) / (2 * h)) for e in np.eye(3)[:2])
+    lat = [float((beam_blocked_fraction(design, sensor, [g0], h * e)[0]
+                  - beam_blocked_fraction(design, sensor, [g0], -h * e)[0]) / (2 * h)) for e in np.eye(3)[:2]]
+    # below the central difference's round-off floor (64 eps of a fraction over 2 h) the slope is zero
+    lat = tuple(0.0 if abs(v) < 32 * np.finfo(float).eps / h else v for v in lat)
     d, across, up, _ = _beam_frame(design, sensor)
     P = design.study.floater_origin_m([g0])[0]
     exact = all(s.exact for s in _silhouettes(design, P, design.study.floater_rotvec_rad, d, across, up))
