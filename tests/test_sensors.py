@@ -3,14 +3,18 @@ closed-form coil fields and the general-purpose magpylib object interface."""
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pytest
 from scipy import integrate
 from scipy.constants import mu_0
 
 from fields.devices.beam import beam_blocked_fraction, beam_response
+from fields.devices.beam_placement import beam_placement_table
 from fields.devices.hall import hall_response
-from fields.devices.linearity import inverse_table
+from fields.devices.keepout import keepout
+from fields.devices.linearity import inverse_table, linear_range
 from fields.devices.placement import placement_table
 from fields.errors import InputError, SolverError
 from fields.input.tables import G_STANDARD
@@ -102,9 +106,10 @@ def test_vertical_disc_is_a_rectangle_with_linear_output():
     overlap = np.clip(np.minimum(top, -0.010) - np.maximum(bottom, -0.014), 0, None)
     assert np.allclose(r.blocked_fraction, overlap * 0.02 / (0.004 * 0.03), atol=1e-13)
     assert r.gain_per_mm == pytest.approx(0.02 / 0.03 / 4.0, rel=1e-6)
-    # the kinks at 7.5 and 11.5 mm have half the slope (central difference across a corner), so the
-    # linear range is the grid points strictly inside: 8.0 .. 11.0 mm
-    assert r.linear_range_m == pytest.approx((0.008, 0.011), abs=1e-12)
+    # the linear stretch ends at the kinks, 7.5 and 11.5 mm (the faces leave the beam): the edges are
+    # found between grid points; within 2 um = twice the central-difference step, which smears a kink
+    assert r.linear_range_m == pytest.approx((0.0075, 0.0115), abs=2e-6)
+    assert r.lateral_slope_per_m[0] == 0.0  # along the beam: the beam is unbounded along its direction
 
 
 def test_beam_direction_must_be_horizontal():
@@ -203,3 +208,169 @@ def test_inverse_table_roundtrip_and_non_monotone_error():
         t(1.0)
     with pytest.raises(SolverError, match="must be strictly monotone in the gap"):
         inverse_table(gaps, np.cos(gaps / 0.003))
+
+
+# ------------------------------------------------------- continuous linear range, sideways sensitivity
+
+def cylinder_on_axis(Br, R, L, z):
+    """On-axis B_z of a uniformly magnetised cylinder (polarisation Br along +z), centre at z = 0, and its
+    derivative: the equivalent finite solenoid of surface current Br / mu0, Biot-Savart on the axis
+    (e.g. Griffiths, Introduction to Electrodynamics, 4th ed., problem 5.11; problem number from memory):
+    B = Br/2 [(z + L/2) / sqrt(R^2 + (z + L/2)^2) - (z - L/2) / sqrt(R^2 + (z - L/2)^2)],
+    dB/dz = Br/2 [R^2 / (R^2 + (z + L/2)^2)^1.5 - R^2 / (R^2 + (z - L/2)^2)^1.5]."""
+    a, b = z + L / 2, z - L / 2
+    B = Br / 2 * (a / np.sqrt(R * R + a * a) - b / np.sqrt(R * R + b * b))
+    dB = Br / 2 * (R * R / (R * R + a * a) ** 1.5 - R * R / (R * R + b * b) ** 1.5)
+    return B, dB
+
+
+def test_linear_range_between_coarse_grid_points_vs_closed_form():
+    from scipy.optimize import brentq
+
+    Br, R, L, zs, g0 = 1.3, 0.01, 0.005, 0.002, 0.01
+    d = make_design([Magnet("disc", "cylinder", (2 * R, L), (0, 0, Br))])
+    gaps = np.array([0.005, 0.01, 0.015, 0.02])  # coarse: the range falls between grid points
+    r = hall_response(d, HallSensor("h", (0.0, 0.0, zs), (0.0, 0.0, 1.0), 1.0), gaps, g0)
+
+    def slope(g):  # the sensor sits zs + g above the disc's centre; d/dgap = d/dz there
+        return cylinder_on_axis(Br, R, L, zs + g)[1]
+    s0 = slope(g0)
+    assert r.sensitivity_at_operating_T_per_m == pytest.approx(s0, rel=1e-7)  # FD step 1 um: (h/z)^2 ~ 1e-8
+    assert r.reading_at_operating_T == pytest.approx(cylinder_on_axis(Br, R, L, zs + g0)[0], rel=1e-12)
+    # both grid neighbours are outside the 10 % band: the grid-walking rule had no range at all here
+    assert abs(slope(0.005) - s0) > 0.1 * abs(s0) and abs(slope(0.015) - s0) > 0.1 * abs(s0)
+    m = lambda g: abs(slope(g) - s0) - 0.1 * abs(s0)  # noqa: E731
+    ref = (brentq(m, 0.005, g0 - 1e-9, xtol=1e-14), brentq(m, g0 + 1e-9, 0.015, xtol=1e-14))
+    # edge search: 4 rounds of 16 samples shrink a 5 mm bracket to 60 nm before the final linear zero
+    assert r.linear_range_m == pytest.approx(ref, abs=5e-8)
+
+
+def test_linear_range_none_only_without_slope():
+    # a flat reading has no range (and says so); a constant slope fills the whole grid
+    g = np.linspace(0.0, 1.0, 5)
+    assert all(np.isnan(linear_range(g, np.zeros(5), 0.5, 0.0)))
+    assert linear_range(g, np.ones(5), 0.5, 1.0) == (0.0, 1.0)
+
+
+@pytest.mark.parametrize("axis_index", [0, 1])
+def test_hall_sideways_sensitivity_vs_paraxial_expansion(axis_index):
+    # near the axis of an axisymmetric field div B = 0 gives B_rho = -(rho / 2) dB_z/dz (paraxial expansion;
+    # e.g. Jackson, Classical Electrodynamics, 3rd ed., sec. 5.7 problem set, from memory): moving the
+    # floater by +dx puts the sensor at -dx in the floater's frame, so dB_x/dx = +1/2 dB_z/dz
+    Br, R, L, zs, g0 = 1.3, 0.01, 0.005, 0.002, 0.01
+    d = make_design([Magnet("disc", "cylinder", (2 * R, L), (0, 0, Br))])
+    ax = np.eye(3)[axis_index]
+    r = hall_response(d, HallSensor("h", (0.0, 0.0, zs), tuple(ax), 1.0), [0.008, 0.012], g0)
+    dBz = cylinder_on_axis(Br, R, L, zs + g0)[1]
+    assert r.lateral_sensitivity_T_per_m[axis_index] == pytest.approx(0.5 * dBz, rel=1e-6)
+    assert abs(r.lateral_sensitivity_T_per_m[1 - axis_index]) < 1e-8 * abs(dBz)
+    rz = hall_response(d, HallSensor("h", (0.0, 0.0, zs), (0.0, 0.0, 1.0), 1.0), [0.008, 0.012], g0)
+    assert np.all(np.abs(rz.lateral_sensitivity_T_per_m) < 1e-6 * abs(dBz))  # B_z is even in the offset
+
+
+def test_hall_sideways_sensitivity_off_axis_vs_magpylib():
+    import magpylib as magpy
+
+    d = make_design([Magnet("disc", "cylinder", (0.02, 0.005), (0, 0, 1.3))])
+    p = (0.006, -0.004, 0.001)
+    r = hall_response(d, HallSensor("h", p, (0.0, 0.0, 1.0), 1.0), [0.008, 0.012], 0.01)
+    h = 1e-5
+    for k in range(2):  # independent evaluation: magpylib's object interface, second-order differences
+        e = np.eye(3)[k] * h
+        Bp = magpy.magnet.Cylinder(polarization=(0, 0, 1.3), dimension=(0.02, 0.005), position=(0, 0, -0.01) + e).getB(p)[2]
+        Bm = magpy.magnet.Cylinder(polarization=(0, 0, 1.3), dimension=(0.02, 0.005), position=(0, 0, -0.01) - e).getB(p)[2]
+        assert r.lateral_sensitivity_T_per_m[k] == pytest.approx((Bp - Bm) / (2 * h), rel=1e-5)
+
+
+def test_beam_sideways_slope_vs_chord_lengths():
+    # a sphere set 3 mm off the gap axis (across the beam, +y): moving it by dy changes the blocked area by
+    # (L(x0 - c) - L(x1 - c)) dy, L(u) = 2 sqrt(R^2 - u^2) the circle's chord (elementary geometry); the
+    # beam (8 mm wide, 40 mm tall) covers the circle vertically
+    R, c, w, H = 0.005, 0.003, 0.008, 0.04
+    d = make_design([Magnet("s", "sphere", (2 * R,), (0, 0, 1.2), position_m=(0, c, 0))])
+    r = beam_response(d, BeamGate("b", -0.01, H, w), [0.009, 0.011], 0.01)
+
+    def chord(u):
+        return 2 * np.sqrt(max(R * R - u * u, 0.0))
+    ref = (chord(-w / 2 - c) - chord(w / 2 - c)) / (w * H)
+    assert r.lateral_slope_per_m[1] == pytest.approx(ref, rel=1e-6)
+    assert r.lateral_slope_per_m[0] == 0.0
+
+
+# ------------------------------------------------------------------------------- placement studies
+
+AIR = Path(__file__).resolve().parent / "data" / "air_suspension.toml"
+
+
+def test_keepout_vs_disc_geometry():
+    from fields.input.geometry import load
+
+    d = load(AIR)  # coil underside at z = 70 mm (7 mm bore), N42 disc 12.7 x 6.35 mm below it, gaps 4 .. 30 mm
+    pts = np.array([[0, 0, 0.060], [0.015, 0, 0.085], [0, 0, 0.085], [0.0095, 0, 0.050], [0, 0, 0.068]])
+    k = keepout(d, pts)
+    assert k.reason == ("floater_travel", "inside_body", "", "floater_travel", "")
+    assert k.nearest_body[1] == "lift coil"
+    # plane geometry: the disc's faces sweep z from its top at gap_min down to its bottom at gap_max (the
+    # study's gap axis places the disc; the gap is its clearance to the bore's corner); on the axis at 60 mm
+    # the deepest pose puts the point at the disc's mid-plane, 3.175 mm inside
+    assert k.travel_distance_m[0] == pytest.approx(-0.003175, abs=1e-9)
+    # 9.5 mm off the axis with the floater up to 6 mm sideways: 6.35 - (9.5 - 6) = 2.85 mm inside
+    assert k.travel_distance_m[3] == pytest.approx(-0.00285, abs=1e-7)
+    top = d.study.floater_origin_m([d.study.gap_min_m])[0, 2] + 0.003175
+    assert k.travel_distance_m[4] == pytest.approx(0.068 - top, abs=1e-9)  # above the disc's top at gap_min
+    k0 = keepout(d, pts[3:4], lateral_span_m=0.0)  # without sideways travel: 9.5 - 6.35 mm outside
+    assert k0.reason == ("",) and k0.travel_distance_m[0] == pytest.approx(0.00315, abs=1e-9)
+
+
+def test_placement_excludes_and_has_no_best_when_nothing_is_usable():
+    from fields.input.geometry import load
+
+    d = load(AIR)
+    cands = np.array([[0, 0, 0.060], [0.015, 0, 0.085], [0, 0, 0.068], [0, 0, 0.069]])
+    t = placement_table(d, cands, (0, 0, 1), range_T=0.1)
+    # 68 and 69 mm read more than 100 mT with the coil at max current (the reading is > 0.3 T there)
+    assert t.status == ("floater_travel", "inside_body", "saturates", "saturates")
+    assert t.best_index is None and t.counts()["usable"] == 0
+    t2 = placement_table(d, cands, (0, 0, 1))  # no range given: the two clear candidates compete
+    assert t2.status[2:] == ("usable", "usable")
+    assert t2.best_index == 2 + int(np.argmax(t2.linear_half_width_m[2:]))  # widest range (no 1 % tie here)
+    assert abs(t2.linear_half_width_m[2] - t2.linear_half_width_m[3]) > 0.01 * t2.linear_half_width_m[2]
+
+
+def test_beam_placement_vs_rectangle_geometry():
+    # disc 20 x 5 mm seen side-on, 4 mm tall beam: the output is linear while one face is in the beam, so a
+    # beam centred on a face's height at the operating gap has half-width 2 mm (plane geometry); a beam
+    # between the faces is fully blocked (flat); a beam at the coil's height is crossed by the coil
+    g0 = 0.0095
+    c = Coil("c", 0.01, 0.02, 0.015, 300, (0, 0, 0.03), (0, 0, 1), 0.5, 1.0)
+    d = make_design([Magnet("disc", "cylinder", (0.02, 0.005), (0, 0, 1.3))], coils=(c,))
+    gate = BeamGate("b", 0.0, 0.004, 0.03)
+    heights = np.array([-g0 - 0.0025, -g0, -g0 + 0.0025, -g0 - 0.0035, 0.03])
+    t = beam_placement_table(d, gate, heights, g0, np.linspace(0.005, 0.02, 16))
+    assert t.status == ("usable", "flat_output", "usable", "usable", "blocked_by_body")
+    assert t.linear_half_width_m[[0, 2]] == pytest.approx([0.002, 0.002], abs=2e-6)
+    assert t.linear_half_width_m[3] == pytest.approx(0.001, abs=2e-6)
+    assert t.best_index in (0, 2) and abs(t.gain_per_mm[0]) == pytest.approx(0.02 / 0.03 / 4, rel=1e-6)
+
+
+def test_sensors_stage_writes_sideways_sensitivity_and_placement(tmp_path):
+    import csv
+    import json
+
+    from fields.input.geometry import load
+    from fields.studies.stages.sensors import run_sensors
+
+    d = load(AIR)
+    res = run_sensors(d, tmp_path)
+    js = json.loads((tmp_path / "sensors.json").read_text())
+    hall = next(s for s in js["sensors"] if s["kind"] == "hall")
+    assert hall["lateral_sensitivity_T_per_m"] == list(res.halls[0].lateral_sensitivity_T_per_m)
+    rows = list(csv.DictReader(line for line in (tmp_path / "sensors_operating.csv").read_text().splitlines()
+                               if not line.startswith("#")))
+    assert [r["sensor"] for r in rows] == ["beam gate", "hall under core"]
+    assert float(rows[1]["d_output_d_gap_per_m"]) == pytest.approx(res.halls[0].sensitivity_at_operating_T_per_m)
+    # the example's candidate line lies mostly inside the floater's travel: counted and said, no best
+    pl = js["placement"]
+    assert pl["counts"]["floater_travel"] == 11 and pl["excluded"] == 11 and "best_position_m" not in pl
+    assert any("no candidate is usable" in w and "11 inside the floater's travel" in w for w in res.warnings)
+    assert js["beam_placement"][0]["best_height_m"] is not None

@@ -253,7 +253,7 @@ def _blocked_area(shapes: list[_Shape], rect) -> float:
     return _union_area(live, *rect)
 
 
-def beam_blocked_fraction(design: Design, sensor: BeamGate, gaps_m) -> np.ndarray:
+def beam_blocked_fraction(design: Design, sensor: BeamGate, gaps_m, offset_m=(0.0, 0.0, 0.0)) -> np.ndarray:
     """Fraction of the beam's cross-section the floater's silhouette blocks, vs gap.
 
     Parameters
@@ -261,6 +261,8 @@ def beam_blocked_fraction(design: Design, sensor: BeamGate, gaps_m) -> np.ndarra
     design : Design
     sensor : BeamGate
     gaps_m : array_like, shape (g,)
+    offset_m : array_like, shape (3,)
+        A rigid shift of the floater from its study pose (world frame, m), e.g. sideways.
 
     Returns
     -------
@@ -274,7 +276,7 @@ def beam_blocked_fraction(design: Design, sensor: BeamGate, gaps_m) -> np.ndarra
     """
     d, across, up, rect = _beam_frame(design, sensor)
     gaps = np.atleast_1d(np.asarray(gaps_m, dtype=float))
-    P = design.study.floater_origin_m(gaps)
+    P = design.study.floater_origin_m(gaps) + np.asarray(offset_m, dtype=float).reshape(1, 3)
     area = (rect[1] - rect[0]) * (rect[3] - rect[2])
     out = np.empty(gaps.size)
     for i in range(gaps.size):
@@ -295,8 +297,12 @@ class BeamResponse:
     operating_gap_m, fraction_at_operating : float
     gain_per_mm : float
         d(fraction)/d(gap) at the operating gap, per millimetre.
+    lateral_slope_per_m : tuple of float
+        d(fraction)/d(floater offset) along world x and y at the operating gap (an offset along the
+        beam changes nothing: the beam is modelled as unbounded along its direction).
     linear_range_m : tuple of float
-        ``(lo, hi)`` where the slope stays within ``linearity_tolerance`` of the operating value.
+        ``(lo, hi)`` where the slope stays within ``linearity_tolerance`` of the operating value,
+        edges located between grid points; ``(nan, nan)`` only when the output is flat there.
     linearity_tolerance : float
     exact : bool
         All silhouettes exact (see module docstring).
@@ -312,6 +318,7 @@ class BeamResponse:
     operating_gap_m: float
     fraction_at_operating: float
     gain_per_mm: float
+    lateral_slope_per_m: tuple[float, float]
     linear_range_m: tuple[float, float]
     linearity_tolerance: float
     exact: bool
@@ -327,11 +334,16 @@ def beam_response(design: Design, sensor: BeamGate, gaps_m=None, operating_gap_m
     """
     gaps, g0 = sensor_gaps(design, gaps_m, operating_gap_m)
     f = beam_blocked_fraction(design, sensor, gaps)
+    slope_fn = beam_slope_fn(design, sensor)
+    slope = slope_fn(gaps)
     h = SLOPE_STEP_M
-    slope = (beam_blocked_fraction(design, sensor, gaps + h) - beam_blocked_fraction(design, sensor, gaps - h)) / (2 * h)
     fo = beam_blocked_fraction(design, sensor, [g0 - h, g0, g0 + h])
     s0 = (fo[2] - fo[0]) / (2 * h)
-    lr = linear_range(gaps, slope, g0, s0, linearity_tolerance)
+    lr = linear_range(gaps, slope, g0, s0, linearity_tolerance, slope_fn=slope_fn)
+    lat = [float((beam_blocked_fraction(design, sensor, [g0], h * e)[0]
+                  - beam_blocked_fraction(design, sensor, [g0], -h * e)[0]) / (2 * h)) for e in np.eye(3)[:2]]
+    # below the central difference's round-off floor (64 eps of a fraction over 2 h) the slope is zero
+    lat = tuple(0.0 if abs(v) < 32 * np.finfo(float).eps / h else v for v in lat)
     d, across, up, _ = _beam_frame(design, sensor)
     P = design.study.floater_origin_m([g0])[0]
     exact = all(s.exact for s in _silhouettes(design, P, design.study.floater_rotvec_rad, d, across, up))
@@ -341,8 +353,18 @@ def beam_response(design: Design, sensor: BeamGate, gaps_m=None, operating_gap_m
         notices.append(Notice("flat_output", sensor.name, {"state": state}))
     if not exact:
         notices.append(Notice("approximate_silhouette", sensor.name))
-    return BeamResponse(sensor.name, gaps, f, slope, g0, float(fo[1]), float(s0 * 1e-3), lr,
+    return BeamResponse(sensor.name, gaps, f, slope, g0, float(fo[1]), float(s0 * 1e-3), lat, lr,
                         float(linearity_tolerance), exact, tuple(notices))
+
+
+def beam_slope_fn(design: Design, sensor: BeamGate):
+    """``f(gaps (n,)) -> (n,)``: d(blocked fraction)/d(gap), central differences of step :data:`SLOPE_STEP_M`."""
+    h = SLOPE_STEP_M
+
+    def f(gq):
+        gq = np.asarray(gq, dtype=float).reshape(-1)
+        return (beam_blocked_fraction(design, sensor, gq + h) - beam_blocked_fraction(design, sensor, gq - h)) / (2 * h)
+    return f
 
 
 def beam_inverse_table(design: Design, sensor: BeamGate, gaps_m=None) -> InverseTable:

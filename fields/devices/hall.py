@@ -31,6 +31,24 @@ def unit_axis(v, where: str) -> np.ndarray:
     return a / n
 
 
+def hall_readings_at(design: Design, points_m: np.ndarray, axis: np.ndarray, positions_m: np.ndarray):
+    """Field along ``axis`` at points (p, 3) for floater origins (n, 3), split by source.
+
+    The floater keeps the study's orientation. Returns ``(floater_T (n, p), fixed0_T (n, p),
+    coils_T_per_A (n, k, p), basis)`` as :func:`hall_readings`.
+    """
+    from fields.physics import field_basis as sources
+
+    st = design.study
+    P = np.asarray(positions_m, dtype=float).reshape(-1, 3)
+    n = P.shape[0]
+    Rv = np.repeat(np.asarray(st.floater_rotvec_rad, dtype=float)[None], n, axis=0)
+    pts = np.broadcast_to(points_m, (n,) + points_m.shape)
+    Bf = sources.floater_field_T(design, pts, P, Rv) @ axis
+    fb = sources.fixed_field_basis(design, np.ascontiguousarray(pts), P, Rv)
+    return Bf, fb.B0_T @ axis, fb.Bk_T_per_A @ axis, fb
+
+
 def hall_readings(design: Design, points_m: np.ndarray, axis: np.ndarray, gaps: np.ndarray):
     """Field along ``axis`` at points (p, 3) for each gap (g,), split by source.
 
@@ -45,16 +63,38 @@ def hall_readings(design: Design, points_m: np.ndarray, axis: np.ndarray, gaps: 
     basis : FieldBasis
         The physics layer's field basis (for diagnosis).
     """
-    from fields.physics import field_basis as sources
+    return hall_readings_at(design, points_m, axis, design.study.floater_origin_m(np.asarray(gaps, dtype=float)))
 
-    st = design.study
-    n = gaps.size
-    P = st.floater_origin_m(gaps)
-    Rv = np.repeat(np.asarray(st.floater_rotvec_rad, dtype=float)[None], n, axis=0)
-    pts = np.broadcast_to(points_m, (n,) + points_m.shape)
-    Bf = sources.floater_field_T(design, pts, P, Rv) @ axis
-    fb = sources.fixed_field_basis(design, np.ascontiguousarray(pts), P, Rv)
-    return Bf, fb.B0_T @ axis, fb.Bk_T_per_A @ axis, fb
+
+#: the sideways directions of the floater offset: world x and y (the stiffness axes "x", "y")
+LATERAL_AXES = np.eye(3)[:2]
+
+
+def lateral_sensitivity_T_per_m(design: Design, points_m: np.ndarray, axis: np.ndarray,
+                                operating_gap_m: float) -> np.ndarray:
+    """d(zero-current reading)/d(floater offset along world x, y) at the operating gap, shape (p, 2).
+
+    Central differences with step :data:`SLOPE_STEP_M` about the operating pose (the coils' share
+    does not depend on the floater in the linear model, so the zero-current reading is the one).
+    """
+    P0 = design.study.floater_origin_m([operating_gap_m])[0]
+    h = SLOPE_STEP_M
+    P = np.concatenate([P0 + h * LATERAL_AXES, P0 - h * LATERAL_AXES])
+    Bf, B0, _, _ = hall_readings_at(design, points_m, axis, P)
+    z = Bf + B0  # (4, p)
+    return ((z[:2] - z[2:]) / (2 * h)).T
+
+
+def zero_current_slope_fn(design: Design, points_m: np.ndarray, axis: np.ndarray):
+    """``f(gaps (n,)) -> (n, p)``: d(zero-current reading)/d(gap) at any gaps, for the linear-range search."""
+    h = SLOPE_STEP_M
+
+    def f(gq):
+        gq = np.asarray(gq, dtype=float).reshape(-1)
+        Bf, B0, _, _ = hall_readings(design, points_m, axis, np.concatenate([gq - h, gq + h]))
+        z = Bf + B0
+        return (z[gq.size:] - z[:gq.size]) / (2 * h)
+    return f
 
 
 @dataclass(frozen=True)
@@ -80,8 +120,14 @@ class HallResponse:
     reading_zero_current_T : ndarray, shape (g,)
     sensitivity_T_per_m : ndarray, shape (g,)
         d(reading)/d(gap) at zero current.
-    operating_gap_m, sensitivity_at_operating_T_per_m : float
+    operating_gap_m, reading_at_operating_T, sensitivity_at_operating_T_per_m : float
+        The operating gap, the zero-current reading there and d(reading)/d(gap) there.
+    lateral_sensitivity_T_per_m : tuple of float
+        d(reading)/d(floater offset) along world x and y at the operating gap, zero current
+        (next to the vertical sensitivity: what a sideways wobble reads like).
     linear_range_m : tuple of float
+        Edges located between grid points (:func:`fields.devices.linearity.linear_range`);
+        ``(nan, nan)`` only when there is none (no sensitivity at the operating gap).
     worst_case_T : float
         Largest ``|reading|`` over the gaps with every coil at ``+-max_current_A`` (worst sign).
     range_T : float
@@ -103,7 +149,9 @@ class HallResponse:
     reading_zero_current_T: np.ndarray
     sensitivity_T_per_m: np.ndarray
     operating_gap_m: float
+    reading_at_operating_T: float
     sensitivity_at_operating_T_per_m: float
+    lateral_sensitivity_T_per_m: tuple[float, float]
     linear_range_m: tuple[float, float]
     worst_case_T: float
     range_T: float
@@ -155,7 +203,9 @@ def hall_response(design: Design, sensor: HallSensor, gaps_m=None, operating_gap
     read = zero[:ng]
     sens = (zero[2 * ng:3 * ng] - zero[ng:2 * ng]) / (2 * h)
     s0 = float((zero[-1] - zero[-3]) / (2 * h))
-    lr = linear_range(gaps, sens, g0, s0, linearity_tolerance)
+    slope = zero_current_slope_fn(design, p, ax)
+    lr = linear_range(gaps, sens, g0, s0, linearity_tolerance, slope_fn=lambda gq: slope(gq)[:, 0])
+    lat = tuple(float(v) for v in lateral_sensitivity_T_per_m(design, p, ax, g0)[0])
     ck = Bk[-2]
     air = np.array([sources.coil_field_per_ampere_T(c, p)[0] @ ax for c in design.coils]).reshape(-1)
     imax = np.array([abs(float(c.max_current_A)) for c in design.coils])
@@ -174,8 +224,8 @@ def hall_response(design: Design, sensor: HallSensor, gaps_m=None, operating_gap
                 notices.append(Notice("coil_crosstalk", sensor.name, {"coil": c.name, "apparent_gap_m": apparent}))
     if design.cores:
         notices.append(Notice("core_approximate", sensor.name))
-    return HallResponse(sensor.name, gaps, Bf[:ng], B0[:ng] - fixed, fixed, Bk[:ng], air, ck, read, sens, g0, s0, lr,
-                        worst, float(sensor.range_T), bool(sat), tuple(notices))
+    return HallResponse(sensor.name, gaps, Bf[:ng], B0[:ng] - fixed, fixed, Bk[:ng], air, ck, read, sens, g0, float(zero[-2]), s0, lat,
+                        lr, worst, float(sensor.range_T), bool(sat), tuple(notices))
 
 
 def hall_inverse_table(design: Design, sensor: HallSensor, gaps_m=None) -> InverseTable:

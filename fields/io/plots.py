@@ -197,7 +197,8 @@ def sensor_curves(design, beams, halls, placement=None):
     for b in beams:
         ax.plot(b.gaps_m * 1e3, b.blocked_fraction, lw=1.6, label=f"{b.name}: blocked fraction")
         lo, hi = b.linear_range_m
-        ax.axvspan(lo * 1e3, hi * 1e3, color="#2e9e5b", alpha=0.15, label=f"{b.name}: linear range")
+        if np.isfinite(lo) and np.isfinite(hi):
+            ax.axvspan(lo * 1e3, hi * 1e3, color="#2e9e5b", alpha=0.15, label=f"{b.name}: linear range")
         ax.text(0.01, 0.04, f"gain {b.gain_per_mm:.3g} per mm at the operating gap", transform=ax.transAxes, fontsize=8)
     if beams:
         ax.axvline(gop, color="k", ls=":", lw=1, label="operating gap")
@@ -228,7 +229,14 @@ def sensor_curves(design, beams, halls, placement=None):
         ax2 = ax.twinx()
         ax2.semilogy(d, np.maximum(placement.worst_crosstalk_gap_m_per_A * 1e3, 1e-6), "s--", color="#b22222",
                      label="cross-talk (mm of gap per A)")
-        ax.axvline(d[placement.best_index], color="#2e9e5b", lw=2, alpha=0.5, label="chosen position")
+        bad = np.array([st != "usable" for st in placement.status])
+        if np.any(bad):
+            ax.plot(d[bad], np.nan_to_num(placement.linear_half_width_m[bad] * 1e3), "x", color="#777777", ms=8,
+                    label="not usable (see placement.csv)")
+        if placement.best_index is not None:
+            ax.axvline(d[placement.best_index], color="#2e9e5b", lw=2, alpha=0.5, label="chosen position")
+        else:
+            ax.text(0.5, 0.9, "no candidate is usable", transform=ax.transAxes, ha="center", fontsize=9)
         ax.set_xlabel("candidate sensor height (mm)")
         ax.set_ylabel("linear half-width (mm)")
         ax2.set_ylabel("cross-talk (mm per A)")

@@ -140,6 +140,48 @@ def _coil(coil: dict, out: Path) -> list[str]:
             "every gap: <code>coil_heat.csv</code>. Copper data: IEC 60028. Thermal classes: IEC 60085.</p>"]
 
 
+def _range_cell(s: dict, i: int) -> str:
+    """A sensor's linear range with provenance, or in words when there is none."""
+    from fields.io.wording import NO_LINEAR_RANGE
+
+    lo, hi = s["linear_range_m"]
+    if lo is None or hi is None:
+        return esc(NO_LINEAR_RANGE)
+    return (num(lo, "sensors.json", f"sensors[{i}].linear_range_m[0]", "", scale=1e3) + " .. "
+            + num(hi, "sensors.json", f"sensors[{i}].linear_range_m[1]", "mm", scale=1e3))
+
+
+def _placement_paragraphs(sens: dict) -> list[str]:
+    """The Hall and beam placement studies in words (sensors.json)."""
+    S = []
+    if "placement" in sens:
+        pl = sens["placement"]
+        c = pl["counts"]
+        counts = (f"{num(c['usable'], 'sensors.json', 'placement.counts.usable')} usable of {len(pl['rows'])}; "
+                  f"excluded {num(pl['excluded'], 'sensors.json', 'placement.excluded')} "
+                  f"(inside a body {num(c['inside_body'], 'sensors.json', 'placement.counts.inside_body')}, inside the "
+                  f"floater's travel {num(c['floater_travel'], 'sensors.json', 'placement.counts.floater_travel')})")
+        if "best_position_m" in pl:
+            p = pl["best_position_m"]
+            S.append(f"<p>Hall placement: best candidate at ({num(p[0], 'sensors.json', 'placement.best_position_m[0]', '', scale=1e3)}, "
+                     f"{num(p[1], 'sensors.json', 'placement.best_position_m[1]', '', scale=1e3)}, "
+                     f"{num(p[2], 'sensors.json', 'placement.best_position_m[2]', 'mm', scale=1e3)}) by the stated rule "
+                     f"({esc(pl['rule'])}); {counts}; all candidates in <code>placement.csv</code>.</p>")
+        else:
+            S.append(f"<p>Hall placement: no candidate is usable; {counts}; the reasons per candidate are in "
+                     "<code>placement.csv</code> (column <code>status</code>).</p>")
+    for j, bp in enumerate(sens.get("beam_placement", [])):
+        n_ok = num(bp["counts"]["usable"], "sensors.json", f"beam_placement[{j}].counts.usable")
+        if "best_height_m" in bp:
+            S.append(f"<p>Beam placement for {esc(bp['sensor'])}: best beam height "
+                     f"{num(bp['best_height_m'], 'sensors.json', f'beam_placement[{j}].best_height_m', 'mm', scale=1e3)} "
+                     f"by the stated rule ({esc(bp['rule'])}); {n_ok} of {len(bp['rows'])} heights usable.</p>")
+        else:
+            S.append(f"<p>Beam placement for {esc(bp['sensor'])}: no beam height is usable ({n_ok} of "
+                     f"{len(bp['rows'])}).</p>")
+    return S
+
+
 def _sensors(sens: dict, out: Path) -> list[str]:
     """Sensor curves and placement (sensors.json)."""
     if not sens.get("sensors"):
@@ -148,23 +190,24 @@ def _sensors(sens: dict, out: Path) -> list[str]:
     srows = []
     for i, s in enumerate(sens["sensors"]):
         if s["kind"] == "beam":
+            lat = s["lateral_slope_per_m"]
             srows.append([esc(s["name"]), "optical beam gate",
                           "gain " + num(s["gain_per_mm"], "sensors.json", f"sensors[{i}].gain_per_mm", "per mm"),
-                          num(s["linear_range_m"][0], "sensors.json", f"sensors[{i}].linear_range_m[0]", "", scale=1e3) + " .. "
-                          + num(s["linear_range_m"][1], "sensors.json", f"sensors[{i}].linear_range_m[1]", "mm", scale=1e3)])
+                          "x " + num(lat[0], "sensors.json", f"sensors[{i}].lateral_slope_per_m[0]", "", scale=1e-3)
+                          + ", y " + num(lat[1], "sensors.json", f"sensors[{i}].lateral_slope_per_m[1]", "per mm",
+                                         scale=1e-3),
+                          _range_cell(s, i)])
         else:
+            lat = s["lateral_sensitivity_T_per_m"]
             srows.append([esc(s["name"]), "Hall sensor",
                           "sensitivity " + num(s["sensitivity_at_operating_T_per_m"], "sensors.json",
                                                f"sensors[{i}].sensitivity_at_operating_T_per_m", "mT/mm", scale=1.0),
-                          num(s["linear_range_m"][0], "sensors.json", f"sensors[{i}].linear_range_m[0]", "", scale=1e3) + " .. "
-                          + num(s["linear_range_m"][1], "sensors.json", f"sensors[{i}].linear_range_m[1]", "mm", scale=1e3)])
-    S.append(table(["sensor", "kind", "at the operating gap", "linear range"], srows, left_cols=2))
-    if "placement" in sens:
-        p = sens["placement"]["best_position_m"]
-        S.append(f"<p>Hall placement: best candidate at ({num(p[0], 'sensors.json', 'placement.best_position_m[0]', '', scale=1e3)}, "
-                 f"{num(p[1], 'sensors.json', 'placement.best_position_m[1]', '', scale=1e3)}, "
-                 f"{num(p[2], 'sensors.json', 'placement.best_position_m[2]', 'mm', scale=1e3)}) by the stated rule "
-                 "(widest linear range, then least cross-talk); all candidates in <code>placement.csv</code>.</p>")
+                          "x " + num(lat[0], "sensors.json", f"sensors[{i}].lateral_sensitivity_T_per_m[0]", "")
+                          + ", y " + num(lat[1], "sensors.json", f"sensors[{i}].lateral_sensitivity_T_per_m[1]", "mT/mm"),
+                          _range_cell(s, i)])
+    S.append(table(["sensor", "kind", "at the operating gap", "sideways (floater offset x, y)", "linear range"], srows,
+                   left_cols=2))
+    S += _placement_paragraphs(sens)
     return S
 
 

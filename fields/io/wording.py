@@ -7,6 +7,7 @@ the same thing in the same way.
 
 from __future__ import annotations
 
+import math
 from typing import Iterable, Sequence
 
 #: the safety points every README-facing output shows: (lead, text); lead may be empty
@@ -432,6 +433,46 @@ def proportional_text(study, mechanical_pole_rad_per_s: float) -> str:
 
 
 # ---------------------------------------------------------------------------------------------
+# sensor linear ranges and placement studies
+
+#: what a missing linear range means (the only case: no slope at the operating gap)
+NO_LINEAR_RANGE = "none: the output does not change with the gap at the operating gap"
+
+#: candidate statuses of the Hall and beam placement studies, in words
+PLACEMENT_STATUS_TEXT = {
+    "usable": "usable", "inside_body": "inside a body", "floater_travel": "inside the floater's travel",
+    "no_sensitivity": "without sensitivity to the gap", "saturates": "saturating the sensor with the coils at max current",
+    "blocked_by_body": "with the beam crossed by a fixed body",
+    "flat_output": "with a flat output at the operating gap (beam fully blocked or not reached)",
+}
+
+#: the ranking rules as stated to the user
+HALL_PLACEMENT_RULE = "widest linear range around the operating gap, ties by least coil cross-talk"
+BEAM_PLACEMENT_RULE = "widest linear range of the blocked fraction around the operating gap, ties by larger gain"
+
+
+def linear_range_text(lo_m, hi_m) -> str:
+    """``"lo .. hi mm"``, or :data:`NO_LINEAR_RANGE` when there is none (NaN or None edges)."""
+    ok = lo_m is not None and hi_m is not None and math.isfinite(lo_m) and math.isfinite(hi_m)
+    return f"{lo_m * 1e3:.4g} .. {hi_m * 1e3:.4g} mm" if ok else NO_LINEAR_RANGE
+
+
+def placement_text(what: str, counts: dict, best_found: bool, lateral_span_m: float | None = None) -> str:
+    """One sentence on a placement study: what was set aside and why, or why no candidate is usable
+    ("" when every candidate is usable)."""
+    total = sum(counts.values())
+    others = [f"{n} {PLACEMENT_STATUS_TEXT[c]}" for c, n in counts.items() if c != "usable" and n]
+    travel = ("" if lateral_span_m is None or not counts.get("floater_travel")
+              else f" (the travel: gap_min to gap_max, sideways up to {lateral_span_m * 1e3:g} mm in x and y)")
+    if not best_found:
+        return (f"{what}: no candidate is usable of {total}: " + ", ".join(others) + travel
+                + "; move or widen the candidates (or use a sensor with a wider range)")
+    if not others:
+        return ""
+    return f"{what}: {total - counts.get('usable', 0)} of {total} candidates set aside: " + ", ".join(others) + travel
+
+
+# ---------------------------------------------------------------------------------------------
 # the files a run writes (the report's file list)
 
 #: one line per output file name; names that vary (per sensor, per simulation) by their prefix
@@ -456,7 +497,8 @@ OUTPUT_FILES: dict[str, str] = {
     "sensors.json": "sensor curves, gains, linear ranges, cross-talk, placement",
     "sensors.csv": "sensor outputs versus gap",
     "sensors.png": "figure: sensor curves",
-    "placement.csv": "candidate Hall sensor positions and how they rate",
+    "placement.csv": "candidate Hall sensor positions, exclusions and how they rate",
+    "sensors_operating.csv": "each sensor at the operating gap: output, vertical and sideways sensitivity, linear range",
     "control.json": "control model: plant, controller starting point, margins, simulations",
     "plant.json": "linear plant: state space and transfer function",
     "plant.csv": "linear plant matrices, one entry per row",
@@ -475,6 +517,7 @@ OUTPUT_FILES: dict[str, str] = {
     "exports/geometry.glb": "the bodies as a glTF scene of named meshes",
     "sim_": "nonlinear simulation: time, position, speed, current",
     "inverse_": "gap from a sensor reading (inverse table)",
+    "beam_placement_": "candidate beam heights for a beam gate and how they rate",
     "table_": "force table for other tools",
 }
 
