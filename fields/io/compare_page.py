@@ -55,7 +55,7 @@ def _cell(data: dict, i: int, part: str, key: str, unit: str, scale: float) -> s
     if rel is None:
         return shown
     mark = abs(rel) > data["threshold"]
-    text = f'{shown} <small class="rel">({num(100.0 * rel, SRC, f"designs[{i}].relative_to_first.{key}", "%", scale=1.0, digits=3)})</small>'
+    text = f'{shown} <small class="rel">({num(rel, SRC, f"designs[{i}].relative_to_first.{key}", "%", scale=100.0, digits=3)})</small>'
     return ('<span class="mark"></span>' if mark else "") + text
 
 
@@ -74,7 +74,7 @@ def compare_html(data: dict, out: Path) -> str:
     names = ", ".join(d["name"] for d in designs)
     intro = (f"<h1>Design comparison: {esc(names)}</h1>"
              f"<p class=\"meta\">{esc(data['tool'])}; differences to the first design beyond "
-             f"{num(100.0 * data['threshold'], SRC, 'threshold', '%', scale=1.0, digits=3)} are highlighted</p>")
+             f"{num(data['threshold'], SRC, 'threshold', '%', scale=100.0, digits=3)} are highlighted</p>")
     if any(d["invented"] for d in designs):
         intro += "<div class=\"warn\">INVENTED EXAMPLE: at least one design is an invented scenario, not a measured device.</div>"
     files = table(["design", "file", "description", "curves stage files"],
