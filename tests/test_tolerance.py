@@ -36,6 +36,7 @@ def _only(**kw):
     return dataclasses.replace(zero_tolerances(AMBIENT_C), **kw)
 
 
+@pytest.mark.slow  # three runs with their figures: about 8 s
 def test_the_sample_is_seeded_and_reproducible(tmp_path):
     spec = _only(samples=6, seed=7, dimension_m=1e-4, remanence="grade")
     _, _, inputs, V1, over1 = plan(AIR, spec)
