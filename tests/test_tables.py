@@ -1,5 +1,7 @@
 """Material and wire tables against their named standards."""
 
+import re
+
 import pytest
 
 from fields.input import tables
@@ -47,6 +49,7 @@ def test_grade_ranges_are_ordered_and_plausible():
         assert g.remanence_min_T < g.remanence_max_T
         lo, hi = (1.0, 1.5) if g.family == "NdFeB" else (0.2, 0.5)
         assert lo < g.remanence_min_T and g.remanence_max_T < hi
+    nd = [g for g in nd if g.name[1:].isdigit()]  # the plain grades; the temperature classes below
     nd.sort(key=lambda g: int(g.name[1:]))
     noms = [g.remanence_nominal_T for g in nd]
     assert noms == sorted(noms)
@@ -72,3 +75,18 @@ def test_parse_gauge_rejects_sizes_outside_the_awg_series():
         tables.parse_gauge("AWG 60")
     with pytest.raises(InputError, match="parse_gauge: the gauge must be an AWG size"):
         tables.parse_gauge("thick")
+
+
+def test_temperature_classes_share_the_plain_grades_range_and_rise_in_temperature():
+    # the suffix (M, H, SH, UH, EH, AH) raises the working temperature at the same remanence
+    # (common practice, no source; the temperatures from memory): each class is hotter than the one
+    # before, and N42SH has N42's range
+    temps = [t for _, t in tables.NDFEB_TEMPERATURE_CLASSES_C]
+    assert temps == sorted(temps) and len(set(temps)) == len(temps)
+    for g in tables.GRADES.values():
+        if g.family != "NdFeB":
+            continue
+        base = tables.lookup_grade(re.match(r"N\d+", g.name).group(0))
+        assert (g.remanence_min_T, g.remanence_max_T) == (base.remanence_min_T, base.remanence_max_T)
+        assert g.max_operating_temperature_C >= base.max_operating_temperature_C
+    assert tables.lookup_grade("n42sh").max_operating_temperature_C == 150.0

@@ -21,11 +21,11 @@ for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_var, "1")
 
 from fields import __version__  # noqa: E402 (after the BLAS setting above)
-from fields.cli import check, coil, control, curves, figures, report, sensors, stability, sweep  # noqa: E402
+from fields.cli import check, coil, compare, control, curves, figures, report, sensors, stability, sweep, tolerance  # noqa: E402
 from fields.errors import HoverfieldError  # noqa: E402
 
 #: the subcommands, in the order ``--help`` lists them
-COMMANDS = (report, check, curves, stability, coil, sweep, figures, control, sensors)
+COMMANDS = (report, check, curves, stability, coil, sweep, figures, control, sensors, tolerance, compare)
 
 
 def build_parser() -> argparse.ArgumentParser:

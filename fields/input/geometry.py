@@ -444,7 +444,8 @@ def _study(t: _Table, fixed: tuple[Solid, ...], floater: Floater, file: str, has
     return st
 
 
-TOP_KEYS = ("name", "description", "invented", "coils", "cores", "magnets", "floater", "sensors", "study")
+# "tolerance" is read by fields.input.tolerancefile (the tolerance command), not by this loader
+TOP_KEYS = ("name", "description", "invented", "coils", "cores", "magnets", "floater", "sensors", "study", "tolerance")
 
 
 def loads(text: str, file: str = "<string>", base_dir: str | Path = ".", check_overlaps: bool = True) -> Design:

@@ -30,6 +30,8 @@ class Grade:
         Typical density (kg/m^3).
     source : str
         Where the numbers come from.
+    max_operating_temperature_C : float or None
+        Highest working temperature of the grade's temperature class (C), None when not tabulated.
     """
 
     name: str
@@ -38,6 +40,7 @@ class Grade:
     remanence_max_T: float
     density_kg_per_m3: float
     source: str
+    max_operating_temperature_C: float | None = None
 
     @property
     def remanence_nominal_T(self) -> float:
@@ -64,12 +67,57 @@ _NDFEB_REMANENCE_T = (("N35", 1.17, 1.22), ("N38", 1.22, 1.25), ("N40", 1.25, 1.
                       ("N45", 1.32, 1.38), ("N48", 1.38, 1.42), ("N50", 1.40, 1.45), ("N52", 1.43, 1.48))
 _FERRITE_REMANENCE_T = (("C5", 0.36, 0.40), ("C8", 0.38, 0.41), ("HF24/23", 0.35, 0.37), ("HF28/26", 0.37, 0.39))
 
+#: temperature classes of sintered NdFeB: the suffix after the energy number and the highest working
+#: temperature (C) the trade gives for it (no suffix 80 C, M 100 C, H 120 C, SH 150 C, UH 180 C,
+#: EH 200 C, AH 230 C; common practice, no source; the temperatures from memory)
+NDFEB_TEMPERATURE_CLASSES_C = (("", 80.0), ("M", 100.0), ("H", 120.0), ("SH", 150.0), ("UH", 180.0),
+                               ("EH", 200.0), ("AH", 230.0))
+#: which energy numbers are made in each temperature class, with the class's remanence range (T):
+#: the same range as the plain grade of that energy number where the class is made (the suffix
+#: trades coercivity for remanence only at the top grades, which are not made in the hot
+#: classes); from memory, the same GB/T 13560 tables
+_NDFEB_HOT_GRADES = {"M": ("N35", "N38", "N40", "N42", "N45", "N48", "N50"),
+                     "H": ("N35", "N38", "N40", "N42", "N45", "N48"),
+                     "SH": ("N35", "N38", "N40", "N42", "N45"),
+                     "UH": ("N35", "N38", "N40", "N42"),
+                     "EH": ("N35", "N38", "N40"),
+                     "AH": ("N35", "N38")}
+#: hard ferrite: highest working temperature (C), common practice, no source (from memory)
+FERRITE_MAX_OPERATING_C = 250.0
+
+#: reversible temperature coefficient of the remanence (1/K) near room temperature, by family:
+#: sintered NdFeB about -0.12 %/K, hard ferrite about -0.20 %/K (IEC 60404-8-1 quotes typical
+#: values of this size in its informative material data; from memory). Br(T) = Br(T0) (1 + alpha (T - T0)).
+REMANENCE_TEMPERATURE_COEFFICIENT_PER_K = {"NdFeB": -0.0012, "ferrite": -0.0020}
+REMANENCE_TEMPERATURE_SOURCE = ("reversible temperature coefficient of Br: NdFeB -0.12 %/K, ferrite -0.20 %/K, "
+                                "typical values (IEC 60404-8-1 material data); from memory")
+
+
+def _ndfeb_rows():
+    base = {name: (lo, hi) for name, lo, hi in _NDFEB_REMANENCE_T}
+    for suffix, t_max in NDFEB_TEMPERATURE_CLASSES_C:
+        names = [n for n, _, _ in _NDFEB_REMANENCE_T] if not suffix else _NDFEB_HOT_GRADES[suffix]
+        for n in names:
+            yield n + suffix, base[n][0], base[n][1], t_max
+
+
 GRADES: dict[str, Grade] = {
-    name.upper(): Grade(name, family, lo, hi, density, source)
-    for family, density, source, rows in (("NdFeB", NDFEB_DENSITY, _NDFEB_SRC, _NDFEB_REMANENCE_T),
-                                          ("ferrite", FERRITE_DENSITY, _FERRITE_SRC, _FERRITE_REMANENCE_T))
-    for name, lo, hi in rows
+    name.upper(): Grade(name, family, lo, hi, density, source, t_max)
+    for family, density, source, rows in (
+        ("NdFeB", NDFEB_DENSITY, _NDFEB_SRC, tuple(_ndfeb_rows())),
+        ("ferrite", FERRITE_DENSITY, _FERRITE_SRC,
+         tuple((n, lo, hi, FERRITE_MAX_OPERATING_C) for n, lo, hi in _FERRITE_REMANENCE_T)))
+    for name, lo, hi, t_max in rows
 }
+
+
+def magnet_family(grade: str | None, remanence_T: float) -> str:
+    """``"NdFeB"`` or ``"ferrite"``: the grade's family, else by remanence (above 0.6 T: NdFeB, the
+    loader's density rule)."""
+    g = lookup_grade(grade) if grade else None
+    if g is not None:
+        return g.family
+    return "NdFeB" if remanence_T > 0.6 else "ferrite"
 
 
 def lookup_grade(name: str) -> Grade | None:
@@ -135,7 +183,8 @@ G_STANDARD = constants.g
 HEXAGONAL_FILL = constants.pi / (2.0 * 3.0**0.5)
 
 __all__ = [
-    "Grade", "GRADES", "lookup_grade", "awg_diameter_m", "parse_gauge", "AWG_SOURCE",
+    "Grade", "GRADES", "lookup_grade", "magnet_family", "REMANENCE_TEMPERATURE_COEFFICIENT_PER_K",
+    "NDFEB_TEMPERATURE_CLASSES_C", "awg_diameter_m", "parse_gauge", "AWG_SOURCE",
     "COPPER_RESISTIVITY_20C_OHM_M", "COPPER_ALPHA_20C_PER_K", "COPPER_DENSITY_KG_PER_M3",
     "THERMAL_CLASSES_C", "MU_0", "G_STANDARD", "HEXAGONAL_FILL",
 ]

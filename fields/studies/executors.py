@@ -125,9 +125,12 @@ def open_executor(workers: int | None, scheduler_address: str | None):
 
 
 def run_chunks(spec: SweepSpec, chunks: list[list[tuple[int, dict]]], chunk_dir: Path, si: dict[int, tuple],
-               total: int, workers: int | None, scheduler_address: str | None, progress: bool) -> int:
+               total: int, workers: int | None, scheduler_address: str | None, progress: bool,
+               desc: str = "sweep") -> int:
     """Evaluate the chunks (in this process with ``workers == 0``, else on a pool or cluster),
-    writing each chunk file as it finishes; returns the number of designs evaluated."""
+    writing each chunk file as it finishes; returns the number of designs evaluated. ``spec`` is
+    a :class:`SweepSpec` or any object with its ``base_path``, ``base_text``, ``columns``,
+    ``sweep_id`` and ``parameters`` (the tolerance study passes its own); ``desc`` labels the bar."""
     from tqdm import tqdm
 
     label = Path(spec.base_path).name
@@ -135,7 +138,7 @@ def run_chunks(spec: SweepSpec, chunks: list[list[tuple[int, dict]]], chunk_dir:
     todo = sum(len(ch) for ch in chunks)
     evaluated = 0
     bar = tqdm(total=total, initial=total - todo, file=sys.stderr, disable=not progress, unit="design",
-               desc="sweep", dynamic_ncols=True)
+               desc=desc, dynamic_ncols=True)
 
     def finished(ch, rows):
         nonlocal evaluated
