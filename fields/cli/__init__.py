@@ -21,11 +21,11 @@ for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_var, "1")
 
 from fields import __version__
-from fields.cli import check, coil, control, curves, figures, report, sensors, stability, sweep
+from fields.cli import check, coil, control, curves, figures, report, sensors, size, stability, sweep
 from fields.errors import HoverfieldError
 
 #: the subcommands, in the order ``--help`` lists them
-COMMANDS = (report, check, curves, stability, coil, sweep, figures, control, sensors)
+COMMANDS = (report, check, curves, stability, coil, sweep, size, figures, control, sensors)
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -189,6 +189,42 @@ def _temperature(I: float, R20: float, G: float, amb: float) -> float:
     return float(T[0])
 
 
+def check_limits(req: Requirement, temperature_C: float, current_density_A_per_m2: float, headroom_V: float,
+                 driver_W: float, ki_min_N_per_A: float) -> tuple[tuple[float, ...], tuple[float, ...]]:
+    """Normalised violations (0 where met) and the compared values, in :data:`LIMIT_NAMES` order."""
+    lim = limits_of(req)
+    tmax, span = lim.max_winding_temperature_C, lim.max_winding_temperature_C - req.ambient_C
+    jmax, Vs = lim.max_current_density_A_per_m2, req.supply_voltage_V
+    pmax = lim.max_driver_dissipation_W
+    big = 1e3  # a runaway, an unreachable hover or no upward force
+    viol = (max(0.0, (temperature_C - tmax) / span) if math.isfinite(temperature_C) else big,
+            max(0.0, (current_density_A_per_m2 - jmax) / jmax) if math.isfinite(current_density_A_per_m2) else big,
+            max(0.0, (lim.min_headroom_V - headroom_V) / Vs) if math.isfinite(headroom_V) else big,
+            (max(0.0, (driver_W - pmax) / pmax) if math.isfinite(pmax) else 0.0) if math.isfinite(driver_W) else big,
+            0.0 if ki_min_N_per_A > 0 else big)
+    values = (temperature_C, current_density_A_per_m2, headroom_V, driver_W, ki_min_N_per_A)
+    return tuple(float(v) for v in viol), tuple(float(v) for v in values)
+
+
+def limit_text(req: Requirement, index: int, value: float) -> str:
+    """How far a candidate is from one limit, e.g. ``"winding temperature: best candidate
+    reaches 212 C, limit 155 C"``."""
+    lim = limits_of(req)
+    name = LIMIT_NAMES[index]
+    if index == 0:
+        got = "runs away thermally" if not math.isfinite(value) else f"reaches {value:.0f} C"
+        return f"{name}: best candidate {got}, limit {lim.max_winding_temperature_C:.0f} C"
+    if index == 1:
+        return (f"{name}: best candidate needs {value / 1e6:.3g} A/mm^2, limit "
+                f"{lim.max_current_density_A_per_m2 / 1e6:.3g} A/mm^2")
+    if index == 2:
+        got = "cannot reach the hover current" if not math.isfinite(value) else f"leaves {value:.3g} V"
+        return f"{name}: best candidate {got}, needs at least {lim.min_headroom_V:.3g} V of {req.supply_voltage_V:g} V"
+    if index == 3:
+        return f"{name}: best candidate puts {value:.3g} W into a linear driver, limit {lim.max_driver_dissipation_W:.3g} W"
+    return f"{name}: no candidate's coil pulls the floater up (force per ampere {value:.3g} N/A)"
+
+
 def quick_numbers(req: Requirement, c: Candidate, F0_N: np.ndarray, ki_per_turn: np.ndarray,
                   dki_dh_per_turn: float, kz0: float, mass_kg: float) -> Quick:
     """The quick numbers of a candidate from the per-turn force of its winding shape.
@@ -227,20 +263,13 @@ def quick_numbers(req: Requirement, c: Candidate, F0_N: np.ndarray, ki_per_turn:
     m = req.magnets[c.magnet]
     core_m = (math.pi * (a - FORMER_WALL_M) ** 2 * h * IRON_DENSITY_KG_PER_M3) if req.has_core else 0.0
     copper_m = tables.COPPER_DENSITY_KG_PER_M3 * N * math.pi * (a + b) * area
-    tmax, span = lim.max_winding_temperature_C, lim.max_winding_temperature_C - amb
-    values = (T_w, J, Vs - V, P_drv, float(np.min(ki)))
-    viol = (max(0.0, (T_w - tmax) / span) if math.isfinite(T_w) else 1e3,
-            max(0.0, (J - lim.max_current_density_A_per_m2) / lim.max_current_density_A_per_m2) if math.isfinite(J) else 1e3,
-            max(0.0, (lim.min_headroom_V - (Vs - V)) / Vs) if math.isfinite(V) else 1e3,
-            (max(0.0, (P_drv - lim.max_driver_dissipation_W) / lim.max_driver_dissipation_W)
-             if math.isfinite(lim.max_driver_dissipation_W) else 0.0) if math.isfinite(P_drv) else 1e3,
-            0.0 if float(np.min(ki)) > 0 else 1e3)
+    viol, values = check_limits(req, T_w, J, Vs - V, float(P_drv), float(np.min(ki)))
     kz = kz0 - i_op * dki_dh_per_turn * N
     return Quick(candidate=c, turns=N, hover_current_A=i_op, worst_current_A=i_w, ki_N_per_A=float(ki[iop]), kz_N_per_m=float(kz),
                  resistance_20C_ohm=R20, coil_temperature_C=T_w, coil_power_W=i_op * i_op * Rop if math.isfinite(i_op) else math.inf,
                  coil_voltage_V=V, headroom_V=Vs - V, driver_dissipation_W=float(P_drv), current_density_A_per_m2=J,
                  total_mass_kg=copper_m + m.mass_kg + core_m, magnet_volume_m3=m.volume_m3,
-                 violations=tuple(float(v) for v in viol), values=tuple(float(v) for v in values))
+                 violations=viol, values=values)
 
 
 def objective_value(req: Requirement, q: Quick) -> float:
