@@ -286,6 +286,44 @@ def objective_value(req: Requirement, q: Quick) -> float:
     return q.magnet_volume_m3 * 1e6 + 1e-4 * q.coil_power_W  # cm^3, ties to the lower coil power
 
 
+#: per process: the loaded design of each (requirement, magnet), the template of its shapes
+_TEMPLATES: dict = {}
+
+
+def _template(req: Requirement, magnet: int):
+    """The candidate design of ``magnet`` read by the normal loader once per process.
+
+    The coil's lower face is fixed, so the gap axis the loader places (floater top to that face)
+    is the same for every winding shape of this magnet; only the coil changes between shapes.
+    """
+    from fields.input.geometry import loads
+    from fields.studies.expand import toml_text
+
+    key = (req, magnet)
+    if key not in _TEMPLATES:
+        if len(_TEMPLATES) > 256:
+            _TEMPLATES.clear()
+        c = geometry_of(req, magnet, req.gauges[0], (req.max_height_m, req.max_outer_radius_m, 0.0))
+        data = design_dict(req, c, name="size-candidate", with_core=False)
+        _TEMPLATES[key] = loads(toml_text(data), file=f"{req.file} (size candidate)", check_overlaps=False)
+    return _TEMPLATES[key]
+
+
+def candidate_design(req: Requirement, c: Candidate):
+    """The iron-free design of a candidate: the template with this winding (turns as the loader
+    rounds them, wire from the gauge, centre half a height above the fixed lower face)."""
+    from dataclasses import replace
+
+    base = _template(req, c.magnet)
+    N = turns_of(c, limits_of(req).fill_factor)
+    d = tables.awg_diameter_m(tables.parse_gauge(c.gauge))
+    fill = N * math.pi * d * d / 4.0 / ((c.outer_radius_m - c.inner_radius_m) * c.height_m)
+    coil = replace(base.coils[0], inner_radius_m=c.inner_radius_m, outer_radius_m=c.outer_radius_m, height_m=c.height_m,
+                   turns=float(N), position_m=(0.0, 0.0, req.coil_bottom_height_m + 0.5 * c.height_m),
+                   wire_diameter_m=d, wire_gauge=c.gauge, fill_factor=fill)
+    return replace(base, coils=(coil,))
+
+
 def shape_forces(req: Requirement, magnet: int, x) -> tuple[Candidate, np.ndarray, np.ndarray, float, float, float]:
     """Per-turn force of a winding shape at the requirement's gaps (iron-free engine).
 
@@ -293,12 +331,9 @@ def shape_forces(req: Requirement, magnet: int, x) -> tuple[Candidate, np.ndarra
     operating gap, kz0 at the operating gap, floater mass)``.
     """
     from fields import analysis
-    from fields.input.geometry import loads
-    from fields.studies.expand import toml_text
 
     c = geometry_of(req, magnet, req.gauges[0], x)
-    data = design_dict(req, c, name="size-candidate", with_core=False)
-    design = loads(toml_text(data), file=f"{req.file} (size candidate)", check_overlaps=False)
+    design = candidate_design(req, c)
     cv = analysis.axial_curves(design, gaps_m=list(req.gaps_m), currents_A=[0.0])
     N = design.coils[0].turns
     iop = req.gaps_m.index(req.operating_gap_m)
