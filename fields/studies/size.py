@@ -32,7 +32,7 @@ from fields.studies import size_model as sm
 #: population of the evolution per searched number (scipy's popsize)
 POPULATION_PER_DIMENSION = 8
 #: function evaluations of each local refinement
-REFINE_EVALUATIONS = 120
+REFINE_EVALUATIONS = 300
 #: two designs of the same magnet and gauge count as alternatives when a dimension differs by this (m)
 DISTINCT_M = 1e-3
 
