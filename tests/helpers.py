@@ -5,7 +5,9 @@ from __future__ import annotations
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
-EXAMPLES = sorted((ROOT / "geometries").glob("*.toml"))
+#: the example geometry files (requirement files of `hoverfield size` sit beside them, named requirement_*)
+EXAMPLES = sorted(p for p in (ROOT / "geometries").glob("*.toml") if not p.name.startswith("requirement_"))
+REQUIREMENTS = sorted((ROOT / "geometries").glob("requirement_*.toml"))
 SUSPENSION = ROOT / "geometries" / "suspension.toml"
 REPULSIVE = ROOT / "geometries" / "repulsive_base.toml"
 

@@ -20,12 +20,12 @@ import sys
 for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_var, "1")
 
-from fields import __version__  # noqa: E402 (after the BLAS setting above)
-from fields.cli import check, coil, compare, control, curves, figures, report, sensors, stability, sweep, tolerance  # noqa: E402
-from fields.errors import HoverfieldError  # noqa: E402
+from fields import __version__
+from fields.cli import check, coil, compare, control, curves, figures, report, sensors, size, stability, sweep, tolerance
+from fields.errors import HoverfieldError
 
 #: the subcommands, in the order ``--help`` lists them
-COMMANDS = (report, check, curves, stability, coil, sweep, figures, control, sensors, tolerance, compare)
+COMMANDS = (report, check, curves, stability, coil, sweep, size, tolerance, compare, figures, control, sensors)
 
 
 def build_parser() -> argparse.ArgumentParser:
