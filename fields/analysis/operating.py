@@ -45,6 +45,9 @@ class OperatingPoint:
         The drive-current limit of the pattern (:attr:`fields.analysis.AxialCurves.max_current_A`).
     at_operating_gap : fields.analysis.AxialCurves
         Curves at the operating gap alone (zero current): force per ampere, payload envelope.
+    chosen : bool
+        True: a point the user asked for (:func:`chosen_point`), in general not an equilibrium;
+        the residual force and torque say how far from one.
     """
 
     equilibrium: analysis.Equilibrium
@@ -56,6 +59,7 @@ class OperatingPoint:
     hover_current_at_operating_gap_A: float
     max_current_A: float
     at_operating_gap: analysis.AxialCurves
+    chosen: bool = False
 
     @property
     def hover_within_limit(self) -> bool:
@@ -112,3 +116,46 @@ def operating_point(design: Design, curves: analysis.AxialCurves | None = None) 
                           drive_current_A=float(drive), operating_gap_m=float(gop),
                           hover_current_at_operating_gap_A=float(one.hover_current_A[0]),
                           max_current_A=float(c.max_current_A), at_operating_gap=one)
+
+
+def chosen_point(design: Design, gap_m: float, current_A: float | None = None) -> OperatingPoint:
+    """A point the user chose instead of the equilibrium: the floater at ``gap_m`` on the gap
+    axis (the study's floater attitude) with the drive current ``current_A`` along the drive
+    pattern (default: the hover current at that gap, so only the free transverse axes may be out
+    of balance).
+
+    The returned ``equilibrium`` holds the pose, the currents and the residual force (magnetic
+    plus weight) and torque there; it has no free axes (nothing was solved for) and
+    ``chosen`` is True.
+
+    Raises
+    ------
+    InputError
+        ``gap_m`` outside the study's gap range, or a current without coils.
+    """
+    from fields.analysis.equilibrium import _force_torque
+    from fields.analysis.poses import pose_at_gap
+    from fields.errors import InputError
+
+    st = design.study
+    g = float(gap_m)
+    if not (st.gap_min_m <= g <= st.gap_max_m):
+        raise InputError(f"chosen point: gap {g * 1e3:.4g} mm must be inside gap_min..gap_max "
+                         f"({st.gap_min_m * 1e3:.4g}..{st.gap_max_m * 1e3:.4g} mm)")
+    if current_A is not None and not design.coils:
+        raise InputError("chosen point: a current was given but the design has no coils")
+    at = analysis.axial_curves(design, gaps_m=[g], currents_A=[0.0])
+    ih = float(at.hover_current_A[0])
+    drive = (ih if np.isfinite(ih) else 0.0) if current_A is None else float(current_A)
+    currents = drive * at.pattern if design.coils else np.zeros(0)
+    P, Rv = pose_at_gap(design, [g])
+    F, T, contact = _force_torque(design, P, Rv, currents)
+    if bool(contact[0]):
+        raise InputError(f"chosen point: at gap {g * 1e3:.4g} mm the floater touches a body")
+    gvec = np.asarray(st.gravity_m_per_s2) * design.floater.mass_kg
+    eq = analysis.Equilibrium(position_m=P[0], rotvec_rad=Rv[0], currents_A=currents, gap_m=g,
+                              residual_force_N=F[0] + gvec, residual_torque_Nm=T[0], free_axes=(), iterations=1)
+    return OperatingPoint(equilibrium=eq, currents_A=currents, passive=False, axial_gap_m=g, drive_current_A=drive,
+                          operating_gap_m=float(st.operating_gap_m),
+                          hover_current_at_operating_gap_A=ih, max_current_A=float(at.max_current_A),
+                          at_operating_gap=at, chosen=True)

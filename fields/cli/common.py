@@ -32,3 +32,14 @@ def print_warnings(warnings) -> None:
 
 def print_files(files) -> None:
     print("wrote " + ", ".join(files))
+
+
+def parse_option(args, option: str, text: str, kind: str) -> float:
+    """A command-line quantity (``"12 mm"``) in SI; a bad one is a one-line error naming the option."""
+    from fields.errors import GeometryError, HoverfieldError
+    from fields.input.units import parse
+
+    try:
+        return parse(text, kind)
+    except HoverfieldError as e:
+        raise GeometryError("command line", option, f"a {kind} with a unit (e.g. '12 mm' or '0.5 A')", text) from e

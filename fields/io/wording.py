@@ -75,10 +75,26 @@ def equilibrium_label(stable: bool) -> str:
     return "axially stable" if stable else "axially unstable"
 
 
+def map_grid_text(lateral, tilt, gap_points: int) -> str:
+    """How many gaps and offsets the maps use (their own grid; the curves use gap_points)."""
+    return (f"maps on {len(lateral.gaps_m)} gaps x {len(lateral.coordinate)} sideways offsets and "
+            f"{len(tilt.gaps_m)} gaps x {len(tilt.coordinate)} tilts (their own grid; the curves use "
+            f"gap_points = {gap_points})")
+
+
+def _vec(v) -> str:
+    return "(" + ", ".join(f"{x:.3g}" if abs(x) > 1e-12 else "0" for x in v) + ")"
+
+
 def operating_point_text(op) -> str:
     """How the operating point (:class:`fields.analysis.operating.OperatingPoint`) was chosen."""
     gop = op.operating_gap_m * 1e3
     ih = op.hover_current_at_operating_gap_A
+    if getattr(op, "chosen", False):
+        eq = op.equilibrium
+        return (f"chosen point: gap {eq.gap_m * 1e3:.4g} mm, drive current {op.drive_current_A:.4g} A (hover "
+                f"current there {ih:.4g} A); not solved for balance: net force {_vec(eq.residual_force_N)} N, "
+                f"torque {_vec(eq.residual_torque_Nm)} N m")
     if op.passive:
         return (f"passive equilibrium at zero current, gap {op.axial_gap_m * 1e3:.4g} mm (axially stable; "
                 f"holding the operating gap {gop:.4g} mm instead would take {ih:.4g} A)")

@@ -75,6 +75,8 @@ class StabilityResult:
     allocation: AllocationSummary | None = optional()
     passively_centred_fraction_lateral: float | None = optional()
     passively_centred_fraction_tilt: float | None = optional()
+    map_grid: str | None = optional()
+    chosen_point: bool = False
     files: tuple[str, ...] = ()
     operating: OperatingPoint = internal()
     verdict: analysis.Verdict = internal()
@@ -152,15 +154,25 @@ def _maps(design: Design, eq: analysis.Equilibrium, out: Path) -> PoseMaps:
 
 
 def run_stability(design: Design, out: Path, curves: analysis.AxialCurves | None = None,
-                  with_maps: bool = True) -> StabilityResult:
+                  with_maps: bool = True, at_gap_m: float | None = None,
+                  at_current_A: float | None = None) -> StabilityResult:
     """Equilibrium, 6x6 stiffness, verdict, maps: stability.json, stiffness.csv, maps, PNGs.
 
-    ``curves`` are the axial curves when the caller has them (the report does)."""
+    ``curves`` are the axial curves when the caller has them (the report does). With
+    ``at_gap_m`` the analysis is at that gap and the drive current ``at_current_A`` (default the
+    hover current there) instead of the operating point (:func:`fields.analysis.operating.chosen_point`):
+    the stiffness and verdict then describe that pose, which need not be in balance; the maps
+    are at its currents."""
+    from fields.analysis.operating import chosen_point
     from fields.io import wording
     from fields.io.export import write_json
 
     out = Path(out)
-    op = operating_point(design, curves)
+    if at_gap_m is None and at_current_A is not None:
+        from fields.errors import InputError
+
+        raise InputError("stability: a current for the chosen point needs its gap as well")
+    op = operating_point(design, curves) if at_gap_m is None else chosen_point(design, at_gap_m, at_current_A)
     eq = op.equilibrium
     S = analysis.stiffness_matrix(design, eq.position_m, eq.rotvec_rad, eq.currents_A)
     v = analysis.stability_verdict(design, S)
@@ -187,6 +199,8 @@ def run_stability(design: Design, out: Path, curves: analysis.AxialCurves | None
         earnshaw_note=wording.earnshaw_note(bool(design.cores)), notes=wording.verdict_notes(v), allocation=alloc,
         passively_centred_fraction_lateral=float(maps.lateral.passively_centred.mean()) if maps else None,
         passively_centred_fraction_tilt=float(maps.tilt.passively_centred.mean()) if maps else None,
+        map_grid=wording.map_grid_text(maps.lateral, maps.tilt, design.study.gap_points) if maps else None,
+        chosen_point=bool(op.chosen),
         files=file_list(out, *files), operating=op, verdict=v, stiffness=S, maps=maps)
     write_json(out / "stability.json", result)
     return result
