@@ -106,7 +106,8 @@ def operating_point(design: Design, curves: analysis.AxialCurves | None = None) 
         No passive stable height and no hover within the current limit, or the six-axis search
         does not converge.
     """
-    c = curves if curves is not None else analysis.axial_curves(design)
+    # the zero-current equilibria need the force at zero current only: one current, not the family
+    c = curves if curves is not None else analysis.axial_curves(design, currents_A=[0.0])
     gop = design.study.operating_gap_m
     one = analysis.axial_curves(design, gaps_m=[gop], currents_A=[0.0])
     passive, start, drive = choose_start(design, c, one)
