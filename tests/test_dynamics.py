@@ -544,3 +544,18 @@ def test_hysteresis_study(params, table):
     assert hv.status == ("limit cycle",)
     assert hv.mean_supply_power_W[0] == pytest.approx(hv.mean_joule_power_W[0], rel=0.02)
     assert hv.mean_joule_power_W[0] > R * I0_A**2
+
+
+def test_leaving_the_table_sideways_is_told_in_words(table):
+    # the same invented plant named as a non-vertical axis (gravity kept along -s so that the
+    # equilibrium is the same): a start 8 mm on the minus side asks for more than the 1 A limit
+    # and the floater is lost there (as in test_saturation_and_contact for the vertical axis);
+    # the fate a user reads (capture.csv's fate column) is words, not a code name
+    side = make_params(axis_name="sideways x", gravity_m_per_s2=G)
+    c = design_controller(linear_plant(side, "current"), sample_time_s=T_S)
+    cap = capture_range(side, table, c, (-0.008, 0.0), (0.0,), t_end_s=0.3, band_refine_rounds=0)
+    assert cap.fate[0, 0] == Outcome.LEFT_TABLE_LOW.value
+    assert cap.fate[0, 0].startswith("lost on the minus side") and "force table" in cap.fate[0, 0]
+    assert cap.fate[1, 0] == Outcome.CAPTURED.value
+    for o in Outcome:  # every fate and on/off status reads as words; the code stays machine-readable
+        assert "_" not in o.value and o.code.isidentifier()
