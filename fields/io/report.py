@@ -42,18 +42,28 @@ ul.files li{margin:2px 0} ul.files small{color:#56606c}
 """
 
 
-def num(value: Any, src: str, path: str, unit: str = "", digits: int = 4, scale: float = 1.0) -> str:
-    """A number as HTML with its provenance; ``scale`` converts SI to the shown unit (e.g. 1e3 for mm)."""
+def num(value: Any, src: str, path: str, unit: str = "", digits: int = 4, scale: float = 1.0,
+        zero_below: float | None = None) -> str:
+    """A number as HTML with its provenance; ``scale`` converts SI to the shown unit (e.g. 1e3 for mm).
+
+    ``zero_below`` (SI, see :func:`fields.io.numbers.zero_bound`): a value no larger in magnitude
+    is shown as ``0`` and the span carries ``data-zero-below``; an exact zero is ``0``, never ``-0``.
+    """
+    zattr = ""
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         shown = "n/a"
         raw = "null"
     else:
         v = float(value)
-        shown = f"{v * scale:.{digits}g}"
         raw = repr(v)
+        if v == 0.0 or (zero_below is not None and abs(v) <= zero_below):
+            shown = "0"
+            zattr = f' data-zero-below="{float(zero_below or 0.0)!r}"'
+        else:
+            shown = f"{v * scale:.{digits}g}"
     u = f" {html.escape(unit)}" if unit else ""
     return (f'<span class="num" data-src="{html.escape(src)}" data-path="{html.escape(path)}" '
-            f'data-value="{raw}" data-scale="{scale!r}" data-digits="{digits}">{shown}</span>{u}')
+            f'data-value="{raw}" data-scale="{scale!r}" data-digits="{digits}"{zattr}>{shown}</span>{u}')
 
 
 def img(path: Path, alt: str) -> str:

@@ -112,9 +112,7 @@ def _stability(stab: dict, out: Path) -> list[str]:
     axes = ["x", "y", "z", "rx", "ry", "rz"]
     K = stab["stiffness_matrix"]
     E = stab["stiffness_error"]
-    krows = [[esc(a)] + [num(K[i][j], "stability.json", f"stiffness_matrix[{i}][{j}]", digits=4) +
-                         f' <small>&plusmn;{num(E[i][j], "stability.json", f"stiffness_error[{i}][{j}]", stiffness_unit(i, j), digits=1)}</small>'
-                         for j in range(6)] for i, a in enumerate(axes)]
+    krows = [[esc(a)] + [_stiffness_cell(K, E, i, j) for j in range(6)] for i, a in enumerate(axes)]
     S.append("<p>Stiffness matrix K = -d(F, T)/d(x, y, z, rx, ry, rz) about the centre of mass "
              "(N/m, N/rad, N m/m, N m/rad by block; every error bar carries its unit), with the Richardson error bar "
              "of each entry. "
@@ -127,6 +125,19 @@ def _stability(stab: dict, out: Path) -> list[str]:
         S.append(f"<p>Coils to force/torque: {esc(stab['allocation']['text'])} (<code>allocation.csv</code>).</p>")
     S.append(img(out / "maps.png", "sideways and tilt maps") + img(out / "stiffness_vs_gap.png", "stiffness versus gap"))
     return S
+
+
+def _stiffness_cell(K, E, i: int, j: int) -> str:
+    """One stiffness entry with its error bar; round-off of an exact zero (within its error bar or
+    1e-12 of its block's largest entry, :mod:`fields.io.numbers`) is shown as 0, without a bar."""
+    from fields.io.numbers import zero_bound
+
+    rows, cols = (range(3), range(3, 6))[i >= 3], (range(3), range(3, 6))[j >= 3]
+    bound = zero_bound(E[i][j], max(abs(K[a][b]) for a in rows for b in cols))
+    cell = num(K[i][j], "stability.json", f"stiffness_matrix[{i}][{j}]", digits=4, zero_below=bound)
+    if abs(K[i][j]) <= bound:
+        return cell + f" {stiffness_unit(i, j)}"
+    return cell + f' <small>&plusmn;{num(E[i][j], "stability.json", f"stiffness_error[{i}][{j}]", stiffness_unit(i, j), digits=1)}</small>'
 
 
 def _coil(coil: dict, out: Path) -> list[str]:

@@ -34,14 +34,23 @@ def safety_text() -> str:
 def mode_text(mode) -> str:
     """One line for a stability mode (:class:`fields.analysis.Mode`): name, stable or not,
     stiffness with its unit, natural frequency or growth time."""
+    from fields.io.numbers import fmt
+
     name = mode_name(mode)
     if mode.neutral:
         return f"{name}: neutral (no restoring stiffness)"
+    k = f"{fmt(mode.stiffness, 3)} {mode.unit}"
+    if getattr(mode, "coupled_axes", ()):
+        shown = [fmt(d, 3) for d in mode.diagonal_stiffness]
+        diag = (" = ".join(f"K[{a},{a}]" for a in mode.axes) + f" {shown[0]}" if len(set(shown)) == 1
+                else ", ".join(f"K[{a},{a}] {d}" for a, d in zip(mode.axes, shown)))
+        k = (f"modal stiffness {k} (matrix diagonal {diag} {mode.unit}; "
+             f"{100 * mode.coupling_share:.0f} % of the motion's energy in the coupled axes)")
     if mode.stable:
         f = f", {mode.frequency_Hz:.3g} Hz" if mode.frequency_Hz else ""
-        return f"{name}: stable, {mode.stiffness:.3g} {mode.unit}{f}"
+        return f"{name}: stable, {k}{f}"
     t = f", grows with time constant {mode.growth_time_s * 1e3:.3g} ms" if mode.growth_time_s else ""
-    return f"{name}: unstable, needs feedback, {mode.stiffness:.3g} {mode.unit}{t}"
+    return f"{name}: unstable, needs feedback, {k}{t}"
 
 
 def verdict_lines(verdict) -> list[str]:
@@ -51,8 +60,10 @@ def verdict_lines(verdict) -> list[str]:
     out.append(f"axes needing active control: {verdict.unstable_count}")
     why = ("not expected to vanish: the iron core's magnetization follows the floater" if verdict.iron
            else "vanishes for rigid magnets in iron-free fields (Earnshaw)")
+    diag = ("; it adds the matrix diagonal K[x,x] + K[y,y] + K[z,z], not the modal stiffnesses of coupled modes"
+            if any(getattr(m, "coupled_axes", ()) for m in verdict.modes) else "")
     out.append(f"Earnshaw check: trace of translational stiffness {verdict.earnshaw_trace_N_per_m:.3g} N/m "
-               f"({verdict.earnshaw_residual:.2g} of the largest diagonal entry; {why})")
+               f"({verdict.earnshaw_residual:.2g} of the largest diagonal entry; {why}{diag})")
     return out
 
 
@@ -159,15 +170,27 @@ def group_coil_warnings(warnings: Sequence[str], coil_names: Sequence[str]) -> l
 
 
 def mode_name(mode) -> str:
-    """Name of a stability mode from its kind and axes ("sideways x/y", "tilt about y", ...)."""
+    """Name of a stability mode from its kind and axes ("sideways x/y", "tilt about y", ...);
+    a coupled mode names the axes it mixes with ("sideways x coupled with tilt about y")."""
+    from fields.analysis.verdict import MODE_KIND
+
+    base = _axes_name(mode.kind, mode.axes)
+    coupled = getattr(mode, "coupled_axes", ())
+    if not coupled:
+        return base
+    return f"{base} coupled with {_axes_name(MODE_KIND[coupled[0]], coupled)}"
+
+
+def _axes_name(kind, axes) -> str:
     from fields.analysis.verdict import ModeKind
 
-    two = len(mode.axes) == 2
-    if mode.kind is ModeKind.SIDEWAYS:
-        return f"sideways {'x/y' if two else mode.axes[0]}"
-    if mode.kind is ModeKind.TILT:
-        return f"tilt about {'x/y' if two else mode.axes[0].lstrip('r')}"
-    return "vertical" if mode.kind is ModeKind.VERTICAL else "spin about vertical"
+    if kind is ModeKind.SIDEWAYS:
+        return "sideways " + "/".join(axes)
+    if kind is ModeKind.TILT:
+        return "tilt about " + "/".join(a.lstrip("r") for a in axes)
+    if kind is ModeKind.VERTICAL:
+        return "vertical"
+    return "spin about vertical"
 
 
 def verdict_notes(verdict) -> tuple[str, ...]:
