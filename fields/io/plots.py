@@ -165,16 +165,26 @@ def pose_maps(lateral_map, tilt_map, title: str = ""):
 
 
 def stiffness_vs_gap(gs, title: str = ""):
-    """Lateral, vertical and tilt stiffness versus gap (at the hover current)."""
+    """Lateral, vertical and tilt stiffness versus gap (at the hover current); k_x and k_y (and
+    the two tilts) are drawn apart unless they agree at every gap (:meth:`GapStiffness.same_xy`)."""
     fig, (a1, a2) = plt.subplots(2, 1, figsize=(8, 6), sharex=True)
     g = gs.gaps_m * 1e3
-    a1.plot(g, gs.k_lateral_N_per_m, label="sideways k_x = k_y", color="#2e7d32")
+    xy, rxy = gs.same_xy()
+    if xy:
+        a1.plot(g, gs.k_x_N_per_m, label="sideways k_x = k_y", color="#2e7d32")
+    else:  # not round (e.g. a bar magnet): each sideways axis on its own
+        a1.plot(g, gs.k_x_N_per_m, label="sideways k_x", color="#2e7d32")
+        a1.plot(g, gs.k_y_N_per_m, label="sideways k_y", color="#9e9d24", ls="--")
     a1.plot(g, gs.k_vertical_N_per_m, label="vertical k_z", color="#1f4e9c")
     a1.axhline(0, color="k", lw=0.8)
     a1.set_ylabel("stiffness (N/m)\n> 0 restores")
     a1.legend(fontsize=8)
     a1.grid(True, alpha=0.3)
-    a2.plot(g, gs.k_tilt_Nm_per_rad * 1e3, color="#8e24aa", label="tilt k_rx = k_ry")
+    if rxy:
+        a2.plot(g, gs.k_rx_Nm_per_rad * 1e3, color="#8e24aa", label="tilt k_rx = k_ry")
+    else:
+        a2.plot(g, gs.k_rx_Nm_per_rad * 1e3, color="#8e24aa", label="tilt k_rx (about x)")
+        a2.plot(g, gs.k_ry_Nm_per_rad * 1e3, color="#c2185b", ls="--", label="tilt k_ry (about y)")
     a2.axhline(0, color="k", lw=0.8)
     a2.set_ylabel("tilt stiffness (mN m/rad)")
     a2.set_xlabel("gap (mm)")
