@@ -99,9 +99,9 @@ class CoilData:
     notices : tuple of Notice
         Codes (values in brackets): ``wire_inferred``, ``high_fill``, ``fill_mismatch`` (see
         :func:`fields.devices.winding.coil_wire`); ``thermal_runaway`` (``count``, ``of``,
-        ``first_gap_m``); ``runaway_at_operating`` (``quoted_temperature_C``);
+        ``first_gap_m``, ``runs_m``: the contiguous gap runs of :func:`gap_runs`); ``runaway_at_operating`` (``quoted_temperature_C``);
         ``insulation_class_assumed`` (``class_C``); ``above_thermal_class`` (``class_C``,
-        ``count``, ``of``, ``gap_lo_m``, ``gap_hi_m``); ``near_thermal_class`` (``temperature_C``,
+        ``count``, ``of``, ``gap_lo_m``, ``gap_hi_m``, ``runs_m``); ``near_thermal_class`` (``temperature_C``,
         ``allowance_K``, ``class_C``); ``current_density_high`` (``max_A_per_mm2``,
         ``limit_A_per_mm2``, ``currents_from_hover``); ``max_current_density_high``
         (``value_A_per_mm2``, ``limit_A_per_mm2``); ``core_saturates`` (``count``, ``of``): some
@@ -182,6 +182,29 @@ def _currents(design: Design, coil_index: int, hover_currents_A, gaps: np.ndarra
     return H[:, coil_index].copy(), H, True
 
 
+def gap_runs(gaps_m, mask) -> tuple[tuple[float, float], ...]:
+    """The gaps where ``mask`` holds as contiguous runs along the sorted gap grid: ``(first,
+    last)`` gap of each run (a lone gap is a run of one), so a range never spans gaps where the
+    mask is False.
+
+    >>> gap_runs([1.0, 2.0, 3.0, 4.0, 5.0], [True, True, False, True, False])
+    ((1.0, 2.0), (4.0, 4.0))
+    """
+    g = np.asarray(gaps_m, dtype=float)
+    m = np.asarray(mask, dtype=bool)
+    o = np.argsort(g, kind="stable")
+    g, m = g[o], m[o]
+    runs, start = [], None
+    for i in range(g.size):
+        if m[i] and start is None:
+            start = i
+        if start is not None and (not m[i] or i == g.size - 1):
+            end = i if m[i] else i - 1
+            runs.append((float(g[start]), float(g[end])))
+            start = None
+    return tuple(runs)
+
+
 def _thermal(coil: Coil, I: np.ndarray, R20: float, G: float, Tamb: float, gaps: np.ndarray,
              notices: list[Notice]):
     """Steady temperature, hot resistance and power at each gap's current."""
@@ -189,7 +212,8 @@ def _thermal(coil: Coil, I: np.ndarray, R20: float, G: float, Tamb: float, gaps:
     R_hot = hot_resistance_ohm(R20, T)
     if np.any(run):
         notices.append(Notice("thermal_runaway", coil.name, {"count": int(run.sum()), "of": int(gaps.size),
-                                                             "first_gap_m": float(gaps[run][0])}))
+                                                             "first_gap_m": float(gaps[run][0]),
+                                                             "runs_m": gap_runs(gaps, run)}))
     return T, run, R_hot, I * I * R_hot
 
 
@@ -219,7 +243,7 @@ def _insulation(coil: Coil, T: np.ndarray, gaps: np.ndarray, notices: list[Notic
             go = gaps[over]
             notices.append(Notice("above_thermal_class", coil.name, {
                 "class_C": ins, "count": int(over.sum()), "of": int(gaps.size),
-                "gap_lo_m": float(go.min()), "gap_hi_m": float(go.max())}))
+                "gap_lo_m": float(go.min()), "gap_hi_m": float(go.max()), "runs_m": gap_runs(gaps, over)}))
         elif Tmax + HOT_SPOT_ALLOWANCE_K > ins:
             notices.append(Notice("near_thermal_class", coil.name, {
                 "temperature_C": Tmax, "allowance_K": HOT_SPOT_ALLOWANCE_K, "class_C": ins}))

@@ -25,7 +25,7 @@ h1{font-size:1.6em;margin:.2em 0} h2{border-bottom:2px solid #d5dbe3;padding-bot
 h3{margin-bottom:.3em}
 .meta{color:#56606c;font-size:.9em}
 .verdict{border-left:6px solid #1f4e9c;background:#eef3fb;padding:10px 16px;margin:14px 0}
-.verdict li.unstable{color:#9b1c1c;font-weight:600} .verdict li.stable{color:#1e6b35}
+.verdict li.unstable{color:#9b1c1c;font-weight:600} .verdict li.stable{color:#1e6b35} .verdict p.unstable{color:#9b1c1c}
 .warn{border-left:6px solid #c77700;background:#fff6e6;padding:8px 16px;margin:14px 0}
 .fail{border-left:6px solid #b00020;background:#fdecee;padding:8px 16px;margin:14px 0}
 .safety{border-left:6px solid #6b6b6b;background:#f1f1f1;padding:8px 16px;margin:14px 0;font-size:.92em}

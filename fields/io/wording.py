@@ -255,14 +255,16 @@ def notice_text(n) -> str:
                              "enamelled round wire (common practice, no source)",
         "fill_mismatch": lambda: f"coil {s}: given fill factor {v['given_fill']:g} differs from the {v['implied_fill']:.3f} "
                                  "implied by the turns and wire; the implied value is used",
-        "thermal_runaway": lambda: f"coil {s}: thermal runaway (no steady temperature: I^2 R20 alpha >= h A) at {v['count']} "
-                                   f"of {v['of']} gaps, e.g. gap {v['first_gap_m'] * mm:.3g} mm",
+        "thermal_runaway": lambda: f"coil {s}: thermal runaway (no steady temperature: I^2 R20 alpha >= h A) at "
+                                   + (f"gaps {gap_runs_text(v['runs_m'])} ({v['count']} of {v['of']} gaps)" if "runs_m" in v
+                                      else f"{v['count']} of {v['of']} gaps, e.g. gap {v['first_gap_m'] * mm:.3g} mm"),
         "runaway_at_operating": lambda: f"coil {s}: runaway at the operating current; the hot resistance is quoted at "
                                         f"{v['quoted_temperature_C']:g} C",
         "insulation_class_assumed": lambda: f"coil {s}: no insulation class given; class {v['class_C']:g} C (IEC 60085) assumed",
-        "above_thermal_class": lambda: f"coil {s}: the winding would run above its insulation thermal class {v['class_C']:g} C "
-                                       + (f"at {v['count']} of {v['of']} gaps ({v['gap_lo_m'] * mm:.3g}-{v['gap_hi_m'] * mm:.3g} mm)"
-                                          if v['of'] > 1 else "at this current")
+        "above_thermal_class": lambda: f"coil {s}: over the insulation class {v['class_C']:g} C "
+                                       + ((f"at gaps {gap_runs_text(v['runs_m'])}" if "runs_m" in v else
+                                           f"at gaps {v['gap_lo_m'] * mm:.3g}-{v['gap_hi_m'] * mm:.3g} mm")
+                                          + f" ({v['count']} of {v['of']} gaps)" if v['of'] > 1 else "at this current")
                                        + " if held there continuously (IEC 60085 / IEC 60317)",
         "near_thermal_class": lambda: f"coil {s}: average winding temperature {v['temperature_C']:.0f} C is within the "
                                       f"{v['allowance_K']:g} K hot-spot allowance of the thermal class {v['class_C']:g} C "
@@ -297,6 +299,29 @@ def notice_text(n) -> str:
                           for k, x in v.items())
         return f"{s}: {c.replace('_', ' ')}" + (f" ({shown})" if shown else "")
     return texts[c]()
+
+
+def gap_runs_text(runs_m) -> str:
+    """Contiguous gap runs (m) as ``"4.0-9.5 mm, 12 mm"`` (a lone gap as one number).
+
+    >>> gap_runs_text([(0.004, 0.0095), (0.012, 0.012)])
+    '4-9.5 mm, 12 mm'
+    """
+    parts = [f"{lo * 1e3:.3g}" if lo == hi else f"{lo * 1e3:.3g}-{hi * 1e3:.3g}" for lo, hi in runs_m]
+    return ", ".join(parts) + " mm"
+
+
+def operating_heat_alert(name: str, heat) -> str:
+    """The verdict's first line when the coil's operating point is too hot
+    (:class:`fields.studies.stages.coil.OperatingHeat`); "" when it is not."""
+    where = f"at the operating gap {heat.gap_m * 1e3:.3g} mm ({heat.current_A:.3g} A)"
+    if heat.runaway:
+        return (f"HEAT: coil {name} runs into thermal runaway {where}: no steady temperature; it will not "
+                "survive continuous operation there")
+    if heat.over_insulation_class:
+        return (f"HEAT: coil {name} runs at {heat.temperature_C:.0f} C {where}, over its insulation class "
+                f"{heat.insulation_class_C:g} C; it will not survive continuous operation there")
+    return ""
 
 
 def _default_fill() -> float:
