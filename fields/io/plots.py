@@ -272,10 +272,11 @@ def _loop_response(margins, n: int = 2000):
 
 
 def bode(margins, title: str = ""):
-    """Bode plot of the loop gain with crossover and phase margin marked."""
+    """Bode plot of the loop gain with crossover and phase margin marked; the frequency axis is
+    in rad/s, as the poles and crossovers in the report."""
     w, L = _loop_response(margins)
     fig, (a1, a2) = plt.subplots(2, 1, figsize=(8, 6), sharex=True)
-    f = w / (2 * np.pi)
+    f = w  # rad/s, the unit the report quotes the plant's poles and the crossover in
     a1.semilogx(f, 20 * np.log10(np.abs(L)), color="#1f4e9c")
     a1.axhline(0, color="k", lw=0.8)
     a1.set_ylabel("loop gain |L| (dB)")
@@ -284,11 +285,11 @@ def bode(margins, title: str = ""):
     a2.semilogx(f, ph, color="#8e24aa")
     a2.axhline(-180, color="k", lw=0.8)
     a2.set_ylabel("phase (deg)")
-    a2.set_xlabel("frequency (Hz)")
+    a2.set_xlabel("angular frequency omega (rad/s), the unit of the poles quoted in the report")
     a2.grid(True, which="both", alpha=0.3)
     for wc in margins.gain_crossovers_rad_per_s:
         for a in (a1, a2):
-            a.axvline(wc / (2 * np.pi), color="#2e9e5b", ls="--", lw=1)
+            a.axvline(wc, color="#2e9e5b", ls="--", lw=1)
     lo, hi = margins.gain_interval
     a1.set_title(title + f"\nphase margin {margins.phase_margin_deg:.3g} deg; stable for loop gain x "
                  f"{lo:.3g} .. {hi:.3g} (open loop unstable: gain interval)", fontsize=9)

@@ -51,7 +51,8 @@ def mode_text(mode) -> str:
     if mode.stable:
         f = f", {mode.frequency_Hz:.3g} Hz" if mode.frequency_Hz else ""
         return f"{name}: stable, {k}{f}"
-    t = f", grows with time constant {mode.growth_time_s * 1e3:.3g} ms" if mode.growth_time_s else ""
+    t = (f", grows with time constant {mode.growth_time_s * 1e3:.3g} ms (the floater alone at a held current, "
+         "1/sqrt(-k/m); the control plant's time constant adds the coil)") if mode.growth_time_s else ""
     return f"{name}: unstable, needs feedback, {k}{t}"
 
 
