@@ -357,3 +357,117 @@ def test_api_misuse_raises_input_error():
     with pytest.raises(InputError, match="drive_pattern: pattern must be 0 numbers, one per coil"):
         analysis.drive_pattern(d, [1.0])
     assert issubclass(InputError, ValueError)
+
+
+@pytest.fixture(scope="module")
+def air_verdict():
+    from helpers import ROOT
+
+    d = load(ROOT / "tests" / "data" / "air_suspension.toml")
+    c = analysis.axial_curves(d)
+    gi = int(np.argmin(np.abs(c.gaps_m - d.study.operating_gap_m)))
+    eq = analysis.find_equilibrium(d, [c.hover_current_A[gi]], start_gap_m=c.gaps_m[gi])
+    S = analysis.stiffness_matrix(d, eq.position_m, eq.rotvec_rad, eq.currents_A)
+    return d, S, analysis.stability_verdict(d, S)
+
+
+def test_verdict_names_coupled_modes_with_the_matrix_diagonal(air_verdict):
+    from fields.analysis.verdict import mass_matrix
+    from fields.io.wording import mode_text, verdict_lines
+
+    d, S, v = air_verdict
+    side = next(m for m in v.modes if m.kind is analysis.ModeKind.SIDEWAYS)
+    # independent check: the x-ry block alone (the other entries are round-off here) as a 2-DOF
+    # generalized eigenproblem K v = lambda M v (Goldstein, Poole & Safko, Classical Mechanics,
+    # 3rd ed. 2002, ch. 6), solved with numpy's general eigvals of M^-1 K
+    M = mass_matrix(d, S.rotvec_rad)
+    b = [0, 4]
+    lam = np.sort(np.linalg.eigvals(np.linalg.solve(M[np.ix_(b, b)], S.K[np.ix_(b, b)])).real)
+    assert side.stiffness == pytest.approx(lam[0] * M[0, 0], rel=1e-6)
+    # the mode mixes sideways motion and tilt: its modal stiffness is far from K[x,x], which is
+    # quoted beside it, and it is named coupled
+    assert side.diagonal_stiffness == pytest.approx((S.K[0, 0], S.K[1, 1]), rel=1e-12)
+    assert abs(side.stiffness - S.K[0, 0]) > 0.2 * S.K[0, 0]
+    assert side.coupled and set(side.coupled_axes) == {"rx", "ry"} and side.coupling_share > 0.01
+    text = mode_text(side)
+    assert text.startswith("sideways x/y coupled with tilt about x/y: stable, modal stiffness")
+    assert f"K[x,x] = K[y,y] {S.K[0, 0]:.3g} N/m" in text
+    vert = next(m for m in v.modes if m.kind is analysis.ModeKind.VERTICAL)
+    assert not vert.coupled and "coupled" not in mode_text(vert)
+    assert "not the modal stiffnesses" in verdict_lines(v)[-1]
+
+
+def test_round_off_zeros_print_as_zero(air_verdict):
+    from fields.io.numbers import fmt
+    from fields.io.report import num
+
+    _, S, _ = air_verdict
+    K, E = S.K, S.error
+    scale = np.max(np.abs(K[:3, :3]))
+    # K[x,y] of a round design vanishes by symmetry; computed it is round-off (about 1e-12 N/m
+    # against 5.4 N/m on the diagonal)
+    assert K[0, 1] != 0.0 and abs(K[0, 1]) < 1e-9 * scale
+    assert fmt(K[0, 1], error=E[0, 1], scale=scale) == "0"
+    assert fmt(K[0, 0], 4, error=E[0, 0], scale=scale) == f"{K[0, 0]:.4g}"
+    assert fmt(-0.0) == "0" and fmt(-1e-30, 3) == "-1e-30" and fmt(-1e-30, 3, scale=1.0) == "0"
+    # the report's span keeps the full value and states the bound it was shown as 0 under
+    html = num(K[0, 1], "stability.json", "stiffness_matrix[0][1]", zero_below=1e-12 * scale)
+    assert ">0</span>" in html and f'data-value="{float(K[0, 1])!r}"' in html and "data-zero-below" in html
+    assert ">0</span>" in num(-0.0, "x.json", "a")
+
+
+# INVENTED EXAMPLE: a bar magnet (not round) under an air-core coil; every number is made up
+BAR = """
+name = "bar-under-coil"
+invented = true
+[[coils]]
+name = "lift"
+inner_radius = "7 mm"
+outer_radius = "22 mm"
+height = "30 mm"
+wire_gauge = "AWG 26"
+fill_factor = 0.6
+position = ["0 mm", "0 mm", "85 mm"]
+axis = [0, 0, 1]
+nominal_current = "0.4 A"
+max_current = "1.2 A"
+[floater]
+name = "bar"
+[[floater.magnets]]
+name = "bar"
+shape = "cuboid"
+size = [{sx}, {sy}, "5 mm"]
+grade = "N42"
+magnetization = [0, 0, 1]
+[study]
+gap_min = "10 mm"
+gap_max = "20 mm"
+gap_points = 11
+operating_gap = "15 mm"
+gap_reference = "lift"
+supply_voltage = "24 V"
+currents = ["0.4 A"]
+lateral_span = "4 mm"
+tilt_span = "10 deg"
+"""
+
+
+def test_stiffness_versus_gap_keeps_x_and_y_apart_for_a_bar():
+    from fields.io import plots
+
+    gaps = np.array([0.012, 0.016])
+    a = analysis.stiffness_versus_gap(loads(BAR.format(sx='"30 mm"', sy='"8 mm"'), file="bar_x.toml"), gaps_m=gaps)
+    b = analysis.stiffness_versus_gap(loads(BAR.format(sx='"8 mm"', sy='"30 mm"'), file="bar_y.toml"), gaps_m=gaps)
+    # a bar is not round: k_x and k_y differ, and so do the two tilts
+    assert np.all(np.abs(a.k_x_N_per_m - a.k_y_N_per_m) > 0.05 * np.abs(a.k_x_N_per_m))
+    assert a.same_xy() == (False, False)
+    # symmetry (independent of the force model): turning the bar a quarter turn about the
+    # vertical swaps x and y, so k_x of one is k_y of the other (and the tilts likewise)
+    sym = 1e-6  # the same quadrature on mirrored geometry: agreement to round-off and rule noise
+    assert a.k_x_N_per_m == pytest.approx(b.k_y_N_per_m, rel=sym)
+    assert a.k_rx_Nm_per_rad == pytest.approx(b.k_ry_Nm_per_rad, rel=sym)
+    assert a.k_lateral_N_per_m == pytest.approx(0.5 * (a.k_x_N_per_m + a.k_y_N_per_m))
+    fig = plots.stiffness_vs_gap(a)
+    labels = [t.get_text() for ax in fig.axes for t in ax.get_legend().get_texts()]
+    assert "sideways k_x" in labels and "sideways k_y" in labels and not any("=" in s for s in labels)
+    assert "tilt k_rx (about x)" in labels and "tilt k_ry (about y)" in labels

@@ -379,3 +379,75 @@ def test_gauss_legendre_is_exact_to_degree_2n_minus_1(n):
     assert abs(w @ x ** (2 * n) - (b ** (2 * n + 1) - a ** (2 * n + 1)) / (2 * n + 1)) > 1e-6
     with pytest.raises(InputError, match="gauss_legendre: n must be a positive integer; got 0"):
         gauss_legendre(0)
+
+
+def test_hot_operating_point_is_said_first_with_contiguous_gap_runs(tmp_path, capsys):
+    # the iron-free test suspension made hot: natural convection cut to 2 W/(m^2 K) and a
+    # class-A (105 C, IEC 60085) winding, so the operating point (15 mm) runs over the class
+    import json
+    import re
+
+    from helpers import ROOT
+
+    from fields import cli
+    from fields.devices.coil import gap_runs
+    from fields.devices.winding import steady_temperature_C
+    from fields.io.report_builder import build_report
+    from fields.input.geometry import load
+
+    text = (ROOT / "tests" / "data" / "air_suspension.toml").read_text()
+    text = text.replace('insulation_class = "155 degC"', 'insulation_class = "105 degC"')
+    text = text.replace("[study]", '[study]\nconvection_coefficient = "2 W/(m^2*K)"')
+    p = tmp_path / "hot.toml"
+    p.write_text(text)
+    out = tmp_path / "o"
+    assert cli.main(["coil", str(p), "-o", str(out)]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert lines[0].startswith("HEAT: coil lift coil runs at") and "over its insulation class 105 C" in lines[0]
+    assert "at the operating gap 15 mm" in lines[0]
+    data = json.loads((out / "coil.json").read_text())
+    c = data["coils"][0]
+    op = c["at_operating_point"]
+    assert op["over_insulation_class"] and not op["runaway"]
+    # independent check of the operating temperature: the fixed point T = Ta + I^2 R20 (1 + alpha
+    # (T - 20)) / (h A) solved in closed form (linear in T; copper alpha 0.00393 /K, IEC 60028)
+    I, R20, G, Ta = op["current_A"], c["resistance_20C_ohm"], 2.0 * c["surface_area_m2"], 25.0
+    a = 0.00393
+    T_exact = (Ta + I * I * R20 * (1 - 20 * a) / G) / (1 - I * I * R20 * a / G)
+    assert op["temperature_C"] == pytest.approx(T_exact, rel=1e-9) and T_exact > 105
+    # the warning gives merged contiguous runs (no run spans a gap under the class) and names the
+    # operating gap
+    gaps = np.array(c["gaps_m"])
+    T = np.array([np.inf if t is None else t for t in c["temperature_C"]])
+    over = np.isfinite(T) & (T > 105)
+    runs = gap_runs(gaps, over)
+    for lo, hi in runs:
+        inside = (gaps >= lo) & (gaps <= hi)
+        assert over[inside].all()
+    warn = next(w for w in data["warnings"] if "over the insulation class" in w)
+    shown = re.search(r"at gaps ([0-9.,\- ]+) mm", warn).group(1)
+    assert shown.count("-") + shown.count(",") >= 1 and len(shown.split(",")) == len(runs)
+    assert "the operating gap 15 mm is one of them" in warn
+    # the same check agrees with the library's own steady-temperature solve
+    assert steady_temperature_C([I], R20, G, Ta)[0][0] == pytest.approx(T_exact, rel=1e-9)
+
+    def load_json(name):
+        f = out / name
+        return json.loads(f.read_text()) if f.is_file() else None
+
+    html = build_report(load(p), out, {}, load_json, None)
+    box = html[html.index('<div class="verdict">'):]
+    first = box[box.index("</h2>") + 5:]
+    assert first.startswith('<p class="unstable"><b>Heat: coil lift coil runs at')
+    for label in ("hot resistance at the operating point", "operating temperature", "linear driver dissipation at hover",
+                  "supply headroom"):
+        assert label in html
+    assert 'data-path="coils[0].drive_headroom.linear_driver_dissipation_W"' in html
+
+
+def test_gap_runs_are_contiguous():
+    from fields.devices.coil import gap_runs
+
+    # unsorted grid: runs follow the sorted gaps; a hole splits a run
+    assert gap_runs([3.0, 1.0, 2.0, 5.0, 4.0], [True, True, False, True, True]) == ((1.0, 1.0), (3.0, 5.0))
+    assert gap_runs([1.0, 2.0], [False, False]) == ()

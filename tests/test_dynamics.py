@@ -544,3 +544,51 @@ def test_hysteresis_study(params, table):
     assert hv.status == ("limit cycle",)
     assert hv.mean_supply_power_W[0] == pytest.approx(hv.mean_joule_power_W[0], rel=0.02)
     assert hv.mean_joule_power_W[0] > R * I0_A**2
+
+
+def test_leaving_the_table_sideways_is_told_in_words(table):
+    # the same invented plant named as a non-vertical axis (gravity kept along -s so that the
+    # equilibrium is the same): a start 8 mm on the minus side asks for more than the 1 A limit
+    # and the floater is lost there (as in test_saturation_and_contact for the vertical axis);
+    # the fate a user reads (capture.csv's fate column) is words, not a code name
+    side = make_params(axis_name="sideways x", gravity_m_per_s2=G)
+    c = design_controller(linear_plant(side, "current"), sample_time_s=T_S)
+    cap = capture_range(side, table, c, (-0.008, 0.0), (0.0,), t_end_s=0.3, band_refine_rounds=0)
+    assert cap.fate[0, 0] == Outcome.LEFT_TABLE_LOW.value
+    assert cap.fate[0, 0].startswith("lost on the minus side") and "force table" in cap.fate[0, 0]
+    assert cap.fate[1, 0] == Outcome.CAPTURED.value
+    for o in Outcome:  # every fate and on/off status reads as words; the code stays machine-readable
+        assert "_" not in o.value and o.code.isidentifier()
+
+
+def test_bode_axis_is_in_the_unit_of_the_quoted_poles(params):
+    # the report quotes poles and crossovers in rad/s; the Bode figure's axis uses rad/s too, and
+    # its crossover marker sits at |L| = 1 (0 dB) read off the plotted curve itself
+    from fields.io import plots
+
+    plant = linear_plant(params, "current")
+    mg = loop_margins(plant, design_controller(plant, loop_delay_s=0.0))
+    fig = plots.bode(mg)
+    a1, a2 = fig.axes
+    assert "rad/s" in a2.get_xlabel() and "Hz" not in a2.get_xlabel()
+    w, gain_db = a1.get_lines()[0].get_data()
+    wc = float(mg.gain_crossovers_rad_per_s[0])
+    marks = [ln.get_xdata()[0] for ln in a1.get_lines()[2:]]
+    assert wc in marks
+    # independent reading of the crossover: where the plotted gain passes 0 dB (log interpolation)
+    i = int(np.flatnonzero(np.diff(np.sign(gain_db)))[0])
+    w0 = np.exp(np.interp(0.0, [gain_db[i + 1], gain_db[i]], [np.log(w[i + 1]), np.log(w[i])]))
+    assert w0 == pytest.approx(wc, rel=0.02)  # plot grid resolution
+
+
+def test_growth_time_is_said_to_be_the_floater_at_a_held_current():
+    # the verdict's time constant 1/sqrt(-k/m) (the floater alone, current drive) is told apart
+    # from the voltage-driven plant's, which includes the coil
+    from fields.analysis.verdict import Mode, ModeKind
+    from fields.io.wording import mode_text
+
+    k, m = -20.0, 0.011
+    t = 1 / math.sqrt(-k / m)
+    text = mode_text(Mode(ModeKind.VERTICAL, ("z",), False, False, k, "N/m", None, t, np.ones(1)))
+    assert f"time constant {t * 1e3:.3g} ms (the floater alone at a held current" in text
+    assert "the control plant's time constant adds the coil" in text

@@ -121,8 +121,10 @@ class GapStiffness:
     """Lateral and tilt stiffness versus gap at the hover current (or given currents).
 
     ``currents_A`` (g, k); ``k_lateral_N_per_m`` (g,) the mean of k_xx and k_yy;
-    ``k_vertical_N_per_m`` (g,) k_zz; ``k_tilt_Nm_per_rad`` (g,) the mean of k_rxrx and k_ryry.
-    NaN where a stencil pose touches a body.
+    ``k_vertical_N_per_m`` (g,) k_zz; ``k_tilt_Nm_per_rad`` (g,) the mean of k_rxrx and k_ryry;
+    ``k_x_N_per_m``, ``k_y_N_per_m``, ``k_rx_Nm_per_rad``, ``k_ry_Nm_per_rad`` (g,) each axis
+    alone (they differ for a floater that is not round, e.g. a bar magnet). NaN where a stencil
+    pose touches a body.
     """
 
     gaps_m: np.ndarray
@@ -130,6 +132,18 @@ class GapStiffness:
     k_lateral_N_per_m: np.ndarray
     k_vertical_N_per_m: np.ndarray
     k_tilt_Nm_per_rad: np.ndarray
+    k_x_N_per_m: np.ndarray
+    k_y_N_per_m: np.ndarray
+    k_rx_Nm_per_rad: np.ndarray
+    k_ry_Nm_per_rad: np.ndarray
+
+    def same_xy(self, rtol: float = 1e-3) -> tuple[bool, bool]:
+        """Whether k_x = k_y and k_rx = k_ry at every gap (within ``rtol`` of the larger), as for a
+        round floater under round sources."""
+        def same(a, b):
+            ok = np.isfinite(a) & np.isfinite(b)
+            return bool(np.all(np.abs(a[ok] - b[ok]) <= rtol * np.maximum(np.abs(a[ok]), np.abs(b[ok])) + 1e-300))
+        return same(self.k_x_N_per_m, self.k_y_N_per_m), same(self.k_rx_Nm_per_rad, self.k_ry_Nm_per_rad)
 
 
 #: gaps of the stiffness overview with soft-iron cores (each pose needs its own iron response)
@@ -190,4 +204,6 @@ def stiffness_versus_gap(design: Design, gaps_m=None, currents_A=None, at_hover:
     touching = np.asarray(b.contact).reshape(len(gaps), m).any(axis=1)
     kdiag[touching] = np.nan
     return GapStiffness(gaps_m=gaps, currents_A=Ik, k_lateral_N_per_m=0.5 * (kdiag[:, 0] + kdiag[:, 1]),
-                        k_vertical_N_per_m=kdiag[:, 2], k_tilt_Nm_per_rad=0.5 * (kdiag[:, 3] + kdiag[:, 4]))
+                        k_vertical_N_per_m=kdiag[:, 2], k_tilt_Nm_per_rad=0.5 * (kdiag[:, 3] + kdiag[:, 4]),
+                        k_x_N_per_m=kdiag[:, 0], k_y_N_per_m=kdiag[:, 1], k_rx_Nm_per_rad=kdiag[:, 3],
+                        k_ry_Nm_per_rad=kdiag[:, 4])

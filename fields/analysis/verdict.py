@@ -26,6 +26,12 @@ NEUTRAL_FRACTION = 1e-7
 #: modes of the same kind whose eigenvalues agree to this relative tolerance are merged
 #: (sideways x and y of an axisymmetric design)
 DEGENERATE_RTOL = 1e-4
+#: a mode is "coupled" when the axes of the other family (rotations for a translational mode,
+#: translations for a rotational one) carry more than this share of its kinetic energy
+#: (``v_i^2 M_ii`` normalised over the free axes); its modal stiffness then differs from the
+#: matrix diagonal entry of its dominant axis, which is quoted beside it (a stated threshold:
+#: common practice, no source)
+COUPLING_SHARE = 0.01
 
 
 class ModeKind(str, Enum):
@@ -67,6 +73,13 @@ class Mode:
         Time constant of an unstable mode.
     vector : ndarray, shape (f,)
         Mode shape over the free axes.
+    diagonal_stiffness : tuple of float
+        The stiffness matrix's diagonal entry ``K[a, a]`` of each axis in ``axes`` (in ``unit``).
+    coupled_axes : tuple of str
+        Axes of the other family (translation/rotation) that carry more than
+        :data:`COUPLING_SHARE` of the kinetic energy (empty: not coupled).
+    coupling_share : float
+        Share of the kinetic energy on the other family's axes (largest over a merged group).
     """
 
     kind: ModeKind
@@ -78,6 +91,14 @@ class Mode:
     frequency_Hz: float | None
     growth_time_s: float | None
     vector: np.ndarray
+    diagonal_stiffness: tuple[float, ...] = ()
+    coupled_axes: tuple[str, ...] = ()
+    coupling_share: float = 0.0
+
+    @property
+    def coupled(self) -> bool:
+        """The mode mixes translation and rotation beyond :data:`COUPLING_SHARE`."""
+        return bool(self.coupled_axes)
 
 
 @dataclass(frozen=True)
@@ -121,6 +142,21 @@ def mass_matrix(design: Design, rotvec_rad) -> np.ndarray:
     return M
 
 
+def _other_family(free, share: np.ndarray, ai: int) -> tuple[float, tuple[str, ...]]:
+    """Kinetic-energy share of the axes of the other family than ``ai`` (rotations for a
+    translation) and, when it is above :data:`COUPLING_SHARE`, the axes that carry it."""
+    total = float(np.sum(share))
+    if total <= 0:
+        return 0.0, ()
+    frac = share / total
+    other = [n for n, f in enumerate(free) if (AXES.index(f) < 3) != (ai < 3)]
+    part = float(sum(frac[n] for n in other))
+    if part <= COUPLING_SHARE:
+        return part, ()
+    # the axes that carry the coupling: each with at least a fifth of the other family's share
+    return part, tuple(free[n] for n in sorted((n for n in other if frac[n] >= 0.2 * part), key=lambda n: -frac[n]))
+
+
 def stability_verdict(design: Design, stiff: Stiffness, free_axes=None) -> Verdict:
     """Modes of M q'' + K q = 0 over the free axes, each named by its dominant axis.
 
@@ -148,32 +184,41 @@ def stability_verdict(design: Design, stiff: Stiffness, free_axes=None) -> Verdi
         k_eff = float(lam[j] * mi)
         ref = Kd[:3].max() if ai < 3 else Kd[3:].max()
         neutral = abs(k_eff) <= NEUTRAL_FRACTION * max(ref, 1e-300)
-        raw.append((a, ai, float(lam[j]), k_eff, neutral, v))
+        raw.append((a, ai, float(lam[j]), k_eff, neutral, v, _other_family(free, share, ai)))
     modes: list[Mode] = []
     used = [False] * len(raw)
     unstable_axes = 0
-    for i, (a, ai, lam_i, k_eff, neutral, v) in enumerate(raw):
+    for i, (a, ai, lam_i, k_eff, neutral, v, other) in enumerate(raw):
         if used[i]:
             continue
         used[i] = True
         group = [a]
+        others = [other]
         for j in range(i + 1, len(raw)):
             b = raw[j]
             if (not used[j] and MODE_KIND[b[0]] == MODE_KIND[a]
                     and abs(b[2] - lam_i) <= DEGENERATE_RTOL * max(abs(lam_i), 1e-30) + 1e-12):
                 used[j] = True
                 group.append(b[0])
+                others.append(b[6])
         kind = MODE_KIND[a]
         # a merged (degenerate) group spans every free axis of its kind; the dominant axes of
         # its eigenvectors are arbitrary within that plane
         axes = tuple(f for f in free if MODE_KIND[f] is kind) if len(group) > 1 else (a,)
         unit = "N/m" if ai < 3 else "N m/rad"
+        share = max(o[0] for o in others)
+        coupled = tuple(x for x in free if any(x in o[1] for o in others))
+        if len(group) > 1 and coupled:  # a merged pair couples with every axis of its partners' kinds
+            kinds = {MODE_KIND[x] for x in coupled}
+            coupled = tuple(x for x in free if MODE_KIND[x] in kinds)
+        extra = dict(diagonal_stiffness=tuple(float(stiff.K[AXES.index(x), AXES.index(x)]) for x in axes),
+                     coupled_axes=coupled, coupling_share=float(share))
         if neutral:
-            modes.append(Mode(kind, axes, True, True, 0.0, unit, None, None, v))
+            modes.append(Mode(kind, axes, True, True, 0.0, unit, None, None, v, **extra))
         elif lam_i > 0:
-            modes.append(Mode(kind, axes, True, False, k_eff, unit, float(np.sqrt(lam_i) / (2 * np.pi)), None, v))
+            modes.append(Mode(kind, axes, True, False, k_eff, unit, float(np.sqrt(lam_i) / (2 * np.pi)), None, v, **extra))
         else:
-            modes.append(Mode(kind, axes, False, False, k_eff, unit, None, float(1 / np.sqrt(-lam_i)), v))
+            modes.append(Mode(kind, axes, False, False, k_eff, unit, None, float(1 / np.sqrt(-lam_i)), v, **extra))
             unstable_axes += len(group)
     tr, rel = stiff.earnshaw_residual()
     return Verdict(modes=tuple(modes), unstable_count=unstable_axes, earnshaw_trace_N_per_m=tr, earnshaw_residual=rel,

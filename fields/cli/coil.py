@@ -16,7 +16,8 @@ def _print_sheet(sheet) -> None:
             print(f"    {label:<34} {v * scale:>10.4g} {unit}")
     op = sheet.at_operating_point
     print(f"    {'at the operating point, gap ' + format(op.gap_m * 1e3, '.3g') + ' mm':<34} {op.current_A:>10.4g} A, "
-          f"{op.power_W:.3g} W, winding {op.temperature_C:.3g} C (rise {op.temperature_rise_K:.3g} K)")
+          f"{op.power_W:.3g} W, winding {op.temperature_C:.3g} C (rise {op.temperature_rise_K:.3g} K), "
+          f"hot resistance {op.resistance_hot_ohm:.4g} ohm")
     hr = sheet.drive_headroom
     if hr is not None:
         print(f"    {'supply needed (R I + L dI/dt)':<34} {hr.voltage_required_V:>10.4g} V "
@@ -32,6 +33,8 @@ def run(args) -> int:
     design = load_design(args)
     out = out_dir(args, design)
     s = run_coil(design, out, curves=run_curves(design, out))
+    for ln in s.heat_alerts:  # a too hot operating point first
+        print(ln)
     print(f"{design.name}: coil datasheet (control axis: {s.control_axis})")
     for sheet in s.coils:
         _print_sheet(sheet)

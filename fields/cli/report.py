@@ -19,6 +19,8 @@ def run(args) -> int:
     design = load_design(args)
     text = Path(args.file).read_text(encoding="utf-8")
     s = run_report(design, out_dir(args, design), progress=not args.quiet, geometry_text=text)
+    for ln in getattr(s.done.get("coil"), "heat_alerts", ()):  # the verdict says a too hot coil first
+        print(ln)
     print(f"{design.name}: report written to {s.report} ({time.perf_counter() - t0:.1f} s)")
     if "stability" in s.done:
         for ln in s.done["stability"].verdict_lines:

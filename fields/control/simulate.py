@@ -35,17 +35,23 @@ class Outcome(enum.StrEnum):
     """How a run ends: at rest, leaving the force table, or the on/off study's steady states.
 
     The vertical axis leaves the table by falling (below) or by contact (above); other axes by
-    its low or high end.
+    its low or high end. The values are the words a person reads (capture.csv's ``fate`` column,
+    the on/off study); :attr:`code` is a short machine name for each.
     """
 
     CAPTURED = "captured"
     NOT_SETTLED = "not settled"
     FELL = "fell"
     CONTACT = "contact"
-    LEFT_TABLE_LOW = "left_table_low"
-    LEFT_TABLE_HIGH = "left_table_high"
+    LEFT_TABLE_LOW = "lost on the minus side (left the force table below its range)"
+    LEFT_TABLE_HIGH = "lost on the plus side (left the force table above its range)"
     LIMIT_CYCLE = "limit cycle"
     GROWING = "growing"
+
+    @property
+    def code(self) -> str:
+        """A short machine name (``"lost_minus"``, ``"limit_cycle"``, ...), never shown as text."""
+        return {"LEFT_TABLE_LOW": "lost_minus", "LEFT_TABLE_HIGH": "lost_plus"}.get(self.name, self.name.lower())
 
 
 def exit_outcome(params: PlantParameters, high: bool) -> Outcome:

@@ -99,9 +99,9 @@ class CoilData:
     notices : tuple of Notice
         Codes (values in brackets): ``wire_inferred``, ``high_fill``, ``fill_mismatch`` (see
         :func:`fields.devices.winding.coil_wire`); ``thermal_runaway`` (``count``, ``of``,
-        ``first_gap_m``); ``runaway_at_operating`` (``quoted_temperature_C``);
+        ``first_gap_m``, ``runs_m``: the contiguous gap runs of :func:`gap_runs`, ``operating_gap_m``); ``runaway_at_operating`` (``quoted_temperature_C``);
         ``insulation_class_assumed`` (``class_C``); ``above_thermal_class`` (``class_C``,
-        ``count``, ``of``, ``gap_lo_m``, ``gap_hi_m``); ``near_thermal_class`` (``temperature_C``,
+        ``count``, ``of``, ``gap_lo_m``, ``gap_hi_m``, ``runs_m``, ``operating_gap_m``); ``near_thermal_class`` (``temperature_C``,
         ``allowance_K``, ``class_C``); ``current_density_high`` (``max_A_per_mm2``,
         ``limit_A_per_mm2``, ``currents_from_hover``); ``max_current_density_high``
         (``value_A_per_mm2``, ``limit_A_per_mm2``); ``core_saturates`` (``count``, ``of``): some
@@ -182,14 +182,39 @@ def _currents(design: Design, coil_index: int, hover_currents_A, gaps: np.ndarra
     return H[:, coil_index].copy(), H, True
 
 
+def gap_runs(gaps_m, mask) -> tuple[tuple[float, float], ...]:
+    """The gaps where ``mask`` holds as contiguous runs along the sorted gap grid: ``(first,
+    last)`` gap of each run (a lone gap is a run of one), so a range never spans gaps where the
+    mask is False.
+
+    >>> gap_runs([1.0, 2.0, 3.0, 4.0, 5.0], [True, True, False, True, False])
+    ((1.0, 2.0), (4.0, 4.0))
+    """
+    g = np.asarray(gaps_m, dtype=float)
+    m = np.asarray(mask, dtype=bool)
+    o = np.argsort(g, kind="stable")
+    g, m = g[o], m[o]
+    runs, start = [], None
+    for i in range(g.size):
+        if m[i] and start is None:
+            start = i
+        if start is not None and (not m[i] or i == g.size - 1):
+            end = i if m[i] else i - 1
+            runs.append((float(g[start]), float(g[end])))
+            start = None
+    return tuple(runs)
+
+
 def _thermal(coil: Coil, I: np.ndarray, R20: float, G: float, Tamb: float, gaps: np.ndarray,
-             notices: list[Notice]):
+             notices: list[Notice], design_gap_m: float = float("nan")):
     """Steady temperature, hot resistance and power at each gap's current."""
     T, run = steady_temperature_C(I, R20, G, Tamb)
     R_hot = hot_resistance_ohm(R20, T)
     if np.any(run):
         notices.append(Notice("thermal_runaway", coil.name, {"count": int(run.sum()), "of": int(gaps.size),
-                                                             "first_gap_m": float(gaps[run][0])}))
+                                                             "first_gap_m": float(gaps[run][0]),
+                                                             "runs_m": gap_runs(gaps, run),
+                                                             "operating_gap_m": float(design_gap_m)}))
     return T, run, R_hot, I * I * R_hot
 
 
@@ -205,7 +230,8 @@ def _operating_temperature(design: Design, coil: Coil, I: np.ndarray, gaps: np.n
     return float(T_op[0])
 
 
-def _insulation(coil: Coil, T: np.ndarray, gaps: np.ndarray, notices: list[Notice]) -> tuple[float, bool]:
+def _insulation(coil: Coil, T: np.ndarray, gaps: np.ndarray, notices: list[Notice],
+                operating_gap_m: float = float("nan")) -> tuple[float, bool]:
     """The thermal class (given or assumed) and notices when the winding reaches it."""
     given = coil.insulation_class_C is not None
     ins = float(coil.insulation_class_C) if given else DEFAULT_INSULATION_CLASS_C
@@ -219,7 +245,8 @@ def _insulation(coil: Coil, T: np.ndarray, gaps: np.ndarray, notices: list[Notic
             go = gaps[over]
             notices.append(Notice("above_thermal_class", coil.name, {
                 "class_C": ins, "count": int(over.sum()), "of": int(gaps.size),
-                "gap_lo_m": float(go.min()), "gap_hi_m": float(go.max())}))
+                "gap_lo_m": float(go.min()), "gap_hi_m": float(go.max()), "runs_m": gap_runs(gaps, over),
+                "operating_gap_m": float(operating_gap_m)}))
         elif Tmax + HOT_SPOT_ALLOWANCE_K > ins:
             notices.append(Notice("near_thermal_class", coil.name, {
                 "temperature_C": Tmax, "allowance_K": HOT_SPOT_ALLOWANCE_K, "class_C": ins}))
@@ -338,13 +365,13 @@ def coil_datasheet(design: Design, coil_index: int, hover_currents_A=None, gaps_
     hconv = float(st.convection_W_per_m2K)
     Tamb = float(st.ambient_temperature_C)
     G = hconv * S
-    T, run, R_hot, P = _thermal(coil, I, R20, G, Tamb, gaps, notices)
+    T, run, R_hot, P = _thermal(coil, I, R20, G, Tamb, gaps, notices, st.operating_gap_m)
     if operating_temperature_C is None:
         T_op = _operating_temperature(design, coil, I, gaps, from_hover, R20, G, Tamb, notices)
     else:
         T_op = float(operating_temperature_C)
     R_op = float(hot_resistance_ohm(R20, T_op))
-    ins, ins_given = _insulation(coil, T, gaps, notices)
+    ins, ins_given = _insulation(coil, T, gaps, notices, st.operating_gap_m)
     Jd, Jnom, Jmax = _current_density(coil, I, wire, from_hover, notices)
     V_cold = I * R20
     with np.errstate(invalid="ignore", divide="ignore"):

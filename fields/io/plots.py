@@ -165,16 +165,26 @@ def pose_maps(lateral_map, tilt_map, title: str = ""):
 
 
 def stiffness_vs_gap(gs, title: str = ""):
-    """Lateral, vertical and tilt stiffness versus gap (at the hover current)."""
+    """Lateral, vertical and tilt stiffness versus gap (at the hover current); k_x and k_y (and
+    the two tilts) are drawn apart unless they agree at every gap (:meth:`GapStiffness.same_xy`)."""
     fig, (a1, a2) = plt.subplots(2, 1, figsize=(8, 6), sharex=True)
     g = gs.gaps_m * 1e3
-    a1.plot(g, gs.k_lateral_N_per_m, label="sideways k_x = k_y", color="#2e7d32")
+    xy, rxy = gs.same_xy()
+    if xy:
+        a1.plot(g, gs.k_x_N_per_m, label="sideways k_x = k_y", color="#2e7d32")
+    else:  # not round (e.g. a bar magnet): each sideways axis on its own
+        a1.plot(g, gs.k_x_N_per_m, label="sideways k_x", color="#2e7d32")
+        a1.plot(g, gs.k_y_N_per_m, label="sideways k_y", color="#9e9d24", ls="--")
     a1.plot(g, gs.k_vertical_N_per_m, label="vertical k_z", color="#1f4e9c")
     a1.axhline(0, color="k", lw=0.8)
     a1.set_ylabel("stiffness (N/m)\n> 0 restores")
     a1.legend(fontsize=8)
     a1.grid(True, alpha=0.3)
-    a2.plot(g, gs.k_tilt_Nm_per_rad * 1e3, color="#8e24aa", label="tilt k_rx = k_ry")
+    if rxy:
+        a2.plot(g, gs.k_rx_Nm_per_rad * 1e3, color="#8e24aa", label="tilt k_rx = k_ry")
+    else:
+        a2.plot(g, gs.k_rx_Nm_per_rad * 1e3, color="#8e24aa", label="tilt k_rx (about x)")
+        a2.plot(g, gs.k_ry_Nm_per_rad * 1e3, color="#c2185b", ls="--", label="tilt k_ry (about y)")
     a2.axhline(0, color="k", lw=0.8)
     a2.set_ylabel("tilt stiffness (mN m/rad)")
     a2.set_xlabel("gap (mm)")
@@ -262,10 +272,11 @@ def _loop_response(margins, n: int = 2000):
 
 
 def bode(margins, title: str = ""):
-    """Bode plot of the loop gain with crossover and phase margin marked."""
+    """Bode plot of the loop gain with crossover and phase margin marked; the frequency axis is
+    in rad/s, as the poles and crossovers in the report."""
     w, L = _loop_response(margins)
     fig, (a1, a2) = plt.subplots(2, 1, figsize=(8, 6), sharex=True)
-    f = w / (2 * np.pi)
+    f = w  # rad/s, the unit the report quotes the plant's poles and the crossover in
     a1.semilogx(f, 20 * np.log10(np.abs(L)), color="#1f4e9c")
     a1.axhline(0, color="k", lw=0.8)
     a1.set_ylabel("loop gain |L| (dB)")
@@ -274,11 +285,11 @@ def bode(margins, title: str = ""):
     a2.semilogx(f, ph, color="#8e24aa")
     a2.axhline(-180, color="k", lw=0.8)
     a2.set_ylabel("phase (deg)")
-    a2.set_xlabel("frequency (Hz)")
+    a2.set_xlabel("angular frequency omega (rad/s), the unit of the poles quoted in the report")
     a2.grid(True, which="both", alpha=0.3)
     for wc in margins.gain_crossovers_rad_per_s:
         for a in (a1, a2):
-            a.axvline(wc / (2 * np.pi), color="#2e9e5b", ls="--", lw=1)
+            a.axvline(wc, color="#2e9e5b", ls="--", lw=1)
     lo, hi = margins.gain_interval
     a1.set_title(title + f"\nphase margin {margins.phase_margin_deg:.3g} deg; stable for loop gain x "
                  f"{lo:.3g} .. {hi:.3g} (open loop unstable: gain interval)", fontsize=9)

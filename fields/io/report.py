@@ -25,7 +25,7 @@ h1{font-size:1.6em;margin:.2em 0} h2{border-bottom:2px solid #d5dbe3;padding-bot
 h3{margin-bottom:.3em}
 .meta{color:#56606c;font-size:.9em}
 .verdict{border-left:6px solid #1f4e9c;background:#eef3fb;padding:10px 16px;margin:14px 0}
-.verdict li.unstable{color:#9b1c1c;font-weight:600} .verdict li.stable{color:#1e6b35}
+.verdict li.unstable{color:#9b1c1c;font-weight:600} .verdict li.stable{color:#1e6b35} .verdict p.unstable{color:#9b1c1c}
 .warn{border-left:6px solid #c77700;background:#fff6e6;padding:8px 16px;margin:14px 0}
 .fail{border-left:6px solid #b00020;background:#fdecee;padding:8px 16px;margin:14px 0}
 .safety{border-left:6px solid #6b6b6b;background:#f1f1f1;padding:8px 16px;margin:14px 0;font-size:.92em}
@@ -42,18 +42,28 @@ ul.files li{margin:2px 0} ul.files small{color:#56606c}
 """
 
 
-def num(value: Any, src: str, path: str, unit: str = "", digits: int = 4, scale: float = 1.0) -> str:
-    """A number as HTML with its provenance; ``scale`` converts SI to the shown unit (e.g. 1e3 for mm)."""
+def num(value: Any, src: str, path: str, unit: str = "", digits: int = 4, scale: float = 1.0,
+        zero_below: float | None = None) -> str:
+    """A number as HTML with its provenance; ``scale`` converts SI to the shown unit (e.g. 1e3 for mm).
+
+    ``zero_below`` (SI, see :func:`fields.io.numbers.zero_bound`): a value no larger in magnitude
+    is shown as ``0`` and the span carries ``data-zero-below``; an exact zero is ``0``, never ``-0``.
+    """
+    zattr = ""
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         shown = "n/a"
         raw = "null"
     else:
         v = float(value)
-        shown = f"{v * scale:.{digits}g}"
         raw = repr(v)
+        if v == 0.0 or (zero_below is not None and abs(v) <= zero_below):
+            shown = "0"
+            zattr = f' data-zero-below="{float(zero_below or 0.0)!r}"'
+        else:
+            shown = f"{v * scale:.{digits}g}"
     u = f" {html.escape(unit)}" if unit else ""
     return (f'<span class="num" data-src="{html.escape(src)}" data-path="{html.escape(path)}" '
-            f'data-value="{raw}" data-scale="{scale!r}" data-digits="{digits}">{shown}</span>{u}')
+            f'data-value="{raw}" data-scale="{scale!r}" data-digits="{digits}"{zattr}>{shown}</span>{u}')
 
 
 def img(path: Path, alt: str) -> str:

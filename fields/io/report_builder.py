@@ -28,7 +28,7 @@ def _verdict(J: dict, failed: dict) -> list[str]:
     """The verdict first, then what failed, the warnings and the safety points."""
     stab, ctrl = J["stability.json"], J["control.json"]
     S: list[str] = []
-    v = ['<div class="verdict"><h2 style="margin-top:0;border:0">Verdict</h2>']
+    v = ['<div class="verdict"><h2 style="margin-top:0;border:0">Verdict</h2>'] + _heat_verdict(J["coil.json"])
     if stab:
         v.append(f"<p>Operating point: {esc(stab['operating_point'])}.</p><ul>")
         for i, m in enumerate(stab["modes"]):
@@ -58,6 +58,25 @@ def _verdict(J: dict, failed: dict) -> list[str]:
                  + "</ul></div>")
     S.append(safety_html())
     return S
+
+
+def _heat_verdict(coil: dict | None) -> list[str]:
+    """First in the verdict: every coil whose operating point runs over its insulation class or
+    into thermal runaway (coil.json)."""
+    out = []
+    for i, c in enumerate((coil or {}).get("coils", [])):
+        op = c.get("at_operating_point") or {}
+        if not op.get("over_insulation_class"):
+            continue
+        p = f"coils[{i}].at_operating_point"
+        where = (f"at the operating gap {num(op['gap_m'], 'coil.json', p + '.gap_m', 'mm', digits=3, scale=1e3)} "
+                 f"({num(op['current_A'], 'coil.json', p + '.current_A', 'A', digits=3)})")
+        what = ("runs into thermal runaway (no steady temperature)" if op.get("runaway") else
+                f"runs at {num(op['temperature_C'], 'coil.json', p + '.temperature_C', 'C', digits=3)}, over its "
+                f"insulation class {num(op['insulation_class_C'], 'coil.json', p + '.insulation_class_C', 'C', digits=3)}")
+        out.append(f'<p class="unstable"><b>Heat: coil {esc(c["name"])} {what} {where}: it will not survive continuous '
+                   "operation there.</b></p>")
+    return out
 
 
 def _key_numbers(J: dict, out: Path) -> list[str]:
@@ -112,9 +131,7 @@ def _stability(stab: dict, out: Path) -> list[str]:
     axes = ["x", "y", "z", "rx", "ry", "rz"]
     K = stab["stiffness_matrix"]
     E = stab["stiffness_error"]
-    krows = [[esc(a)] + [num(K[i][j], "stability.json", f"stiffness_matrix[{i}][{j}]", digits=4) +
-                         f' <small>&plusmn;{num(E[i][j], "stability.json", f"stiffness_error[{i}][{j}]", stiffness_unit(i, j), digits=1)}</small>'
-                         for j in range(6)] for i, a in enumerate(axes)]
+    krows = [[esc(a)] + [_stiffness_cell(K, E, i, j) for j in range(6)] for i, a in enumerate(axes)]
     S.append("<p>Stiffness matrix K = -d(F, T)/d(x, y, z, rx, ry, rz) about the centre of mass "
              "(N/m, N/rad, N m/m, N m/rad by block; every error bar carries its unit), with the Richardson error bar "
              "of each entry. "
@@ -129,6 +146,19 @@ def _stability(stab: dict, out: Path) -> list[str]:
     return S
 
 
+def _stiffness_cell(K, E, i: int, j: int) -> str:
+    """One stiffness entry with its error bar; round-off of an exact zero (within its error bar or
+    1e-12 of its block's largest entry, :mod:`fields.io.numbers`) is shown as 0, without a bar."""
+    from fields.io.numbers import zero_bound
+
+    rows, cols = (range(3), range(3, 6))[i >= 3], (range(3), range(3, 6))[j >= 3]
+    bound = zero_bound(E[i][j], max(abs(K[a][b]) for a in rows for b in cols))
+    cell = num(K[i][j], "stability.json", f"stiffness_matrix[{i}][{j}]", digits=4, zero_below=bound)
+    if abs(K[i][j]) <= bound:
+        return cell + f" {stiffness_unit(i, j)}"
+    return cell + f' <small>&plusmn;{num(E[i][j], "stability.json", f"stiffness_error[{i}][{j}]", stiffness_unit(i, j), digits=1)}</small>'
+
+
 def _coil(coil: dict, out: Path) -> list[str]:
     """Coil datasheet (coil.json)."""
     hdr = ["quantity"] + [esc(c["name"]) for c in coil["coils"]]
@@ -136,6 +166,18 @@ def _coil(coil: dict, out: Path) -> list[str]:
     for label, key, unit, sc in COIL_SHEET_ROWS:
         crow.append([label] + [num(c.get(key), "coil.json", f"coils[{i}].{key}", unit, scale=sc) for i, c in enumerate(coil["coils"])])
     crow.append(["dL/dgap"] + [esc(c["dL_dgap_note"]) for c in coil["coils"]])
+    for label, key, unit, digits in (("hot resistance at the operating point", "resistance_hot_ohm", "ohm", 4),
+                                     ("operating temperature (steady, at the hover current)", "temperature_C", "C", 3),
+                                     ("insulation class", "insulation_class_C", "C", 3)):
+        crow.append([label] + [num((c.get("at_operating_point") or {}).get(key), "coil.json",
+                                   f"coils[{i}].at_operating_point.{key}", unit, digits=digits)
+                               for i, c in enumerate(coil["coils"])])
+    for label, key in (("linear driver dissipation at hover", "linear_driver_dissipation_W"),
+                       ("supply headroom (supply - R I - L dI/dt)", "headroom_V")):
+        unit = key.rsplit("_", 1)[1]
+        crow.append([label] + [num(c["drive_headroom"][key], "coil.json", f"coils[{i}].drive_headroom.{key}", unit)
+                               if "drive_headroom" in c else "n/a (not on the control axis)"
+                               for i, c in enumerate(coil["coils"])])
     return ["<h2>Coil datasheet</h2>", table(hdr, crow) + "<p>Power and steady temperature at the hover current of "
             "every gap: <code>coil_heat.csv</code>. Copper data: IEC 60028. Thermal classes: IEC 60085.</p>"]
 

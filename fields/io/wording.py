@@ -10,6 +10,8 @@ from __future__ import annotations
 import math
 from typing import Iterable, Sequence
 
+from fields.io.wording_files import OUTPUT_FILES, file_description  # noqa: F401 (re-exported)
+
 #: the safety points every README-facing output shows: (lead, text); lead may be empty
 SAFETY_POINTS: tuple[tuple[str, str], ...] = (
     ("Strong magnets", "pinch skin and break fingers when they snap together, shatter into sharp chips, and fly "
@@ -34,14 +36,24 @@ def safety_text() -> str:
 def mode_text(mode) -> str:
     """One line for a stability mode (:class:`fields.analysis.Mode`): name, stable or not,
     stiffness with its unit, natural frequency or growth time."""
+    from fields.io.numbers import fmt
+
     name = mode_name(mode)
     if mode.neutral:
         return f"{name}: neutral (no restoring stiffness)"
+    k = f"{fmt(mode.stiffness, 3)} {mode.unit}"
+    if getattr(mode, "coupled_axes", ()):
+        shown = [fmt(d, 3) for d in mode.diagonal_stiffness]
+        diag = (" = ".join(f"K[{a},{a}]" for a in mode.axes) + f" {shown[0]}" if len(set(shown)) == 1
+                else ", ".join(f"K[{a},{a}] {d}" for a, d in zip(mode.axes, shown)))
+        k = (f"modal stiffness {k} (matrix diagonal {diag} {mode.unit}; "
+             f"{100 * mode.coupling_share:.0f} % of the motion's energy in the coupled axes)")
     if mode.stable:
         f = f", {mode.frequency_Hz:.3g} Hz" if mode.frequency_Hz else ""
-        return f"{name}: stable, {mode.stiffness:.3g} {mode.unit}{f}"
-    t = f", grows with time constant {mode.growth_time_s * 1e3:.3g} ms" if mode.growth_time_s else ""
-    return f"{name}: unstable, needs feedback, {mode.stiffness:.3g} {mode.unit}{t}"
+        return f"{name}: stable, {k}{f}"
+    t = (f", grows with time constant {mode.growth_time_s * 1e3:.3g} ms (the floater alone at a held current, "
+         "1/sqrt(-k/m); the control plant's time constant adds the coil)") if mode.growth_time_s else ""
+    return f"{name}: unstable, needs feedback, {k}{t}"
 
 
 def verdict_lines(verdict) -> list[str]:
@@ -51,8 +63,10 @@ def verdict_lines(verdict) -> list[str]:
     out.append(f"axes needing active control: {verdict.unstable_count}")
     why = ("not expected to vanish: the iron core's magnetization follows the floater" if verdict.iron
            else "vanishes for rigid magnets in iron-free fields (Earnshaw)")
+    diag = ("; it adds the matrix diagonal K[x,x] + K[y,y] + K[z,z], not the modal stiffnesses of coupled modes"
+            if any(getattr(m, "coupled_axes", ()) for m in verdict.modes) else "")
     out.append(f"Earnshaw check: trace of translational stiffness {verdict.earnshaw_trace_N_per_m:.3g} N/m "
-               f"({verdict.earnshaw_residual:.2g} of the largest diagonal entry; {why})")
+               f"({verdict.earnshaw_residual:.2g} of the largest diagonal entry; {why}{diag})")
     return out
 
 
@@ -175,15 +189,27 @@ def group_coil_warnings(warnings: Sequence[str], coil_names: Sequence[str]) -> l
 
 
 def mode_name(mode) -> str:
-    """Name of a stability mode from its kind and axes ("sideways x/y", "tilt about y", ...)."""
+    """Name of a stability mode from its kind and axes ("sideways x/y", "tilt about y", ...);
+    a coupled mode names the axes it mixes with ("sideways x coupled with tilt about y")."""
+    from fields.analysis.verdict import MODE_KIND
+
+    base = _axes_name(mode.kind, mode.axes)
+    coupled = getattr(mode, "coupled_axes", ())
+    if not coupled:
+        return base
+    return f"{base} coupled with {_axes_name(MODE_KIND[coupled[0]], coupled)}"
+
+
+def _axes_name(kind, axes) -> str:
     from fields.analysis.verdict import ModeKind
 
-    two = len(mode.axes) == 2
-    if mode.kind is ModeKind.SIDEWAYS:
-        return f"sideways {'x/y' if two else mode.axes[0]}"
-    if mode.kind is ModeKind.TILT:
-        return f"tilt about {'x/y' if two else mode.axes[0].lstrip('r')}"
-    return "vertical" if mode.kind is ModeKind.VERTICAL else "spin about vertical"
+    if kind is ModeKind.SIDEWAYS:
+        return "sideways " + "/".join(axes)
+    if kind is ModeKind.TILT:
+        return "tilt about " + "/".join(a.lstrip("r") for a in axes)
+    if kind is ModeKind.VERTICAL:
+        return "vertical"
+    return "spin about vertical"
 
 
 def verdict_notes(verdict) -> tuple[str, ...]:
@@ -248,15 +274,18 @@ def notice_text(n) -> str:
                              "enamelled round wire (common practice, no source)",
         "fill_mismatch": lambda: f"coil {s}: given fill factor {v['given_fill']:g} differs from the {v['implied_fill']:.3f} "
                                  "implied by the turns and wire; the implied value is used",
-        "thermal_runaway": lambda: f"coil {s}: thermal runaway (no steady temperature: I^2 R20 alpha >= h A) at {v['count']} "
-                                   f"of {v['of']} gaps, e.g. gap {v['first_gap_m'] * mm:.3g} mm",
+        "thermal_runaway": lambda: f"coil {s}: thermal runaway (no steady temperature: I^2 R20 alpha >= h A) at "
+                                   + (f"gaps {gap_runs_text(v['runs_m'])} ({v['count']} of {v['of']} gaps)" + _operating_in(v)
+                                      if "runs_m" in v
+                                      else f"{v['count']} of {v['of']} gaps, e.g. gap {v['first_gap_m'] * mm:.3g} mm"),
         "runaway_at_operating": lambda: f"coil {s}: runaway at the operating current; the hot resistance is quoted at "
                                         f"{v['quoted_temperature_C']:g} C",
         "insulation_class_assumed": lambda: f"coil {s}: no insulation class given; class {v['class_C']:g} C (IEC 60085) assumed",
-        "above_thermal_class": lambda: f"coil {s}: the winding would run above its insulation thermal class {v['class_C']:g} C "
-                                       + (f"at {v['count']} of {v['of']} gaps ({v['gap_lo_m'] * mm:.3g}-{v['gap_hi_m'] * mm:.3g} mm)"
-                                          if v['of'] > 1 else "at this current")
-                                       + " if held there continuously (IEC 60085 / IEC 60317)",
+        "above_thermal_class": lambda: f"coil {s}: over the insulation class {v['class_C']:g} C "
+                                       + ((f"at gaps {gap_runs_text(v['runs_m'])}" if "runs_m" in v else
+                                           f"at gaps {v['gap_lo_m'] * mm:.3g}-{v['gap_hi_m'] * mm:.3g} mm")
+                                          + f" ({v['count']} of {v['of']} gaps)" if v['of'] > 1 else "at this current")
+                                       + " if held there continuously (IEC 60085 / IEC 60317)" + _operating_in(v),
         "near_thermal_class": lambda: f"coil {s}: average winding temperature {v['temperature_C']:.0f} C is within the "
                                       f"{v['allowance_K']:g} K hot-spot allowance of the thermal class {v['class_C']:g} C "
                                       "(IEC 60085; allowance as in IEC 60034-1, from memory): the hot spot may exceed it",
@@ -290,6 +319,38 @@ def notice_text(n) -> str:
                           for k, x in v.items())
         return f"{s}: {c.replace('_', ' ')}" + (f" ({shown})" if shown else "")
     return texts[c]()
+
+
+def _operating_in(v: dict) -> str:
+    """Whether the operating gap lies in a notice's gap runs, in words ("" when not known)."""
+    if "operating_gap_m" not in v or "runs_m" not in v:
+        return ""
+    g = v["operating_gap_m"]
+    inside = any(lo <= g <= hi for lo, hi in v["runs_m"])
+    return f"; the operating gap {g * 1e3:.3g} mm is {'one of them' if inside else 'outside them'}"
+
+
+def gap_runs_text(runs_m) -> str:
+    """Contiguous gap runs (m) as ``"4-9.5, 12 mm"`` (a lone gap as one number).
+
+    >>> gap_runs_text([(0.004, 0.0095), (0.012, 0.012)])
+    '4-9.5, 12 mm'
+    """
+    parts = [f"{lo * 1e3:.3g}" if lo == hi else f"{lo * 1e3:.3g}-{hi * 1e3:.3g}" for lo, hi in runs_m]
+    return ", ".join(parts) + " mm"
+
+
+def operating_heat_alert(name: str, heat) -> str:
+    """The verdict's first line when the coil's operating point is too hot
+    (:class:`fields.studies.stages.coil.OperatingHeat`); "" when it is not."""
+    where = f"at the operating gap {heat.gap_m * 1e3:.3g} mm ({heat.current_A:.3g} A)"
+    if heat.runaway:
+        return (f"HEAT: coil {name} runs into thermal runaway {where}: no steady temperature; it will not "
+                "survive continuous operation there")
+    if heat.over_insulation_class:
+        return (f"HEAT: coil {name} runs at {heat.temperature_C:.0f} C {where}, over its insulation class "
+                f"{heat.insulation_class_C:g} C; it will not survive continuous operation there")
+    return ""
 
 
 def _default_fill() -> float:
@@ -486,81 +547,3 @@ def placement_text(what: str, counts: dict, best_found: bool, lateral_span_m: fl
     if not others:
         return ""
     return f"{what}: {total - counts.get('usable', 0)} of {total} candidates set aside: " + ", ".join(others) + travel
-
-
-# ---------------------------------------------------------------------------------------------
-# the files a run writes (the report's file list)
-
-#: one line per output file name; names that vary (per sensor, per simulation) by their prefix
-OUTPUT_FILES: dict[str, str] = {
-    "design.json": "the design as read (SI units), with its summary",
-    "design.png": "the design drawn to scale",
-    "curves.csv": "axial force versus gap for each current, hover current, payload envelope",
-    "curves.json": "summary of the axial curves: equilibria, operating gap, warnings",
-    "curves.png": "figure: force versus gap for each current",
-    "kz_table.csv": "axial stiffness k_z versus gap and current",
-    "stability.json": "equilibrium, 6x6 stiffness with error bars, verdict mode by mode",
-    "stiffness.csv": "the 6x6 stiffness matrix and its error bars",
-    "allocation.csv": "force and torque per ampere of each coil at the equilibrium",
-    "map_lateral.csv": "force and torque versus sideways offset and gap",
-    "map_tilt.csv": "force and torque versus tilt and gap",
-    "maps.png": "figure: sideways and tilt maps",
-    "offset_tilt_curves.png": "figure: sideways force and tilt torque at the operating gap",
-    "stiffness_vs_gap.csv": "diagonal stiffness versus gap at the hover current",
-    "stiffness_vs_gap.png": "figure: stiffness versus gap",
-    "coil.json": "coil datasheet: winding, resistance, inductance, heat, drive headroom",
-    "coil_heat.csv": "coil power and steady temperature at the hover current of each gap",
-    "sensors.json": "sensor curves, gains, linear ranges, cross-talk, placement",
-    "sensors.csv": "sensor outputs versus gap",
-    "sensors.png": "figure: sensor curves",
-    "placement.csv": "candidate Hall sensor positions, exclusions and how they rate",
-    "sensors_operating.csv": "each sensor at the operating gap: output, vertical and sideways sensitivity, linear range",
-    "control.json": "control model: plant, controller starting point, margins, simulations",
-    "plant.json": "linear plant: state space and transfer function",
-    "plant.csv": "linear plant matrices, one entry per row",
-    "capture.csv": "capture map: starting offset and speed, captured or not",
-    "capture.png": "figure: capture range",
-    "hysteresis.csv": "on/off control with a hysteresis band: outcome per band",
-    "control_bode.png": "figure: Bode plot of the loop",
-    "control_nyquist.png": "figure: Nyquist plot of the loop",
-    "control_step.png": "figure: nonlinear responses",
-    "run_status.json": "which stages finished and which failed",
-    "exports/exports.json": "what the exports stage wrote",
-    "exports/tables.h": "C header for firmware: force, stiffness and inverse tables with lookup functions",
-    "exports/plant.sub": "SPICE subcircuit of the electromechanical plant",
-    "exports/geometry.stl": "the bodies joined in one triangle mesh (STL, coordinates in metres)",
-    "exports/geometry_mm.stl": "the bodies as STL in millimetres, one named solid per body",
-    "exports/geometry.glb": "the bodies as a glTF scene of named meshes",
-    "sim_": "nonlinear simulation: time, position, speed, current",
-    "inverse_": "gap from a sensor reading (inverse table)",
-    "beam_placement_": "candidate beam heights for a beam gate and how they rate",
-    "table_": "force table for other tools",
-}
-
-_BY_SUFFIX = {".png": "figure", ".csv": "table (header on the first line)", ".json": "data (JSON)",
-              ".stl": "triangle mesh", ".glb": "glTF scene", ".h": "C header", ".sub": "SPICE subcircuit"}
-
-
-def file_description(rel: str, csv_notes: Sequence[str] = ()) -> str:
-    """One line on what an output file holds.
-
-    ``rel`` is its path inside the output folder; ``csv_notes`` the notes of a CSV's sidecar
-    (its last note says what the table holds, and wins over the generic line).
-
-    >>> file_description("curves.png"), file_description("x/table.meta.json")
-    ('figure: force versus gap for each current', 'what table.csv holds: notes and the unit of every column')
-    """
-    name = rel.rsplit("/", 1)[-1]
-    if name.endswith(".meta.json"):
-        return f"what {name[:-len('.meta.json')]}.csv holds: notes and the unit of every column"
-    if csv_notes:
-        return str(csv_notes[-1])
-    if rel in OUTPUT_FILES:
-        return OUTPUT_FILES[rel]
-    if name in OUTPUT_FILES:
-        return OUTPUT_FILES[name]
-    for prefix, text in OUTPUT_FILES.items():
-        if prefix.endswith("_") and name.startswith(prefix):
-            return text
-    dot = name.rfind(".")
-    return _BY_SUFFIX.get(name[dot:] if dot >= 0 else "", "output file")

@@ -16,7 +16,8 @@ from fields.studies.stages.common import file_list
 
 @dataclass(frozen=True)
 class OperatingHeat:
-    """A coil at the operating point: current, steady power and winding temperature."""
+    """A coil at the operating point: current, steady power, winding temperature and hot
+    resistance, and whether it runs over its insulation class or into thermal runaway."""
 
     gap_m: float
     current_A: float
@@ -24,6 +25,9 @@ class OperatingHeat:
     temperature_C: float
     temperature_rise_K: float
     runaway: bool
+    resistance_hot_ohm: float = float("nan")
+    insulation_class_C: float = float("nan")
+    over_insulation_class: bool = False
 
 
 @dataclass(frozen=True)
@@ -48,6 +52,9 @@ class CoilResult:
     control_pattern: np.ndarray
     warnings: tuple[str, ...]
     files: tuple[str, ...]
+    #: one line per coil whose operating point is over its insulation class or runs away (the
+    #: verdict says these first: command-line summary and the report's verdict box)
+    heat_alerts: tuple[str, ...] = ()
 
 
 def _heat_at(cd, eq, current_A: float) -> OperatingHeat:
@@ -58,7 +65,8 @@ def _heat_at(cd, eq, current_A: float) -> OperatingHeat:
     R = float(cd.resistance_ohm(T[0])) if np.isfinite(T[0]) else float("inf")
     return OperatingHeat(gap_m=float(eq.gap_m), current_A=current_A, power_W=current_A * current_A * R,
                          temperature_C=float(T[0]), temperature_rise_K=float(T[0] - cd.ambient_temperature_C),
-                         runaway=bool(run[0]))
+                         runaway=bool(run[0]), resistance_hot_ohm=R, insulation_class_C=float(cd.insulation_class_C),
+                         over_insulation_class=bool(run[0] or T[0] > cd.insulation_class_C))
 
 
 def _sheet(design: Design, k: int, c: analysis.AxialCurves, eq, ax) -> tuple[CoilSheet, list[str]]:
@@ -124,7 +132,10 @@ def run_coil(design: Design, out: Path, curves=None, stability=None) -> CoilResu
     I_op = np.asarray(eq.currents_A, dtype=float) if (design.cores and eq is not None) else None
     Lmat = (inductance.mutual_inductance_matrix(design, currents_A=I_op, gap_m=eq.gap_m if I_op is not None else None)
             if design.coils else np.zeros((0, 0)))
-    result = CoilResult(coils=tuple(sheets), inductance_matrix_H=Lmat, control_axis=ax.name, control_pattern=ax.pattern,
+    from fields.io.wording import operating_heat_alert
+
+    alerts = tuple(a for a in (operating_heat_alert(x.name, sh.at_operating_point) for x, sh in zip(design.coils, sheets)) if a)
+    result = CoilResult(heat_alerts=alerts, coils=tuple(sheets), inductance_matrix_H=Lmat, control_axis=ax.name, control_pattern=ax.pattern,
                         warnings=tuple(group_coil_warnings(list(dict.fromkeys(warnings)), [x.name for x in design.coils])),
                         files=file_list(out, "coil.json", "coil_heat.csv"))
     _write_heat_table(design, c, result.coils, out)

@@ -26,6 +26,7 @@ from pathlib import Path
 import numpy as np
 
 from fields import analysis
+from fields.control.simulate import Outcome
 from fields.errors import GeometryError, SolverError
 from fields.studies.result_fields import internal, optional
 from fields.model.design import Design
@@ -378,7 +379,8 @@ def _single_axis(design: Design, out: Path, pc: _AxisPieces):
     write_csv(out / "capture.csv", ["s0_m", "v0_m_per_s", "captured", "fate"],
               [[a, b, bool(cap.captured[i, j]), str(cap.fate[i, j])] for i, a in enumerate(cap.s0_grid_m)
                for j, b in enumerate(cap.v0_grid_m_per_s)],
-              header_lines(design.name, f"capture map along {sa.axis} with the PD starting controller"))
+              header_lines(design.name, f"capture map along {sa.axis} with the PD starting controller; fate in words: "
+                                        + ", ".join(o.value for o in Outcome if o not in (Outcome.LIMIT_CYCLE, Outcome.GROWING))))
     for name, fig in (("control_bode.png", plots.bode(m_pd, title=f"{design.name}: loop with the PD starting design")),
                       ("control_nyquist.png", plots.nyquist(m_pd, title=f"{design.name}: Nyquist plot (PD)")),
                       ("control_step.png", plots.time_responses(sims, title=f"{design.name}: nonlinear responses along {sa.axis}")),
@@ -402,7 +404,8 @@ def _write_on_off(design: Design, out: Path, st) -> list[str]:
                                    "frequency_Hz", "ripple_current_A", "mean_current_A", "joule_power_W", "supply_power_W",
                                    "duty", "describing_function_frequency_Hz"], rows,
               header_lines(design.name, f"on/off control through a {st.switch} switch stage; compare "
-                                        "linear_joule_power_W in control.json"))
+                                        "linear_joule_power_W in control.json; status in words: "
+                                        + ", ".join(o.value for o in Outcome if o is not Outcome.CAPTURED)))
     fig = plots_control.switched_runs(st.runs, st.linear_trace, labels=[f"band +-{h * 1e3:g} mm (as motion)" for h in st.half_band_equivalent_m],
                               title=f"{design.name}: on/off control, {st.switch.replace('_', '-')} "
                                                                "switch (dashed: linear controller)")

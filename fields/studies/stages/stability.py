@@ -137,9 +137,12 @@ def _maps(design: Design, eq: analysis.Equilibrium, out: Path) -> PoseMaps:
     gs = analysis.stiffness_versus_gap(design)
     write_map(out / "map_lateral.csv", design, lat)
     write_map(out / "map_tilt.csv", design, tilt)
-    write_csv(out / "stiffness_vs_gap.csv", ["gap_m", "k_lateral_N_per_m", "k_vertical_N_per_m", "k_tilt_Nm_per_rad"],
-              zip(gs.gaps_m, gs.k_lateral_N_per_m, gs.k_vertical_N_per_m, gs.k_tilt_Nm_per_rad),
-              header_lines(design.name, "diagonal stiffness versus gap at the hover current (k = -dF/dq)"))
+    write_csv(out / "stiffness_vs_gap.csv", ["gap_m", "k_x_N_per_m", "k_y_N_per_m", "k_vertical_N_per_m", "k_rx_Nm_per_rad",
+                                             "k_ry_Nm_per_rad", "k_lateral_N_per_m", "k_tilt_Nm_per_rad"],
+              zip(gs.gaps_m, gs.k_x_N_per_m, gs.k_y_N_per_m, gs.k_vertical_N_per_m, gs.k_rx_Nm_per_rad, gs.k_ry_Nm_per_rad,
+                  gs.k_lateral_N_per_m, gs.k_tilt_Nm_per_rad),
+              header_lines(design.name, "diagonal stiffness versus gap at the hover current (k = -dF/dq); "
+                                        "k_lateral and k_tilt are the means of the x and y entries"))
     figures = (
         ("maps.png", plots.pose_maps(lat, tilt, title=f"{design.name}: sideways and tilt maps at currents "
                                                       f"{np.round(eq.currents_A, 4).tolist()} A")),
