@@ -19,7 +19,7 @@ and floater magnets; fixed magnets are not modelled here).
   "Permanent Magnet and Electromechanical Devices", Academic Press 2001, ch. 2-3, from memory)
   gives F_z = (J/mu0) * I * sum_loops [M(R, a, z_top) - M(R, a, z_bottom)], M the mutual
   inductance of two coaxial circles by Maxwell's elliptic-integral formula (Smythe, "Static and
-  Dynamic Electricity", 3rd ed. 1968, sec. 7.?; from memory), integrated over the winding
+  Dynamic Electricity", 3rd ed. 1968; from memory), integrated over the winding
   cross-section by Gauss-Legendre.
 """
 

@@ -277,7 +277,7 @@ def run_case(c, log):
     for eps in TARGETS:
         lv = next((lv for lv in LEVELS if lv in hf and hf[lv][1] <= eps), None)
         hf_cells.append(f"'{lv}' level, {fmt_t(hf[lv][0] * c.get('scale', 1.0))}" if lv else
-                        ("one rule only" if not hf else "not reached"))
+                        ((f"its one rule, {fmt_t(t_hf)}" if e_hf <= eps else "not reached") if not hf else "not reached"))
     rows.append(("hoverfield", f"{fmt_t(t_hf)}, {e_hf:.1e}", *hf_cells, f"{e_hf:.1e} ({fmt_t(t_hf)})"))
     cells = []
     for eps in TARGETS:
