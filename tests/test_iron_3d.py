@@ -13,7 +13,7 @@ import pytest
 from helpers import SUSPENSION
 from scipy.constants import mu_0
 
-from fields.errors import GeometryError, InputError
+from fields.errors import InputError
 from fields.input.geometry import load
 from fields.physics.bh import FrohlichKennelly
 from fields.physics.charges import floater_surface_rule
@@ -345,7 +345,7 @@ def test_saturable_field_reduces_to_linear_and_reports_harmonics(suspension, sus
 
 def test_limits_are_named(suspension):
     cub = replace(suspension, cores=(replace(suspension.cores[0], shape="cuboid", dimensions_m=(0.01, 0.01, 0.03)),))
-    with pytest.raises(GeometryError, match="cylinder or ring with its axis along z"):
+    with pytest.raises(InputError, match="cylinder or ring with its axis along z"):
         build_iron_model(cub)
     m = iron_model(suspension, "coarse")
     with pytest.raises(InputError, match="harmonics must be an integer >= 1"):
