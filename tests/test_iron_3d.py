@@ -226,6 +226,7 @@ def test_newtons_third_law_and_torque_balance_off_axis(suspension):
     assert abs(F_fl[0]) > 0.05 * scale  # the lateral force is not negligible at this pose
 
 
+@pytest.mark.slow
 def test_harmonics_decay_and_the_lateral_force_converges(suspension, susp_model):
     """Truncation in m: the iron's field harmonics at the floater decay geometrically (the floater's
     field at the core is analytic in the angle; Trefethen and Weideman 2014) and the lateral force

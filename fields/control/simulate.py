@@ -286,7 +286,9 @@ class _Run:
         self.rec_held.append(float(self.held[0]))
 
 
-def _table_events(lo: float, hi: float):
+def table_events(lo: float, hi: float):
+    """Terminal ``solve_ivp`` events for leaving the force table ``lo..hi`` (m) below and above."""
+
     def ev_low(t, x, *a):
         return x[0] - lo
     ev_low.terminal, ev_low.direction = True, -1
@@ -390,7 +392,7 @@ def simulate(params: PlantParameters, table: ForceTable, controller: ControllerD
     X = np.array([sc.s0_m, sc.v0_m_per_s] + ([ic] if drive == "voltage" else []), dtype=float)
     run = _Run(params, sc, dyn, DigitalController(controller, 1) if coil_on else None, sensor, X,
                np.array([i0 if coil_on else 0.0]))
-    events = _table_events(*table.range_m)
+    events = table_events(*table.range_m)
     atol = np.array([1e-12, 1e-10] + ([1e-10] if drive == "voltage" else []))
     for gi, (tg, kinds) in enumerate(groups):
         for kind in kinds:

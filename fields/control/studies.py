@@ -14,7 +14,7 @@ from scipy.integrate import solve_ivp
 from fields.control.checks import check_choice, check_positive
 from fields.control.design import ControllerDesign
 from fields.control.plant import DRIVES, ForceTable, PlantParameters, Sensor, linear_sensor
-from fields.control.simulate import Outcome, Scenario, exit_outcome, run_batch, simulate
+from fields.control.simulate import Outcome, Scenario, exit_outcome, run_batch, simulate, table_events
 from fields.errors import SolverError
 from fields.physics.checks import input_error
 
@@ -301,13 +301,7 @@ class _Relay:
         lo, hi = table.range_m
         self.iE = 3 if self.volt else 2
 
-        def ev_lo(t, x, *a):
-            return x[0] - lo
-        ev_lo.terminal, ev_lo.direction = True, -1
-
-        def ev_hi(t, x, *a):
-            return x[0] - hi
-        ev_hi.terminal, ev_hi.direction = True, 1
+        ev_lo, ev_hi = table_events(lo, hi)
 
         def ev_on(t, x, *a):  # while on: switch off when sigma rises above +band/2
             return self.sigma(x) - band / 2

@@ -43,6 +43,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.integrate import solve_ivp
 
+from fields.control.simulate import table_events
 from fields.errors import SolverError
 from fields.physics.checks import input_error
 
@@ -248,13 +249,7 @@ def simulate_switched(axis: SwitchedAxis, stage: SwitchStage, half_band: float, 
     lp = _Loop(ax, stage, half_band, float(lead_time_s), ys, float(orientation))
     lo, hi = ax.range_m
 
-    def ev_lo(t, x, *a):
-        return x[0] - lo
-    ev_lo.terminal, ev_lo.direction = True, -1
-
-    def ev_hi(t, x, *a):
-        return x[0] - hi
-    ev_hi.terminal, ev_hi.direction = True, 1
+    ev_lo, ev_hi = table_events(lo, hi)
 
     def ev_off(t, x, *a):  # while on: switch off above +h
         return lp.sigma(x) - half_band

@@ -105,10 +105,9 @@ def _poses(positions_m, rotvecs_rad):
     return P, Rv
 
 
-def floater_rhs(model: IronModel, positions_m, rotvecs_rad) -> tuple[np.ndarray, np.ndarray]:
-    """Right-hand sides (n, 2c) of the floater at n poses and the mask (n,) of exact (on-axis) poses."""
-    d = model.design
-    P, Rv = _poses(positions_m, rotvecs_rad)
+def _axial_rhs(model: IronModel, P, Rv) -> tuple[np.ndarray, np.ndarray]:
+    """Floater right-hand sides (n, 2c) filled at the on-axis poses by the exact axial route, and
+    the mask of those poses (all False when the floater's magnets are off its axis)."""
     axial = (np.all(np.abs(P[:, :2] - model.axis_xy_m) <= 1e-12, axis=1) & np.all(Rv == 0.0, axis=1))
     b = np.zeros((P.shape[0], 2 * model.cells))
     if np.any(axial):
@@ -116,6 +115,14 @@ def floater_rhs(model: IronModel, positions_m, rotvecs_rad) -> tuple[np.ndarray,
             b[axial] = floater_rhs_axis(model, P[axial, 2])
         except InputError:  # magnets off the floater axis: not axisymmetric after all
             axial[:] = False
+    return b, axial
+
+
+def floater_rhs(model: IronModel, positions_m, rotvecs_rad) -> tuple[np.ndarray, np.ndarray]:
+    """Right-hand sides (n, 2c) of the floater at n poses and the mask (n,) of exact (on-axis) poses."""
+    d = model.design
+    P, Rv = _poses(positions_m, rotvecs_rad)
+    b, axial = _axial_rhs(model, P, Rv)
     other = ~axial
     if np.any(other):
         b[other] = model.rhs_field(lambda q: floater_field_T(d, q, P[other], Rv[other]))
@@ -135,14 +142,8 @@ def _floater_rhs_harmonics(model: IronModel, H: HarmonicIron | None, P, Rv):
         b, axial = floater_rhs(model, P, Rv)
         return b, None, axial
     d = model.design
-    axial = (np.all(np.abs(P[:, :2] - model.axis_xy_m) <= 1e-12, axis=1) & np.all(Rv == 0.0, axis=1))
-    b = np.zeros((P.shape[0], 2 * model.cells))
+    b, axial = _axial_rhs(model, P, Rv)
     bh = np.zeros((P.shape[0], H.harmonics, 2, 3 * model.cells))
-    if np.any(axial):
-        try:
-            b[axial] = floater_rhs_axis(model, P[axial, 2])
-        except InputError:  # magnets off the floater axis: not axisymmetric after all
-            axial[:] = False
     other = ~axial
     if np.any(other):
         b[other], bh[other] = H.rhs_field(lambda q: floater_field_T(d, q, P[other], Rv[other]))
