@@ -261,6 +261,7 @@ def test_stiffness_step_convergence_order():
 # ---- the examples: the verdicts the design intends ----
 
 
+@pytest.mark.slow
 def test_suspension_verdict():
     d = load(SUSPENSION)
     c = analysis.axial_curves(d)

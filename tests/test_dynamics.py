@@ -22,7 +22,7 @@ from fields.input.tables import G_STANDARD
 from fields.control.plant import ForceTable, PlantParameters, linear_plant
 from fields.control.simulate import Outcome, Scenario, simulate
 from fields.control.studies import capture_range, hysteresis_study
-from fields.errors import ContactError, GeometryError, SolverError
+from fields.errors import ContactError, InputError, SolverError
 
 G = G_STANDARD  # standard gravity, 9.80665 m/s^2 (3rd CGPM, 1901)
 M_KG = 0.011
@@ -93,7 +93,7 @@ def test_snap_picks_log_nearest_value():
     assert snap_to_e_series(4.6e3, "E12") == 4700.0
     assert snap_to_e_series(9.6e-9, "E12") == pytest.approx(1.0e-8)  # wraps to the next decade
     assert snap_to_e_series(12.4, "E24") == 12.0
-    with pytest.raises(GeometryError, match="snap_to_e_series: value must be a positive finite number"):
+    with pytest.raises(InputError, match="snap_to_e_series: value must be a positive finite number"):
         snap_to_e_series(-1.0)
 
 
@@ -201,11 +201,11 @@ def test_table_linearisation_matches_closed_form(table):
 
 
 def test_input_errors():
-    with pytest.raises(GeometryError, match=r"PlantParameters: mass_kg must be a positive finite number; got 0"):
+    with pytest.raises(InputError, match=r"PlantParameters: mass_kg must be a positive finite number; got 0"):
         make_params(mass_kg=0.0)
-    with pytest.raises(GeometryError, match=r"linear_plant: drive must be one of 'voltage', 'current'; got pwm"):
+    with pytest.raises(InputError, match=r"linear_plant: drive must be one of 'voltage', 'current'; got pwm"):
         linear_plant(make_params(), "pwm")
-    with pytest.raises(GeometryError, match=r"ForceTable: positions_m must be strictly increasing"):
+    with pytest.raises(InputError, match=r"ForceTable: positions_m must be strictly increasing"):
         ForceTable(np.array([0.0, 1.0, 1.0, 2.0]), np.zeros(4), np.ones(4))
     assert make_params(axis_name="lateral x").gravity_m_per_s2 == 0.0
     assert make_params().gravity_m_per_s2 == G

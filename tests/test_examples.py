@@ -27,6 +27,7 @@ SLOW_EXAMPLES = {REPULSIVE.name, "ring_steering.toml"}
 
 @pytest.mark.parametrize("path", [pytest.param(p, marks=pytest.mark.slow) if p.name in SLOW_EXAMPLES else p
                                   for p in EXAMPLES], ids=lambda p: p.name)
+@pytest.mark.slow
 def test_example_solves(path):
     d = load(path)
     c = analysis.axial_curves(d)

@@ -13,7 +13,7 @@ import pytest
 from helpers import SUSPENSION
 from scipy.constants import mu_0
 
-from fields.errors import GeometryError, InputError
+from fields.errors import InputError
 from fields.input.geometry import load
 from fields.physics.bh import FrohlichKennelly
 from fields.physics.charges import floater_surface_rule
@@ -226,6 +226,7 @@ def test_newtons_third_law_and_torque_balance_off_axis(suspension):
     assert abs(F_fl[0]) > 0.05 * scale  # the lateral force is not negligible at this pose
 
 
+@pytest.mark.slow
 def test_harmonics_decay_and_the_lateral_force_converges(suspension, susp_model):
     """Truncation in m: the iron's field harmonics at the floater decay geometrically (the floater's
     field at the core is analytic in the angle; Trefethen and Weideman 2014) and the lateral force
@@ -345,7 +346,7 @@ def test_saturable_field_reduces_to_linear_and_reports_harmonics(suspension, sus
 
 def test_limits_are_named(suspension):
     cub = replace(suspension, cores=(replace(suspension.cores[0], shape="cuboid", dimensions_m=(0.01, 0.01, 0.03)),))
-    with pytest.raises(GeometryError, match="cylinder or ring with its axis along z"):
+    with pytest.raises(InputError, match="cylinder or ring with its axis along z"):
         build_iron_model(cub)
     m = iron_model(suspension, "coarse")
     with pytest.raises(InputError, match="harmonics must be an integer >= 1"):

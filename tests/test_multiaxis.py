@@ -57,6 +57,7 @@ def _repulsive_with_y_sensor():
 # ------------------------------------------------------------------ single-axis reduction
 
 
+@pytest.mark.slow
 def test_single_axis_reduction_is_the_textbook_levitation_model(suspension):
     """Franklin, Powell & Emami-Naeini, Feedback Control of Dynamic Systems, magnetic levitation
     example: m z'' = k_x z + k_i i (here k_x = -k_z). The vertical block of the multi-axis plant
@@ -75,6 +76,7 @@ def test_single_axis_reduction_is_the_textbook_levitation_model(suspension):
     assert np.max(sub.poles().real) == pytest.approx(math.sqrt(-kz / m), rel=FD_REL)
 
 
+@pytest.mark.slow
 def test_voltage_drive_characteristic_polynomial(suspension):
     """Coil with back-EMF (Woodson & Melcher, Electromechanical Dynamics, Part I, 1968, ch. 3):
     L i' = u - R i - k_i z', so den(s) = (s + R/L)(s^2 + k_z/m) + k_i^2 s / (m L)."""
@@ -101,6 +103,7 @@ def test_back_emf_is_the_transpose_of_the_allocation(ring):
     np.testing.assert_allclose(p.inductance_H @ Aiv, -p.allocation.T, rtol=1e-10, atol=1e-15)
 
 
+@pytest.mark.slow
 def test_hot_resistance_is_the_lumped_heat_fixed_point(suspension):
     """Lumped steady state P = G (T - T_amb), R(T) = R20 (1 + alpha (T - 20 C)) with alpha =
     0.00393 /K (IEC 60028): the plant's hot resistance satisfies the balance at the bias current,
@@ -239,6 +242,7 @@ def test_siso_disk_margin_matches_python_control():
     assert per[0].alpha == pytest.approx(float(ref[0]), rel=1e-6)
 
 
+@pytest.mark.slow
 def test_lqg_separation_and_python_control_interconnection(suspension):
     """Separation principle (Franklin, Powell & Workman, Digital Control of Dynamic Systems, 1998,
     sec. 8): the closed-loop poles of the estimator-based regulator are those of Ad - Bd K and
@@ -258,6 +262,7 @@ def test_lqg_separation_and_python_control_interconnection(suspension):
         assert np.min(np.abs(reg.closed_loop_poles - z)) < 1e-6
 
 
+@pytest.mark.slow
 def test_loop_margins_match_python_control_for_one_channel(suspension):
     """One coil: the loop-at-a-time phase margin equals python-control's stability_margins on
     the same discrete loop; the gain interval's edges are where its Nyquist plot crosses -1/k."""
@@ -291,6 +296,7 @@ def test_sample_rate_follows_the_fastest_unstable_mode(ring):
     assert sr.rate_Hz < 2.5 * 30 * r.fastest_growth_rate_per_s
 
 
+@pytest.mark.slow
 def test_mode_pd_holds_the_suspension_vertical_axis(suspension):
     """Mode-space PD: modal poles at w_n = 3 p with damping 0.7, so the continuous modal loop
     has s^2 + 2 zeta w_n s + w_n^2 (a textbook PD placement); the discrete loop with one sample

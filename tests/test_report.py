@@ -404,6 +404,7 @@ def test_design_without_coils_reports_without_control_and_exits_0(tmp_path):
     assert "What failed" not in (out / "report.html").read_text()
 
 
+@pytest.mark.slow
 def test_failed_stage_is_reported_and_the_rest_kept(tmp_path):
     # one stage fails (a file stands where the exports folder must go): it is reported, the rest kept
     text = REPULSIVE.read_text()

@@ -1,6 +1,6 @@
 """Argument checks shared by the control modules.
 
-Each raises :class:`fields.errors.GeometryError` with the project's one message pattern
+Each raises :class:`fields.errors.InputError` (:func:`fields.physics.checks.input_error`) with the project's one message pattern
 (``<where>: <what> must be <rule>; got <value>.``).
 """
 
@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import math
 
-from fields.errors import GeometryError
+from fields.physics.checks import input_error
 
 
 def check_positive(where: str, what: str, value: float) -> float:
@@ -21,7 +21,7 @@ def check_positive(where: str, what: str, value: float) -> float:
     """
     v = float(value)
     if not (math.isfinite(v) and v > 0):
-        raise GeometryError(where, what, "a positive finite number", value)
+        raise input_error(where, what, "a positive finite number", value)
     return v
 
 
@@ -29,7 +29,7 @@ def check_finite(where: str, what: str, value: float) -> float:
     """``value`` as a float; it must be finite."""
     v = float(value)
     if not math.isfinite(v):
-        raise GeometryError(where, what, "finite", value)
+        raise input_error(where, what, "finite", value)
     return v
 
 
@@ -37,12 +37,12 @@ def check_non_negative(where: str, what: str, value: float) -> float:
     """``value`` as a float; it must be finite and >= 0."""
     v = float(value)
     if not (math.isfinite(v) and v >= 0):
-        raise GeometryError(where, what, "non-negative", value)
+        raise input_error(where, what, "non-negative", value)
     return v
 
 
 def check_choice(where: str, what: str, value: str, choices: tuple[str, ...]) -> str:
     """``value`` unchanged; it must be one of ``choices``."""
     if value not in choices:
-        raise GeometryError(where, what, "one of " + ", ".join(repr(c) for c in choices), value)
+        raise input_error(where, what, "one of " + ", ".join(repr(c) for c in choices), value)
     return value

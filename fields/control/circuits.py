@@ -23,7 +23,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from fields.control.checks import check_choice, check_positive
-from fields.errors import GeometryError, SolverError
+from fields.errors import InputError, SolverError
+from fields.physics.checks import input_error
 
 #: IEC 60063:2015 preferred-number series (mantissas of one decade), as published
 E_SERIES: dict[str, tuple[float, ...]] = {
@@ -151,7 +152,7 @@ def _lead_stage(wz: float, wp: float, k: float, caps: list[float], resistor_seri
         r2 = k * (r1 + r3)
         try:
             snapped = [snap_to_e_series(r, resistor_series) for r in (r1, r3, r2)]
-        except GeometryError:
+        except InputError:
             continue
         if not all(RESISTOR_RANGE_OHM[0] <= r <= RESISTOR_RANGE_OHM[1] for r in snapped):
             continue
@@ -221,7 +222,7 @@ def analog_lead_network(zero_rad_per_s: float, pole_rad_per_s: float, dc_gain_V_
     wz = check_positive(w, "zero_rad_per_s", zero_rad_per_s)
     wp = check_positive(w, "pole_rad_per_s", pole_rad_per_s)
     if wp <= wz:
-        raise GeometryError(w, "pole_rad_per_s", f"above zero_rad_per_s = {wz:g}", wp)
+        raise input_error(w, "pole_rad_per_s", f"above zero_rad_per_s = {wz:g}", wp)
     k = check_positive(w, "dc_gain_V_per_V", dc_gain_V_per_V)
     caps = _capacitors(capacitor_series)
     best = _lead_stage(wz, wp, k, caps, resistor_series)

@@ -19,7 +19,8 @@ import numpy as np
 from fields.control.checks import check_choice, check_non_negative, check_positive
 from fields.control.circuits import OpAmpLeadNetwork, analog_lead_network
 from fields.control.plant import Plant, loop_plant_matrices
-from fields.errors import GeometryError, SolverError
+from fields.errors import InputError, SolverError
+from fields.physics.checks import input_error
 
 #: largest phase one lead stage is asked to give (deg); beyond it the lead ratio exceeds ~60
 MAX_LEAD_DEG = 75.0
@@ -202,7 +203,7 @@ def _discretise(Ctf: control.TransferFunction, T: float | None, wc: float):
 def _analog_network(wz: float, wp: float, K: float, wi: float, gm_A_per_V: float) -> OpAmpLeadNetwork | None:
     try:
         return analog_lead_network(wz, wp, K / gm_A_per_V, wi, driver_transconductance_A_per_V=gm_A_per_V)
-    except (GeometryError, SolverError):
+    except (InputError, SolverError):
         # no practical op-amp network for these numbers (e.g. a sensor signal not in volts)
         return None
 
@@ -267,17 +268,17 @@ def design_controller(plant: Plant, crossover_multiple: float = 3.0, phase_margi
     m = check_positive(w, "crossover_multiple", crossover_multiple)
     pm = check_positive(w, "phase_margin_deg", phase_margin_deg)
     if pm >= 90:
-        raise GeometryError(w, "phase_margin_deg", "below 90", pm)
+        raise input_error(w, "phase_margin_deg", "below 90", pm)
     T = None if sample_time_s is None else check_positive(w, "sample_time_s", sample_time_s)
     tau = check_non_negative(w, "loop_delay_s", loop_delay_s)
     ref = plant.reference_pole_rad_per_s
     if ref <= 0:
-        raise GeometryError(w, "plant stiffness_N_per_m", "non-zero (the crossover is placed from "
-                            "the plant pole)", plant.params.stiffness_N_per_m)
+        raise input_error(w, "plant stiffness_N_per_m", "non-zero (the crossover is placed from "
+                          "the plant pole)", plant.params.stiffness_N_per_m)
     wc = m * ref
     p = plant.params
     if T is not None and T * wc > math.pi / 2:
-        raise GeometryError(w, "sample_time_s", f"below pi/(2 omega_c) = {math.pi / 2 / wc:.4g} s", T)
+        raise input_error(w, "sample_time_s", f"below pi/(2 omega_c) = {math.pi / 2 / wc:.4g} s", T)
     kc, bw = _current_loop(plant, wc, current_loop_multiple)
     loop_plant = control.ss(*loop_plant_matrices(plant, kc))
     P = complex(np.asarray(loop_plant(1j * wc)).reshape(-1)[0])

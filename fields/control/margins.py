@@ -19,7 +19,7 @@ import numpy as np
 from fields.control.checks import check_non_negative
 from fields.control.design import ControllerDesign
 from fields.control.plant import Plant, loop_plant_matrices
-from fields.errors import GeometryError
+from fields.physics.checks import input_error
 
 #: relative distance below which two negative-real-axis crossings count as one
 CROSSING_MERGE_RTOL = 1e-7
@@ -53,7 +53,7 @@ def loop_transfer(plant: Plant, controller: ControllerDesign, *, sampled: bool |
     """
     w = "loop_transfer"
     if plant.drive != controller.drive:
-        raise GeometryError(w, "controller.drive", f"the plant's drive {plant.drive!r}", controller.drive)
+        raise input_error(w, "controller.drive", f"the plant's drive {plant.drive!r}", controller.drive)
     if sampled is None:
         sampled = controller.sample_time_s is not None
     tau = controller.loop_delay_s if loop_delay_s is None else check_non_negative(w, "loop_delay_s", loop_delay_s)
@@ -61,7 +61,7 @@ def loop_transfer(plant: Plant, controller: ControllerDesign, *, sampled: bool |
     if sampled:
         T = controller.sample_time_s
         if T is None:
-            raise GeometryError(w, "controller.sample_time_s", "set for a sampled loop", None)
+            raise input_error(w, "controller.sample_time_s", "set for a sampled loop", None)
         Pd = control.c2d(control.ss(A, B, C, np.zeros((1, 1))), T, method="zoh")
         if D[0, 0] != 0:
             Pd = Pd + control.ss(control.tf([float(D[0, 0])], [1.0, 0.0], T))

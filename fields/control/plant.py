@@ -37,7 +37,8 @@ from scipy.constants import g as STANDARD_GRAVITY_M_PER_S2
 from scipy.interpolate import CubicSpline
 
 from fields.control.checks import check_choice, check_finite, check_positive
-from fields.errors import GeometryError, SolverError
+from fields.errors import SolverError
+from fields.physics.checks import input_error
 
 #: nominal design rule: gain crossover at this multiple of the unstable pole (common practice,
 #: no source; the open-loop-unstable limit omega_c > 2 p is in Skogestad & Postlethwaite,
@@ -107,25 +108,25 @@ class PlantParameters:
     def __post_init__(self) -> None:
         w = "PlantParameters"
         if not isinstance(self.axis_name, str) or not self.axis_name.strip():
-            raise GeometryError(w, "axis_name", "a non-empty string", self.axis_name)
+            raise input_error(w, "axis_name", "a non-empty string", self.axis_name)
         check_positive(w, "mass_kg", self.mass_kg)
         check_finite(w, "stiffness_N_per_m", self.stiffness_N_per_m)
         ki = check_finite(w, "force_per_ampere_N_per_A", self.force_per_ampere_N_per_A)
         if ki == 0:
-            raise GeometryError(w, "force_per_ampere_N_per_A", "non-zero (the coil must act)", ki)
+            raise input_error(w, "force_per_ampere_N_per_A", "non-zero (the coil must act)", ki)
         check_positive(w, "resistance_ohm", self.resistance_ohm)
         check_positive(w, "inductance_H", self.inductance_H)
         imax = check_positive(w, "max_current_A", self.max_current_A)
         i0 = check_finite(w, "hover_current_A", self.hover_current_A)
         if abs(i0) >= imax:
-            raise GeometryError(w, "hover_current_A", f"inside +-max_current_A = {imax:g} A", i0)
+            raise input_error(w, "hover_current_A", f"inside +-max_current_A = {imax:g} A", i0)
         vs = check_positive(w, "supply_voltage_V", self.supply_voltage_V)
         if abs(i0) * self.resistance_ohm >= vs:
-            raise GeometryError(w, "hover voltage R*I0", f"below supply_voltage_V = {vs:g} V",
-                                abs(i0) * self.resistance_ohm)
+            raise input_error(w, "hover voltage R*I0", f"below supply_voltage_V = {vs:g} V",
+                              abs(i0) * self.resistance_ohm)
         gs = check_finite(w, "sensor_gain_per_m", self.sensor_gain_per_m)
         if gs == 0:
-            raise GeometryError(w, "sensor_gain_per_m", "non-zero", gs)
+            raise input_error(w, "sensor_gain_per_m", "non-zero", gs)
         check_finite(w, "sensor_crosstalk_per_A", self.sensor_crosstalk_per_A)
         g = self.gravity_m_per_s2
         if g is None:
@@ -133,7 +134,7 @@ class PlantParameters:
             object.__setattr__(self, "gravity_m_per_s2", g)
         g = check_finite(w, "gravity_m_per_s2", g)
         if g < 0:
-            raise GeometryError(w, "gravity_m_per_s2", "non-negative (it acts along -s)", g)
+            raise input_error(w, "gravity_m_per_s2", "non-negative (it acts along -s)", g)
 
     @property
     def is_vertical(self) -> bool:
@@ -383,14 +384,14 @@ class ForceTable:
         f0 = np.asarray(self.F0_N, dtype=float)
         fk = np.asarray(self.Fk_N_per_A, dtype=float)
         if s.ndim != 1 or s.size < 4:
-            raise GeometryError(w, "positions_m", "a 1-D array of at least 4 positions", s.shape)
+            raise input_error(w, "positions_m", "a 1-D array of at least 4 positions", s.shape)
         if f0.shape != s.shape or fk.shape != s.shape:
-            raise GeometryError(w, "F0_N and Fk_N_per_A", f"shape {s.shape} like positions_m",
-                                (f0.shape, fk.shape))
+            raise input_error(w, "F0_N and Fk_N_per_A", f"shape {s.shape} like positions_m",
+                              (f0.shape, fk.shape))
         if not (np.all(np.isfinite(s)) and np.all(np.isfinite(f0)) and np.all(np.isfinite(fk))):
-            raise GeometryError(w, "table values", "finite", "non-finite entries")
+            raise input_error(w, "table values", "finite", "non-finite entries")
         if np.any(np.diff(s) <= 0):
-            raise GeometryError(w, "positions_m", "strictly increasing", s.tolist()[:6])
+            raise input_error(w, "positions_m", "strictly increasing", s.tolist()[:6])
         object.__setattr__(self, "positions_m", s)
         object.__setattr__(self, "F0_N", f0)
         object.__setattr__(self, "Fk_N_per_A", fk)
@@ -456,5 +457,5 @@ def linear_sensor(params: PlantParameters, range_signal=(-math.inf, math.inf)) -
     gs, gi, i0 = params.sensor_gain_per_m, params.sensor_crosstalk_per_A, params.hover_current_A
     lo, hi = float(range_signal[0]), float(range_signal[1])
     if not lo < hi:
-        raise GeometryError("linear_sensor", "range_signal", "(low, high) with low < high", range_signal)
+        raise input_error("linear_sensor", "range_signal", "(low, high) with low < high", range_signal)
     return Sensor(lambda s, i: gs * np.asarray(s) + gi * (np.asarray(i) - i0), (lo, hi), params.sensor_unit)

@@ -25,7 +25,8 @@ from fields.control.plant import (
     linear_sensor,
     plant_matrices,
 )
-from fields.errors import ContactError, GeometryError, SolverError
+from fields.errors import ContactError, SolverError
+from fields.physics.checks import input_error
 
 #: RK4 stability/accuracy bound on ``h lambda_max`` for the batch integrator
 RK4_STEP_BOUND = 0.2
@@ -107,7 +108,7 @@ class Scenario:
                 check_finite(w, k, v)
         for k in ("reference_step_time_s", "force_step_time_s", "force_impulse_time_s", "payload_time_s"):
             if getattr(self, k) < 0:
-                raise GeometryError(w, k, "non-negative", getattr(self, k))
+                raise input_error(w, k, "non-negative", getattr(self, k))
 
 
 @dataclass(frozen=True)
@@ -270,7 +271,7 @@ class _Run:
         elif kind == "payload":
             self.mass = self.params.mass_kg + sc.payload_kg
             if self.mass <= 0:
-                raise GeometryError("simulate", "mass_kg + scenario.payload_kg", "positive", self.mass)
+                raise input_error("simulate", "mass_kg + scenario.payload_kg", "positive", self.mass)
         elif kind == "sample":
             I, _, _ = self.dyn.current_and_voltage(self.X[:, None], self.held)
             y = self.sensor(np.array([self.X[0]]), I)
@@ -285,7 +286,9 @@ class _Run:
         self.rec_held.append(float(self.held[0]))
 
 
-def _table_events(lo: float, hi: float):
+def table_events(lo: float, hi: float):
+    """Terminal ``solve_ivp`` events for leaving the force table ``lo..hi`` (m) below and above."""
+
     def ev_low(t, x, *a):
         return x[0] - lo
     ev_low.terminal, ev_low.direction = True, -1
@@ -325,11 +328,11 @@ def _check_simulate(controller, drive, loop_delay_s, table, sc) -> tuple[str, fl
     w = "simulate"
     if controller is not None:
         if controller.sample_time_s is None:
-            raise GeometryError(w, "controller.sample_time_s", "set (the simulation runs the sampled "
-                                "controller; use a short sample time to stand in for an analog build)", None)
+            raise input_error(w, "controller.sample_time_s", "set (the simulation runs the sampled "
+                              "controller; use a short sample time to stand in for an analog build)", None)
         drive = controller.drive if drive is None else drive
         if drive != controller.drive:
-            raise GeometryError(w, "drive", f"the controller's drive {controller.drive!r}", drive)
+            raise input_error(w, "drive", f"the controller's drive {controller.drive!r}", drive)
     drive = check_choice(w, "drive", "current" if drive is None else drive, DRIVES)
     tau = check_non_negative(w, "loop_delay_s", loop_delay_s)
     lo, hi = table.range_m
@@ -389,7 +392,7 @@ def simulate(params: PlantParameters, table: ForceTable, controller: ControllerD
     X = np.array([sc.s0_m, sc.v0_m_per_s] + ([ic] if drive == "voltage" else []), dtype=float)
     run = _Run(params, sc, dyn, DigitalController(controller, 1) if coil_on else None, sensor, X,
                np.array([i0 if coil_on else 0.0]))
-    events = _table_events(*table.range_m)
+    events = table_events(*table.range_m)
     atol = np.array([1e-12, 1e-10] + ([1e-10] if drive == "voltage" else []))
     for gi, (tg, kinds) in enumerate(groups):
         for kind in kinds:

@@ -14,8 +14,9 @@ from scipy.integrate import solve_ivp
 from fields.control.checks import check_choice, check_positive
 from fields.control.design import ControllerDesign
 from fields.control.plant import DRIVES, ForceTable, PlantParameters, Sensor, linear_sensor
-from fields.control.simulate import Outcome, Scenario, exit_outcome, run_batch, simulate
-from fields.errors import GeometryError, SolverError
+from fields.control.simulate import Outcome, Scenario, exit_outcome, run_batch, simulate, table_events
+from fields.errors import SolverError
+from fields.physics.checks import input_error
 
 #: interior points per band edge and bisection round of the capture band
 BAND_POINTS_PER_ROUND = 7
@@ -82,8 +83,8 @@ def _capture_grids(s0_grid_m, v0_grid_m_per_s, table: ForceTable):
     v0g = np.sort(v0g)
     lo, hi = table.range_m
     if s0g.size < 2 or s0g[0] <= lo or s0g[-1] >= hi:
-        raise GeometryError("capture_range", "s0_grid_m", f"at least 2 offsets inside the table ({lo:g}, {hi:g}) m",
-                            (float(s0g[0]), float(s0g[-1])) if s0g.size else ())
+        raise input_error("capture_range", "s0_grid_m", f"at least 2 offsets inside the table ({lo:g}, {hi:g}) m",
+                          (float(s0g[0]), float(s0g[-1])) if s0g.size else ())
     return s0g, v0g
 
 
@@ -177,7 +178,7 @@ def capture_range(params: PlantParameters, table: ForceTable, controller: Contro
     """
     w = "capture_range"
     if controller.sample_time_s is None:
-        raise GeometryError(w, "controller.sample_time_s", "set (sampled controller)", None)
+        raise input_error(w, "controller.sample_time_s", "set (sampled controller)", None)
     sensor = linear_sensor(params) if sensor is None else sensor
     s0g, v0g = _capture_grids(s0_grid_m, v0_grid_m_per_s, table)
     lo, hi = table.range_m
@@ -300,13 +301,7 @@ class _Relay:
         lo, hi = table.range_m
         self.iE = 3 if self.volt else 2
 
-        def ev_lo(t, x, *a):
-            return x[0] - lo
-        ev_lo.terminal, ev_lo.direction = True, -1
-
-        def ev_hi(t, x, *a):
-            return x[0] - hi
-        ev_hi.terminal, ev_hi.direction = True, 1
+        ev_lo, ev_hi = table_events(lo, hi)
 
         def ev_on(t, x, *a):  # while on: switch off when sigma rises above +band/2
             return self.sigma(x) - band / 2
@@ -472,11 +467,11 @@ def hysteresis_study(params: PlantParameters, table: ForceTable, controller: Con
     check_choice(w, "mode", mode, DRIVES)
     bands = np.atleast_1d(np.asarray(band_widths_m, dtype=float))
     if bands.size == 0 or np.any(~np.isfinite(bands)) or np.any(bands <= 0):
-        raise GeometryError(w, "band_widths_m", "positive finite widths", bands.tolist())
+        raise input_error(w, "band_widths_m", "positive finite widths", bands.tolist())
     lead = (controller.kd_A_s_per_signal / controller.kp_A_per_signal) if lead_time_s is None \
         else float(lead_time_s)
     if not (math.isfinite(lead) and lead >= 0):
-        raise GeometryError(w, "lead_time_s", "non-negative", lead_time_s)
+        raise input_error(w, "lead_time_s", "non-negative", lead_time_s)
     if mode == "current":
         on = params.max_current_A if on_current_A is None else float(on_current_A)
         off = float(off_current_A)

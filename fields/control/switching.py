@@ -43,7 +43,9 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from fields.errors import GeometryError, SolverError
+from fields.control.simulate import table_events
+from fields.errors import SolverError
+from fields.physics.checks import input_error
 
 SWITCH_KINDS = ("low_side", "h_bridge")
 #: forward drop of the flyback diode (a silicon rectifier; common practice, no source)
@@ -71,9 +73,9 @@ class SwitchStage:
 
     def __post_init__(self) -> None:
         if self.kind not in SWITCH_KINDS:
-            raise GeometryError("switch stage", "kind", f"one of {', '.join(SWITCH_KINDS)}", self.kind)
+            raise input_error("switch stage", "kind", f"one of {', '.join(SWITCH_KINDS)}", self.kind)
         if not (math.isfinite(self.supply_voltage_V) and self.supply_voltage_V > 0):
-            raise GeometryError("switch stage", "supply_voltage_V", "positive", self.supply_voltage_V)
+            raise input_error("switch stage", "supply_voltage_V", "positive", self.supply_voltage_V)
 
     @property
     def on_voltage_V(self) -> float:
@@ -237,7 +239,7 @@ def simulate_switched(axis: SwitchedAxis, stage: SwitchStage, half_band: float, 
     for a pure R-L load).
     """
     if not (math.isfinite(half_band) and half_band > 0):
-        raise GeometryError("simulate_switched", "half_band", "positive", half_band)
+        raise input_error("simulate_switched", "half_band", "positive", half_band)
     ax = axis
     I0 = float(ax.bias_current_A)
     ys = float(ax.sensor(0.0, I0)) if y_set is None else float(y_set)
@@ -247,13 +249,7 @@ def simulate_switched(axis: SwitchedAxis, stage: SwitchStage, half_band: float, 
     lp = _Loop(ax, stage, half_band, float(lead_time_s), ys, float(orientation))
     lo, hi = ax.range_m
 
-    def ev_lo(t, x, *a):
-        return x[0] - lo
-    ev_lo.terminal, ev_lo.direction = True, -1
-
-    def ev_hi(t, x, *a):
-        return x[0] - hi
-    ev_hi.terminal, ev_hi.direction = True, 1
+    ev_lo, ev_hi = table_events(lo, hi)
 
     def ev_off(t, x, *a):  # while on: switch off above +h
         return lp.sigma(x) - half_band

@@ -435,38 +435,7 @@ def objectives_vs_parameters(parameters: dict, objectives: dict, feasible, front
     -------
     matplotlib.figure.Figure
     """
-    feasible = np.asarray(feasible, bool)
-    pn, on = list(parameters), list(objectives)
-    fig, axes = plt.subplots(len(on), len(pn), figsize=(3.6 * len(pn) + 0.8, 2.8 * len(on) + 0.8), squeeze=False)
-    for j, p in enumerate(pn):
-        raw = list(parameters[p])
-        try:
-            x = np.array(raw, float)
-            labels = None
-        except (TypeError, ValueError):
-            labels = sorted({str(v) for v in raw})
-            x = np.array([labels.index(str(v)) for v in raw], float)
-        for i, o in enumerate(on):
-            ax = axes[i, j]
-            y = np.asarray(objectives[o], float)
-            ax.scatter(x[~feasible], y[~feasible], s=9, marker="x", color="#bbbbbb", label="rejected")
-            ax.scatter(x[feasible], y[feasible], s=10, color="#5b7fbf", label="feasible")
-            if front_mask is not None and np.any(front_mask):
-                fm = np.asarray(front_mask, bool)
-                ax.scatter(x[fm], y[fm], s=30, facecolors="none", edgecolors="#c04a4a", label="Pareto front")
-            if labels is not None:
-                ax.set_xticks(range(len(labels)))
-                ax.set_xticklabels(labels, rotation=30, fontsize=7)
-            if i == len(on) - 1:
-                ax.set_xlabel(p, fontsize=8)
-            if j == 0:
-                ax.set_ylabel(o, fontsize=8)
-            ax.grid(True, alpha=0.3)
-            ax.tick_params(labelsize=7)
-    axes[0, 0].legend(fontsize=7, loc="best")
-    fig.suptitle(title or "objectives versus parameters", fontsize=11)
-    fig.tight_layout()
-    return fig
+    return objectives_vs_categories(parameters, objectives, feasible, None, front_mask, title)
 
 
 def offset_tilt_curves(lateral_map, tilt_map, gap_m: float, title: str = ""):

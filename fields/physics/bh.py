@@ -25,7 +25,7 @@ import numpy as np
 from scipy.constants import mu_0
 from scipy.interpolate import PchipInterpolator
 
-from fields.errors import GeometryError
+from fields.physics.checks import input_error
 
 
 @dataclass(frozen=True)
@@ -51,9 +51,9 @@ class FrohlichKennelly:
 
     def __post_init__(self):
         if not (np.isfinite(self.chi) and self.chi > 0.0):
-            raise GeometryError("FrohlichKennelly", "chi", "a positive number (mu_r > 1)", self.chi)
+            raise input_error("FrohlichKennelly", "chi", "a positive number (mu_r > 1)", self.chi)
         if not (np.isfinite(self.saturation_T) and self.saturation_T > 0.0):
-            raise GeometryError("FrohlichKennelly", "saturation_T", "a positive polarization in tesla", self.saturation_T)
+            raise input_error("FrohlichKennelly", "saturation_T", "a positive polarization in tesla", self.saturation_T)
 
     @property
     def initial_susceptibility(self) -> float:
@@ -105,14 +105,14 @@ class TableCurve:
         H = np.asarray(H_A_per_m, dtype=float).reshape(-1)
         B = np.asarray(B_T, dtype=float).reshape(-1)
         if H.size != B.size or H.size < 3:
-            raise GeometryError(where, "(H, B) points", "at least 3 pairs of equal length", (H.size, B.size))
+            raise input_error(where, "(H, B) points", "at least 3 pairs of equal length", (H.size, B.size))
         if H[0] != 0.0 or B[0] != 0.0:
-            raise GeometryError(where, "first (H, B) point", "(0, 0)", (float(H[0]), float(B[0])))
+            raise input_error(where, "first (H, B) point", "(0, 0)", (float(H[0]), float(B[0])))
         if np.any(np.diff(H) <= 0.0) or np.any(np.diff(B) <= 0.0):
-            raise GeometryError(where, "H and B", "strictly increasing", "a non-increasing step")
+            raise input_error(where, "H and B", "strictly increasing", "a non-increasing step")
         J = B - mu_0 * H
         if np.any(np.diff(J) < 0.0):
-            raise GeometryError(where, "B - mu0 H", "non-decreasing (slope of B at least mu0)", float(np.diff(J).min()))
+            raise input_error(where, "B - mu0 H", "non-decreasing (slope of B at least mu0)", float(np.diff(J).min()))
         f = PchipInterpolator(H, J, extrapolate=False)
         return cls(H, B, float(J[-1]), f, f.derivative())
 

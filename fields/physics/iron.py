@@ -38,9 +38,10 @@ import numpy as np
 from scipy import linalg
 from scipy.constants import mu_0
 
-from fields.errors import GeometryError
+from fields.errors import InputError
 from fields.model.design import Design, rotation_matrix
 from fields.physics.bh import FrohlichKennelly, TableCurve
+from fields.physics.checks import input_error
 from fields.physics.iron_rings import (
     Edges,
     RingMesh,
@@ -75,18 +76,18 @@ FIELD_CHUNK = 400_000
 def _axis_of_cores(design: Design) -> np.ndarray:
     """The common symmetry axis (x, y) of the design's cores (cylinders/rings along world z)."""
     if not design.cores:
-        raise GeometryError("iron_model", "design.cores", "at least one core", 0)
+        raise input_error("iron_model", "design.cores", "at least one core", 0)
     xy = []
     for c in design.cores:
         R = rotation_matrix(c.rotvec_rad)
         if c.shape not in ("cylinder", "ring") or abs(abs(R[2, 2]) - 1.0) > 1e-12:
-            raise GeometryError(f"core {c.name}", "shape and axis",
-                                "a cylinder or ring with its axis along z (ring cells are axisymmetric)",
-                                (c.shape, tuple(c.axis)))
+            raise input_error(f"core {c.name}", "shape and axis",
+                              "a cylinder or ring with its axis along z (ring cells are axisymmetric)",
+                              (c.shape, tuple(c.axis)))
         xy.append(np.asarray(c.position_m[:2], dtype=float))
     xy = np.array(xy)
     if np.ptp(xy[:, 0]) > 1e-12 or np.ptp(xy[:, 1]) > 1e-12:
-        raise GeometryError("iron_model", "core positions", "on one common axis parallel to z", xy.tolist())
+        raise input_error("iron_model", "core positions", "on one common axis parallel to z", xy.tolist())
     return xy[0]
 
 
@@ -405,12 +406,12 @@ def _curves(design: Design, curves) -> tuple:
                 continue
             mu_r = float(c.relative_permeability)
             if not np.isfinite(mu_r) or mu_r <= 1.0:
-                raise GeometryError(f"core {c.name}", "relative_permeability", "> 1", mu_r)
+                raise input_error(f"core {c.name}", "relative_permeability", "> 1", mu_r)
             out.append(FrohlichKennelly(mu_r - 1.0, float(c.saturation_polarization_T)))
         return tuple(out)
     curves = tuple(curves)
     if len(curves) != len(design.cores):
-        raise GeometryError("iron_model", "curves", f"one per core ({len(design.cores)})", len(curves))
+        raise input_error("iron_model", "curves", f"one per core ({len(design.cores)})", len(curves))
     return curves
 
 
@@ -422,18 +423,18 @@ def _coaxial_sheets(design: Design, axis_xy, layers: int):
     for k, c in enumerate(design.coils):
         try:
             if np.hypot(*(np.asarray(c.position_m[:2]) - axis_xy)) > 1e-12:
-                raise GeometryError("coil", "axis", "coaxial", None)
+                raise input_error("coil", "axis", "coaxial", None)
             sh = axial_sheets(replace(base, coils=(c,), magnets=()), layers, magnets=False)
-        except GeometryError:
+        except InputError:
             sh = None
         coils.append(sh)
     mags = None
     if design.magnets:
         try:
             if any(np.hypot(*(np.asarray(m.position_m[:2]) - axis_xy)) > 1e-12 for m in design.magnets):
-                raise GeometryError("magnet", "axis", "coaxial", None)
+                raise input_error("magnet", "axis", "coaxial", None)
             mags = axial_sheets(base, coils=False)
-        except GeometryError:
+        except InputError:
             mags = None
     return coils, mags
 
@@ -499,12 +500,12 @@ def build_iron_model(design: Design, level="coarse", curves=None) -> IronModel:
         st, name = dict(level), "custom"
         missing = {"nr", "aspect", "grade", "face_points", "layers"} - set(st)
         if missing:
-            raise GeometryError("iron_model", "level", "a dict with nr, aspect, grade, face_points, layers",
-                                sorted(missing))
+            raise input_error("iron_model", "level", "a dict with nr, aspect, grade, face_points, layers",
+                              sorted(missing))
     elif level in LEVELS:
         st, name = dict(LEVELS[level]), level
     else:
-        raise GeometryError("iron_model", "level", f"one of {', '.join(LEVELS)}", level)
+        raise input_error("iron_model", "level", f"one of {', '.join(LEVELS)}", level)
     axis_xy = _axis_of_cores(design)
     curves = _curves(design, curves)
     mesh, body = _core_mesh(design, st)

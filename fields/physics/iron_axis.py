@@ -22,9 +22,9 @@ from dataclasses import dataclass, replace
 import numpy as np
 from scipy.constants import mu_0
 
-from fields.errors import GeometryError
 from fields.model.design import rotation_matrix
 from fields.physics.axial import axial_disc_flux_Wb, axial_sheets, sheet_disc_flux_Wb
+from fields.physics.checks import input_error
 from fields.physics.iron import IronModel, _coaxial_sheets
 from fields.physics.iron_rings import edge_loop_inductance
 from fields.physics.quadrature import gauss_legendre
@@ -71,8 +71,8 @@ def _floater_sheets(model: IronModel):
     for m in fl.magnets:
         R = rotation_matrix(m.rotvec_rad)
         if np.hypot(*m.position_m[:2]) > 0.0 or abs(abs(R[2, 2]) - 1.0) > 1e-12:
-            raise GeometryError(f"floater magnet {m.name}", "position and axis", "on the floater's z axis, along z",
-                                (tuple(m.position_m), tuple(m.rotvec_rad)))
+            raise input_error(f"floater magnet {m.name}", "position and axis", "on the floater's z axis, along z",
+                              (tuple(m.position_m), tuple(m.rotvec_rad)))
     return axial_sheets(replace(d, cores=(), coils=(), magnets=fl.magnets), coils=False)
 
 
@@ -132,7 +132,7 @@ class AxialIronParts:
 def _coaxial_or_fail(model: IronModel):
     coil_sheets, mag_sheets = _coaxial_sheets(model.design, model.axis_xy_m, model.settings["layers"])
     if any(s is None for s in coil_sheets) or (model.design.magnets and mag_sheets is None):
-        raise GeometryError("axial_iron_forces", "coils and magnets", "coaxial with the cores", None)
+        raise input_error("axial_iron_forces", "coils and magnets", "coaxial with the cores", None)
     return coil_sheets, mag_sheets
 
 
@@ -234,10 +234,10 @@ def axial_iron_forces(model: IronModel, gaps_m, currents_A, saturable: bool = Tr
     I = np.asarray(currents_A, dtype=float)
     I = I.reshape(-1, 1) if (I.ndim == 1 and k == 1) else np.atleast_2d(I)
     if I.shape[1] != k:
-        raise GeometryError("axial_iron_forces", "currents_A", f"rows of {k} currents (one per coil)", I.shape)
+        raise input_error("axial_iron_forces", "currents_A", f"rows of {k} currents (one per coil)", I.shape)
     P = d.study.floater_origin_m(gaps)
     if (np.any(np.abs(P[:, :2] - model.axis_xy_m) > 1e-12) or np.any(np.asarray(d.study.floater_rotvec_rad) != 0.0)):
-        raise GeometryError("axial_iron_forces", "floater poses", "on the cores' axis and untilted", P[0].tolist())
+        raise input_error("axial_iron_forces", "floater poses", "on the cores' axis and untilted", P[0].tolist())
     parts = axial_iron_parts(model, P[:, 2])
     coil_sheets, _ = _coaxial_or_fail(model)
     g = gaps.size

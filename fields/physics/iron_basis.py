@@ -22,7 +22,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fields.errors import GeometryError, InputError
+from fields.errors import InputError
+from fields.physics.checks import input_error
 from fields.physics.coils import coil_field_per_ampere_T
 from fields.physics.iron import IronModel
 from fields.physics.iron_axis import floater_rhs_axis
@@ -99,22 +100,29 @@ def _poses(positions_m, rotvecs_rad):
     if Rv.shape[0] == 1 and P.shape[0] > 1:
         Rv = np.repeat(Rv, P.shape[0], axis=0)
     if P.shape != Rv.shape or P.shape[1] != 3:
-        raise GeometryError("iron_field_basis", "positions_m and rotvecs_rad", "arrays of shape (n, 3)",
-                            (P.shape, Rv.shape))
+        raise input_error("iron_field_basis", "positions_m and rotvecs_rad", "arrays of shape (n, 3)",
+                          (P.shape, Rv.shape))
     return P, Rv
+
+
+def _axial_rhs(model: IronModel, P, Rv) -> tuple[np.ndarray, np.ndarray]:
+    """Floater right-hand sides (n, 2c) filled at the on-axis poses by the exact axial route, and
+    the mask of those poses (all False when the floater's magnets are off its axis)."""
+    axial = (np.all(np.abs(P[:, :2] - model.axis_xy_m) <= 1e-12, axis=1) & np.all(Rv == 0.0, axis=1))
+    b = np.zeros((P.shape[0], 2 * model.cells))
+    if np.any(axial):
+        try:
+            b[axial] = floater_rhs_axis(model, P[axial, 2])
+        except InputError:  # magnets off the floater axis: not axisymmetric after all
+            axial[:] = False
+    return b, axial
 
 
 def floater_rhs(model: IronModel, positions_m, rotvecs_rad) -> tuple[np.ndarray, np.ndarray]:
     """Right-hand sides (n, 2c) of the floater at n poses and the mask (n,) of exact (on-axis) poses."""
     d = model.design
     P, Rv = _poses(positions_m, rotvecs_rad)
-    axial = (np.all(np.abs(P[:, :2] - model.axis_xy_m) <= 1e-12, axis=1) & np.all(Rv == 0.0, axis=1))
-    b = np.zeros((P.shape[0], 2 * model.cells))
-    if np.any(axial):
-        try:
-            b[axial] = floater_rhs_axis(model, P[axial, 2])
-        except GeometryError:  # magnets off the floater axis: not axisymmetric after all
-            axial[:] = False
+    b, axial = _axial_rhs(model, P, Rv)
     other = ~axial
     if np.any(other):
         b[other] = model.rhs_field(lambda q: floater_field_T(d, q, P[other], Rv[other]))
@@ -134,14 +142,8 @@ def _floater_rhs_harmonics(model: IronModel, H: HarmonicIron | None, P, Rv):
         b, axial = floater_rhs(model, P, Rv)
         return b, None, axial
     d = model.design
-    axial = (np.all(np.abs(P[:, :2] - model.axis_xy_m) <= 1e-12, axis=1) & np.all(Rv == 0.0, axis=1))
-    b = np.zeros((P.shape[0], 2 * model.cells))
+    b, axial = _axial_rhs(model, P, Rv)
     bh = np.zeros((P.shape[0], H.harmonics, 2, 3 * model.cells))
-    if np.any(axial):
-        try:
-            b[axial] = floater_rhs_axis(model, P[axial, 2])
-        except GeometryError:  # magnets off the floater axis: not axisymmetric after all
-            axial[:] = False
     other = ~axial
     if np.any(other):
         b[other], bh[other] = H.rhs_field(lambda q: floater_field_T(d, q, P[other], Rv[other]))
@@ -176,7 +178,7 @@ def iron_field_basis(model: IronModel, points_m, positions_m, rotvecs_rad, harmo
         pts = np.broadcast_to(pts, (P.shape[0],) + pts.shape)
     n, q = pts.shape[:2]
     if n != P.shape[0]:
-        raise GeometryError("iron_field_basis", "points_m", f"{P.shape[0]} poses like positions_m", n)
+        raise input_error("iron_field_basis", "points_m", f"{P.shape[0]} poses like positions_m", n)
     flat = pts.reshape(-1, 3)
     k = len(d.coils)
     layers = model.settings["layers"]
@@ -270,7 +272,7 @@ def iron_field_at_currents(model: IronModel, points_m, positions_m, rotvecs_rad,
     H = _harmonics_of(model, harmonics)
     I = np.asarray(currents_A, dtype=float).reshape(-1)
     if I.size != len(d.coils):
-        raise GeometryError("iron_field_at_currents", "currents_A", f"{len(d.coils)} values (one per coil)", I.size)
+        raise input_error("iron_field_at_currents", "currents_A", f"{len(d.coils)} values (one per coil)", I.size)
     pts = np.asarray(points_m, dtype=float)
     if pts.ndim == 2:
         pts = np.broadcast_to(pts, (P.shape[0],) + pts.shape)

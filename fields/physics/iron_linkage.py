@@ -20,8 +20,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fields.errors import GeometryError
 from fields.model.design import Design
+from fields.physics.checks import input_error
 from fields.physics.iron import iron_model
 
 
@@ -74,7 +74,7 @@ def iron_inductance(design: Design, positions_m, rotvecs_rad, currents_A, level:
     from fields.physics.iron_newton import incremental_response, newton_sweep
 
     if not design.cores:
-        raise GeometryError("iron_inductance", "design.cores", "at least one core", 0)
+        raise input_error("iron_inductance", "design.cores", "at least one core", 0)
     model = iron_model(design, level)
     P = np.atleast_2d(np.asarray(positions_m, dtype=float))
     Rv = np.atleast_2d(np.asarray(rotvecs_rad, dtype=float))

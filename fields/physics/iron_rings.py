@@ -36,7 +36,7 @@ import numpy as np
 from scipy import special
 from scipy.constants import mu_0
 
-from fields.errors import GeometryError
+from fields.physics.checks import input_error
 
 #: pairs of edges per vectorised block of the inductance quadrature (bounds temporary memory)
 PAIR_CHUNK = 40_000
@@ -336,7 +336,7 @@ def edge_inductance_matrix(edges: Edges) -> np.ndarray:
     """
     n = edges.start_m.shape[0]
     if np.any(edges.length_m <= 0.0):
-        raise GeometryError("edge_inductance_matrix", "edge lengths", "positive", float(edges.length_m.min()))
+        raise input_error("edge_inductance_matrix", "edge lengths", "positive", float(edges.length_m.min()))
     iu, ju = np.triu_indices(n)
     L = np.empty(iu.size)
     r_floor = SPLIT_FLOOR * float(max(edges.start_m[:, 0].max(), edges.end_m[:, 0].max()))
@@ -417,10 +417,10 @@ def ring_mesh(vertices_m, cells, body=None) -> RingMesh:
     nc = Cl.shape[0]
     body = np.zeros(nc, dtype=int) if body is None else np.asarray(body, dtype=int)
     if np.any(V[:, 0] < 0.0):
-        raise GeometryError("ring_mesh", "vertex radii", ">= 0", float(V[:, 0].min()))
+        raise input_error("ring_mesh", "vertex radii", ">= 0", float(V[:, 0].min()))
     area, cen = _cell_area_centroid(V[Cl])
     if np.any(area <= 0.0):
-        raise GeometryError("ring_mesh", "cells", "counter-clockwise polygons of positive area", float(area.min()))
+        raise input_error("ring_mesh", "cells", "counter-clockwise polygons of positive area", float(area.min()))
     keys: dict[tuple[int, int], int] = {}
     rows, cols, vals = [], [], []
     starts, ends = [], []
@@ -467,7 +467,7 @@ def graded_nodes(lo: float, hi: float, n: int, grade: float, ends: str) -> np.nd
         x = t - grade * np.sin(np.pi * t) / np.pi
         x = x / x[-1]
     else:
-        raise GeometryError("graded_nodes", "ends", "one of both, hi, lo", ends)
+        raise input_error("graded_nodes", "ends", "one of both, hi, lo", ends)
     x[0], x[-1] = 0.0, 1.0
     return lo + (hi - lo) * x
 

@@ -54,7 +54,7 @@ from scipy.linalg import expm
 
 from fields.control.multiaxis.plant import MultiaxisPlant, jsonable
 from fields.control.multiaxis.structure import DesignRefused, LoopNotClosable, StructureReport
-from fields.errors import GeometryError
+from fields.physics.checks import input_error
 
 #: samples per growth time constant of the fastest unstable mode (see the module docstring)
 SAMPLES_PER_TIME_CONSTANT = 30.0
@@ -82,8 +82,8 @@ class SampleRate:
 def choose_sample_rate(report: StructureReport, samples_per_time_constant: float = SAMPLES_PER_TIME_CONSTANT) -> SampleRate:
     """``f_s >= N p_max`` rounded up to 1, 2 or 5 x 10^n Hz (module docstring)."""
     if not report.unstable:
-        raise GeometryError("choose_sample_rate", "report", "a plant with an unstable mode (a passive design needs "
-                            "no sampling)", report.status)
+        raise input_error("choose_sample_rate", "report", "a plant with an unstable mode (a passive design needs "
+                          "no sampling)", report.status)
     m = max(report.unstable, key=lambda x: x.growth_rate_per_s)
     need = samples_per_time_constant * m.growth_rate_per_s
     e = math.floor(math.log10(need))
@@ -264,8 +264,8 @@ def design_mode_pd(plant: MultiaxisPlant, report: StructureReport, sample_rate: 
     if report.status == "passive":
         return passive_regulator(plant, report)
     if plant.drive == "voltage":
-        raise GeometryError("design_mode_pd", "plant.drive", "'current' or 'current_loop' (the mode-space PD "
-                            "commands coil currents)", plant.drive)
+        raise input_error("design_mode_pd", "plant.drive", "'current' or 'current_loop' (the mode-space PD "
+                          "commands coil currents)", plant.drive)
     sr = sample_rate or choose_sample_rate(report)
     T = sr.period_s
     pd_modes = [m for m in report.modes if m.name in report.controlled and m.kind in ("unstable", "neutral")]
@@ -339,8 +339,8 @@ def _headroom(plant: MultiaxisPlant) -> np.ndarray:
         h = plant.max_current_A - np.abs(plant.bias_currents_A)
     if np.any(h <= 0):
         bad = int(np.flatnonzero(h <= 0)[0])
-        raise GeometryError("design_lqg", f"coil {plant.coil_names[bad]}", "left with drive headroom at the "
-                            "equilibrium (bias below the limit)", float(h[bad]))
+        raise input_error("design_lqg", f"coil {plant.coil_names[bad]}", "left with drive headroom at the "
+                          "equilibrium (bias below the limit)", float(h[bad]))
     return h
 
 

@@ -21,8 +21,8 @@ import dataclasses
 import numpy as np
 
 from fields.devices.beam import beam_blocked_fraction
-from fields.errors import GeometryError
 from fields.model.design import BeamGate, Design, HallSensor
+from fields.physics.checks import input_error
 from fields.physics.field_basis import fixed_field_basis, floater_field_T
 
 
@@ -32,7 +32,7 @@ def sensor_unit(sensor) -> str:
         return "V" if sensor.sensitivity_V_per_T else "T"
     if isinstance(sensor, BeamGate):
         return "V" if sensor.output_span_V else "1"
-    raise GeometryError(f"sensor {getattr(sensor, 'name', '?')}", "type", "hall or beam", type(sensor).__name__)
+    raise input_error(f"sensor {getattr(sensor, 'name', '?')}", "type", "hall or beam", type(sensor).__name__)
 
 
 def sensor_label(sensor) -> str:
@@ -45,7 +45,7 @@ def _axis(sensor: HallSensor) -> np.ndarray:
     a = np.asarray(sensor.axis, float).reshape(3)
     n = float(np.linalg.norm(a))
     if not np.isfinite(n) or n == 0:
-        raise GeometryError(f"sensor {sensor.name}", "axis", "a nonzero vector", tuple(a))
+        raise input_error(f"sensor {sensor.name}", "axis", "a nonzero vector", tuple(a))
     return a / n
 
 
@@ -103,7 +103,7 @@ def sensor_readings(design: Design, sensor, positions_m, rotvecs_rad, currents_A
     if isinstance(sensor, BeamGate):
         f = beam_fraction_at_poses(design, sensor, P, rotvecs_rad)
         return sensor.output_span_V * (1.0 - f) if sensor.output_span_V else f
-    raise GeometryError(f"sensor {getattr(sensor, 'name', '?')}", "type", "hall or beam", type(sensor).__name__)
+    raise input_error(f"sensor {getattr(sensor, 'name', '?')}", "type", "hall or beam", type(sensor).__name__)
 
 
 def sensor_scale(sensor) -> float:

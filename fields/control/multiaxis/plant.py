@@ -57,9 +57,10 @@ from fields.control.multiaxis.outputs import (
 )
 from fields.devices.inductance import mutual_inductance_matrix
 from fields.devices.winding import resistance_and_cooling, steady_temperature_C
-from fields.errors import GeometryError, SolverError
+from fields.errors import SolverError
 from fields.input.tables import COPPER_ALPHA_20C_PER_K
 from fields.model.design import Design, HallSensor
+from fields.physics.checks import input_error
 from fields.physics.wrench import wrench_basis
 
 DRIVES = ("voltage", "current_loop", "current")
@@ -412,10 +413,10 @@ def multiaxis_plant(design: Design, equilibrium, drive: str = "voltage",
     MultiaxisPlant
     """
     if drive not in DRIVES:
-        raise GeometryError("multiaxis_plant", "drive", f"one of {', '.join(DRIVES)}", drive)
+        raise input_error("multiaxis_plant", "drive", f"one of {', '.join(DRIVES)}", drive)
     if drive == "current_loop" and not (current_loop_bandwidth_rad_per_s and current_loop_bandwidth_rad_per_s > 0):
-        raise GeometryError("multiaxis_plant", "current_loop_bandwidth_rad_per_s", "positive for a current-loop drive",
-                            current_loop_bandwidth_rad_per_s)
+        raise input_error("multiaxis_plant", "current_loop_bandwidth_rad_per_s", "positive for a current-loop drive",
+                          current_loop_bandwidth_rad_per_s)
     free = tuple(design.study.free_axes if free_axes is None else free_axes)
     idx = [AXES.index(a) for a in free]
     k = len(design.coils)
@@ -432,7 +433,7 @@ def multiaxis_plant(design: Design, equilibrium, drive: str = "voltage",
         G6, Gerr6 = _allocation_with_error(design, pos, rot)
         L = np.asarray(inductance_H, float) if inductance_H is not None else mutual_inductance_matrix(design)
         if L.shape != (k, k):
-            raise GeometryError("multiaxis_plant", "inductance_H", f"a ({k}, {k}) matrix", L.shape)
+            raise input_error("multiaxis_plant", "inductance_H", f"a ({k}, {k}) matrix", L.shape)
         Rh, Rc, Th, Tc = coil_resistances(design, I0, control_rms_current_A)
         if design.cores:
             notes.append("inductance: air-core formulas plus the cores' unsaturated share at the operating gap "

@@ -27,7 +27,7 @@ import numpy as np
 
 from fields import analysis
 from fields.control.simulate import Outcome
-from fields.errors import GeometryError, SolverError
+from fields.errors import InputError, SolverError
 from fields.studies.result_fields import internal, optional
 from fields.model.design import Design
 from fields.studies.stages.common import close_figure, file_list, slug
@@ -549,7 +549,7 @@ def run_control(design: Design, out: Path, stability=None, coil=None, switch: st
     if ax.force_per_ampere_N_per_A != 0:
         try:
             pieces = _axis_pieces(design, eq, ax, o.plant)
-        except GeometryError:
+        except InputError:
             pieces = None  # e.g. no sensor signal along the axis: the multi-axis refusal says why
     mdata = multiaxis_data(o, coil)
     files = write_multiaxis_files(design, out, o)
