@@ -123,10 +123,25 @@ def floater_rhs(model: IronModel, positions_m, rotvecs_rad) -> tuple[np.ndarray,
     d = model.design
     P, Rv = _poses(positions_m, rotvecs_rad)
     b, axial = _axial_rhs(model, P, Rv)
-    other = ~axial
-    if np.any(other):
-        b[other] = model.rhs_field(lambda q: floater_field_T(d, q, P[other], Rv[other]))
+    other = np.flatnonzero(~axial)
+    for blk in _pose_blocks(other, VOLUME_POINTS_PER_CELL * model.cells):
+        b[blk] = model.rhs_field(lambda q, blk=blk: floater_field_T(d, q, P[blk], Rv[blk]))
     return b, axial
+
+
+#: field evaluations (poses x sample points) per block of the floater's right-hand sides: bounds
+#: the temporary memory of the magnet kernels to some 100 MB whatever the number of poses
+RHS_BLOCK_POINTS = 400_000
+
+
+#: sample points per cell of IronModel.rhs_field's default volume rule (order 3 x 3, 16 angles)
+VOLUME_POINTS_PER_CELL = 144
+
+
+def _pose_blocks(idx: np.ndarray, points_per_pose: int):
+    """``idx`` split into blocks of poses whose sample points stay under RHS_BLOCK_POINTS."""
+    per = max(1, RHS_BLOCK_POINTS // max(1, int(points_per_pose)))
+    return [idx[i:i + per] for i in range(0, idx.size, per)]
 
 
 def _harmonics_of(model: IronModel, harmonics) -> HarmonicIron | None:
@@ -144,9 +159,9 @@ def _floater_rhs_harmonics(model: IronModel, H: HarmonicIron | None, P, Rv):
     d = model.design
     b, axial = _axial_rhs(model, P, Rv)
     bh = np.zeros((P.shape[0], H.harmonics, 2, 3 * model.cells))
-    other = ~axial
-    if np.any(other):
-        b[other], bh[other] = H.rhs_field(lambda q: floater_field_T(d, q, P[other], Rv[other]))
+    n_h = int(np.prod(H.sample_points()[0].shape[:-1]))
+    for blk in _pose_blocks(np.flatnonzero(~axial), n_h):
+        b[blk], bh[blk] = H.rhs_field(lambda q, blk=blk: floater_field_T(d, q, P[blk], Rv[blk]))
     return b, bh, axial
 
 
