@@ -81,6 +81,7 @@ def test_every_command_is_listed_and_python_m_works():
     assert r.returncode == 0 and "coil datasheet" in r.stdout
 
 
+@pytest.mark.slow
 def test_output_into_a_closed_pipe_ends_quietly(tmp_path):
     # `hoverfield check FILE | head`: the reader closes the pipe before the command writes; the
     # writer gets EPIPE (POSIX write(): "an attempt is made to write to a pipe ... that is not
@@ -96,6 +97,7 @@ def test_output_into_a_closed_pipe_ends_quietly(tmp_path):
     assert rc == cli.EXIT_BROKEN_PIPE == 128 + signal.SIGPIPE  # as a shell reports a SIGPIPE ending
 
 
+@pytest.mark.slow
 def test_head_of_the_check_output_has_no_traceback(tmp_path):
     # the same through a real shell pipeline into head (POSIX head reads only what it prints)
     import shlex

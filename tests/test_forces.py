@@ -412,6 +412,7 @@ def test_torque_includes_m_cross_B_once():
     np.testing.assert_allclose(wb.Tk_Nm_per_A[0, 0], T_ref, rtol=2e-4, atol=1e-12)  # field non-uniformity ~ (2 mm/0.2 m)^2
 
 
+@pytest.mark.slow
 def test_core_adds_bias_pull_and_flags_saturation():
     """Soft-iron core above the floater (cell solve). Superposition (the field of linear iron is
     linear in its sources, e.g. Jackson 3rd ed. sec. 5.12, from memory): with a practically

@@ -314,6 +314,7 @@ def test_tilted_coil_on_the_axis_uses_the_volume_rule(suspension):
     # second order in theta (a few times theta^2 / 2); a first-order error would be ~1e-3
     np.testing.assert_allclose(tilted.b_coils, flat.b_coils, rtol=0, atol=4.0 * theta**2 * scale)
 
+@pytest.mark.slow
 def test_field_basis_charge_force_matches_disc_flux_route(suspension):
     """Two routes to the iron's pull on the on-axis floater: (a) the face sheets' B field
     (magpylib cylinder and loop kernels) summed over the floater's cap charges
@@ -404,6 +405,7 @@ def test_suspension_hover_and_force_per_ampere_against_finite_elements(suspensio
     np.testing.assert_allclose(summary(rich), summary(Fr), rtol=FE_RTOL_RATED)
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("name", ["suspension", "short_wide_core"])
 def test_curve_error_estimate_bounds_the_error_against_finite_elements(name):
     """The curve family's error estimate (|fine - coarse| of the cell solve plus interpolation

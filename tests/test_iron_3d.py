@@ -122,6 +122,7 @@ def test_one_cell_transverse_response_is_bounded_by_the_demagnetizing_model():
 # --------------------------------------------------------------------------- sphere
 
 
+@pytest.mark.slow
 def test_permeable_sphere_in_transverse_field():
     """J = 3 chi / (chi + 3) B0 inside a permeable sphere, for a field perpendicular to the ring
     cells' axis (Jackson, Classical Electrodynamics, 3rd ed., sec. 5.11: M = 3 (mu - 1)/(mu + 2) H0;
@@ -327,6 +328,7 @@ def test_wide_disc_core_approaches_the_image_method():
 # --------------------------------------------------------------------------- saturation and errors
 
 
+@pytest.mark.slow
 def test_saturable_field_reduces_to_linear_and_reports_harmonics(suspension, susp_model):
     """With a curve that is linear to 1e-12 (Frohlich-Kennelly with a huge Js: J = chi h / (1 + chi
     |h| / Js); Jiles, Introduction to Magnetism and Magnetic Materials, 1991, from memory) the Newton

@@ -353,6 +353,7 @@ def test_beam_placement_vs_rectangle_geometry():
     assert t.best_index in (0, 2) and abs(t.gain_per_mm[0]) == pytest.approx(0.02 / 0.03 / 4, rel=1e-6)
 
 
+@pytest.mark.slow
 def test_sensors_stage_writes_sideways_sensitivity_and_placement(tmp_path):
     import csv
     import json
