@@ -113,12 +113,13 @@ def test_csv_and_c_header_round_trip(report_dir):
     p = formats.c_ident(load(SUSPENSION).name) + "_"  # every C name carries the design's prefix
     for hname, single in (("tables.h", False), ("tables_float.h", True)):
         arrays = formats.parse_c_header((exp / hname).read_text())
-        for csv_name, h_name, axis1, value in (("table_Fz.csv", "FZ_N", "current_A", "Fz_N"),
-                                               ("table_kz.csv", "KZ_N_PER_M", "current_A", "kz_N_per_m"),
-                                               ("table_ki.csv", "KI_N_PER_A", "current_A", "ki_N_per_A"),
-                                               ("table_I_of_F.csv", "I_OF_F_A", "force_N", "I_A")):
+        for csv_name, h_name, axis1, value, extra in (
+                ("table_Fz.csv", "FZ_N", "current_A", "Fz_N", ["error_Fz_N"]),
+                ("table_kz.csv", "KZ_N_PER_M", "current_A", "kz_N_per_m", ["error_kz_N_per_m"]),
+                ("table_ki.csv", "KI_N_PER_A", "current_A", "ki_N_per_A", []),
+                ("table_I_of_F.csv", "I_OF_F_A", "force_N", "I_A", [])):
             rows = list(csv.DictReader((exp / csv_name).read_text().splitlines()))  # long format, header first
-            assert list(rows[0]) == ["gap_m", axis1, value]
+            assert list(rows[0]) == ["gap_m", axis1, value, *extra]  # the error bars stay out of the C header
             g = np.array(sorted({float(r["gap_m"]) for r in rows}))
             x1 = np.array(sorted({float(r[axis1]) for r in rows}))
             table = np.array([float(r[value]) if r[value] else math.nan for r in rows]).reshape(len(g), len(x1))
@@ -140,11 +141,11 @@ def test_force_table_matches_the_curves(report_dir):
     cols, data = read_csv(report_dir / "exports" / "table_Fz.csv")
     ccols, cdata = read_csv(report_dir / "curves.csv")
     # F(g, I) at I = 0 equals F0 in curves.csv at the same gaps (independent export paths)
-    assert cols == ["gap_m", "current_A", "Fz_N"]
+    assert cols == ["gap_m", "current_A", "Fz_N", "error_Fz_N"]
     at0 = data[data[:, 1] == 0.0]
     assert len(at0)
     F0 = dict(zip(cdata[:, 0], cdata[:, ccols.index("F0_N")]))
-    for g, _, F in at0:
+    for g, _, F, _ in at0:
         assert F == pytest.approx(F0[g], rel=1e-8)
 
 

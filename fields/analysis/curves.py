@@ -16,9 +16,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fields.analysis.poses import drive_pattern, pose_at_gap
-from fields.analysis.stencil import STEP_LENGTH_M, central_difference
+from fields.analysis.poses import drive_pattern, floater_size_m, pose_at_gap
+from fields.analysis.stencil import STEP_LENGTH_M, central_difference, richardson
 from fields.model.design import Design
+from fields.physics.levels import coarser_level
 from fields.physics.wrench import wrench, wrench_basis
 
 
@@ -53,6 +54,11 @@ class AxialCurves:
     saturation_onset_A : (g,) smallest |current| along the drive pattern (positive or negative)
         at which ``|nonlinear_N|`` exceeds ``AFFINE_RTOL`` of the force scale at that gap,
         interpolated between the family's currents; nan where the family stays affine
+    error_kz_N_per_m : (g, c) error bar of ``kz_N_per_m``. Iron-free: the Richardson share
+        ``|R - D_h|`` (steps h and 2h) plus the quadrature share ``|D_h(level) - D_h(coarser)|``
+        (the rule of :func:`fields.analysis.stiffness.stiffness_matrix`). With cores: the force error
+        estimate ``error_Fup_N`` over the length ``L = min(gap, floater size)`` (the quadrature error
+        is taken to vary on that scale; the finite-difference share, far smaller, is not added)
     core_model : str, ``"none"``, ``"cells"`` (the cell solve) or ``"uniform"``
     ki_at_hover_N_per_A : (g,) dF_up/dI at the hover current (with cores: the saturable solve's
         incremental value, which differs from ``ki_N_per_A``, the linear iron's force per ampere;
@@ -90,10 +96,22 @@ class AxialCurves:
     nonlinear_N: np.ndarray | None = None
     saturation_onset_A: np.ndarray | None = None
     core_model: str = "none"
+    error_kz_N_per_m: np.ndarray | None = None
 
     def kz_at_hover(self) -> np.ndarray:
         """k_z (N/m) at the hover current of each gap (affine model: kz0 - I dki/dh)."""
         return self.kz0_N_per_m - self.hover_current_A * self.dki_dh_N_per_A_m
+
+    def kz_error_at_hover(self) -> np.ndarray:
+        """Error bar (g,) of :meth:`kz_at_hover`: ``error_kz_N_per_m`` interpolated linearly in
+        current between the family's currents (held at the end values beyond them; an upper bound
+        inside the family's range, where the iron-free bar is convex in current); nan where there is
+        no bar or no hover current."""
+        if self.error_kz_N_per_m is None or not self.currents_A.size:
+            return np.full(len(self.gaps_m), np.nan)
+        o = np.argsort(self.currents_A)
+        return np.array([np.interp(i, self.currents_A[o], e[o]) if np.isfinite(i) else np.nan
+                         for i, e in zip(self.hover_current_A, self.error_kz_N_per_m)])
 
 
 def family_currents(design: Design, extra=()) -> np.ndarray:
@@ -131,16 +149,25 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
         return _requested(_iron_curves(design, gaps, np.union1d(cur, family_currents(design)), d, pos, rot), cur)
     h = STEP_LENGTH_M
     shift = up[None, :] * h
-    P = np.concatenate([pos, pos + shift, pos - shift])
-    Rv = np.concatenate([rot, rot, rot])
-    b = wrench_basis(design, P, Rv, near_field=near_field, core_model=core_model)
     n = len(gaps)
+    if design.cores:  # one level on the stencil g, g + h, g - h; the engine's own force estimate
+        P = np.concatenate([pos, pos + shift, pos - shift])
+        b = wrench_basis(design, P, np.concatenate([rot] * 3), near_field=near_field, core_model=core_model)
+        error_F = np.asarray(b.error_F_N[:n])
+    else:  # g, g +- h, g +- 2h at the level and the next coarser (no extra poses for the estimate)
+        P = np.concatenate([pos, pos + shift, pos - shift, pos + 2 * shift, pos - 2 * shift])
+        b, error_F, lo = _two_levels(design, P, np.concatenate([rot] * 5), near_field, core_model, n)
     F0 = b.F0_N @ up
     fk = (b.Fk_N_per_A @ up) @ d if len(design.coils) else np.zeros_like(F0)
-    F0c, F0p, F0m = F0[:n], F0[n:2 * n], F0[2 * n:]
-    fc, fp, fm = fk[:n], fk[n:2 * n], fk[2 * n:]
+    F0c, F0p, F0m = F0[:n], F0[n:2 * n], F0[2 * n:3 * n]
+    fc, fp, fm = fk[:n], fk[n:2 * n], fk[2 * n:3 * n]
     kz0 = -central_difference(F0p, F0m, h)
     dki = central_difference(fp, fm, h)
+    if design.cores:
+        L = np.minimum(gaps, floater_size_m(design))
+        err_kz = np.repeat((error_F / L)[:, None], len(cur), axis=1)
+    else:
+        err_kz = _kz_bar(design, b, lo, up, d, h, n, cur)
     Fup = F0c[:, None] + fc[:, None] * cur[None, :]
     kz = kz0[:, None] - dki[:, None] * cur[None, :]
     W = design.weight_N
@@ -157,9 +184,9 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
     mmax = np.maximum(fmax, 0.0) / g
     mmin = np.maximum(fmin, 0.0) / g
     mag = design.floater.magnet_mass_kg
-    contact = np.asarray(b.contact[:n]) | np.asarray(b.contact[n:2 * n]) | np.asarray(b.contact[2 * n:])
+    contact = np.asarray(b.contact).reshape(-1, n).any(axis=0)
     sat3 = np.asarray(b.core_saturated)
-    saturated = sat3[:n] | sat3[n:2 * n] | sat3[2 * n:]
+    saturated = sat3.reshape(-1, n).any(axis=0)
     linear = not bool(np.any(sat3))
     if not linear:
         Fup, kz = _saturated_family(design, pos, rot, cur, d, h, up, saturated, Fup, kz)
@@ -168,11 +195,49 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
         kz_N_per_m=kz, kz0_N_per_m=kz0, dki_dh_N_per_A_m=dki, hover_current_A=ih,
         hover_within_limit=within & ~contact, max_total_mass_kg=mmax, min_total_mass_kg=mmin,
         max_payload_kg=np.maximum(mmax - mag, 0.0), min_payload_kg=np.maximum(mmin - mag, 0.0),
-        contact=contact, saturated=saturated, error_F_N=np.asarray(b.error_F_N[:n]), weight_N=W,
+        contact=contact, saturated=saturated, error_F_N=error_F, weight_N=W,
         max_current_A=ilim, pattern=d, linear_in_current=linear,
-        error_Fup_N=np.repeat(np.asarray(b.error_F_N[:n])[:, None], len(cur), axis=1), ki_at_hover_N_per_A=fc,
+        error_Fup_N=np.repeat(error_F[:, None], len(cur), axis=1), ki_at_hover_N_per_A=fc, error_kz_N_per_m=err_kz,
         nonlinear_N=np.zeros_like(Fup) if linear else Fup - (F0c[:, None] + fc[:, None] * cur[None, :]),
         saturation_onset_A=np.full(n, np.nan), core_model=core_model if design.cores else "none")
+
+
+def _two_levels(design: Design, P, Rv, near_field: bool, core_model: str, n: int):
+    """The basis at the curves' rule level (all poses) and at the next coarser one (the first 3 n:
+    g, g + h, g - h), both iron-free, and the force error estimate of the first n poses as
+    :func:`fields.physics.wrench.wrench_basis` reports it (the norm of the two levels' difference
+    at the coils' nominal currents)."""
+    kw = dict(estimate_error=False, near_field=near_field, core_model=core_model)
+    b = wrench_basis(design, P, Rv, order=CURVES_ORDER, **kw)
+    lo = wrench_basis(design, P[:3 * n], Rv[:3 * n], order=coarser_level(CURVES_ORDER, "axial_curves"), **kw)
+    Inom = np.array([float(c.nominal_current_A) for c in design.coils])
+    dF = (b.F0_N[:n] - lo.F0_N[:n]) + np.einsum("k,nki->ni", Inom, b.Fk_N_per_A[:n] - lo.Fk_N_per_A[:n])
+    return b, np.linalg.norm(dF, axis=1), lo
+
+
+def _kz_bar(design: Design, b, lo, up, d, h, n, cur) -> np.ndarray:
+    """Error bar (g, c) of k_z = -(F(g + h) - F(g - h)) / (2 h) at each current: the Richardson
+    share |R - D_h| (steps h and 2h) plus the quadrature share |D_h(level) - D_h(coarser level)|."""
+    def kz_parts(basis, rows):
+        F0 = basis.F0_N[rows] @ up
+        fk = (basis.Fk_N_per_A[rows] @ up) @ d if len(design.coils) else np.zeros_like(F0)
+        return F0, fk
+
+    def dh(basis, s):  # (g, c) -dF_up/dh with step s h
+        a, b_ = (1, 2) if s == 1 else (3, 4)
+        F0p, fp = kz_parts(basis, slice(a * n, (a + 1) * n))
+        F0m, fm = kz_parts(basis, slice(b_ * n, (b_ + 1) * n))
+        Fp = F0p[:, None] + fp[:, None] * cur[None, :]
+        Fm = F0m[:, None] + fm[:, None] * cur[None, :]
+        return -central_difference(Fp, Fm, s * h)
+
+    D1 = dh(b, 1)
+    _, rich = richardson(D1, dh(b, 2))
+    return rich + np.abs(D1 - dh(lo, 1))
+
+
+#: rule level of the iron-free curves (the engine's default); the k_z bar uses the next coarser one
+CURVES_ORDER = "standard"
 
 
 def _saturated_family(design, pos, rot, cur, d, h, up, sat, Fup, kz):
@@ -200,7 +265,8 @@ def _requested(c: AxialCurves, cur) -> AxialCurves:
 
     idx = np.array([int(np.argmin(np.abs(c.currents_A - x))) for x in cur], dtype=int)
     return replace(c, currents_A=c.currents_A[idx], Fup_N=c.Fup_N[:, idx], kz_N_per_m=c.kz_N_per_m[:, idx],
-                   error_Fup_N=c.error_Fup_N[:, idx], nonlinear_N=c.nonlinear_N[:, idx])
+                   error_Fup_N=c.error_Fup_N[:, idx], nonlinear_N=c.nonlinear_N[:, idx],
+                   error_kz_N_per_m=c.error_kz_N_per_m[:, idx])
 
 
 def _iron_axis_family_applies(design: Design, pos, rot) -> bool:
@@ -277,7 +343,8 @@ def _iron_curves(design: Design, gaps, cur, d, pos, rot) -> AxialCurves:
         max_payload_kg=np.maximum(mmax - mag, 0.0), min_payload_kg=np.maximum(mmin - mag, 0.0),
         contact=contact, saturated=np.any(sat, axis=1), error_F_N=np.max(err, axis=1) if cur.size else np.zeros(n),
         weight_N=W, max_current_A=ilim, pattern=d, linear_in_current=not bool(np.any(bent[ok])),
-        error_Fup_N=err, nonlinear_N=nonlin, saturation_onset_A=onset, core_model="cells")
+        error_Fup_N=err, nonlinear_N=nonlin, saturation_onset_A=onset, core_model="cells",
+        error_kz_N_per_m=err / np.minimum(gaps, floater_size_m(design))[:, None])
 
 
 def _exact_hover(design, z, ok, d, target_N, ih, ki_h, kz_h, uz):

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fields.analysis.curves import axial_curves
-from fields.analysis.poses import displace, drive_pattern, pose_at_gap
+from fields.analysis.poses import displace, drive_pattern, floater_size_m, pose_at_gap
 from fields.analysis.stencil import (
     RICHARDSON_MULTIPLES,
     STEP_ANGLE_RAD,
@@ -24,6 +24,7 @@ from fields.analysis.stencil import (
     stencil_derivatives,
 )
 from fields.model.design import Design
+from fields.physics.levels import coarser_level
 from fields.physics.wrench import wrench_basis
 
 
@@ -31,8 +32,10 @@ from fields.physics.wrench import wrench_basis
 class Stiffness:
     """6x6 stiffness K = -d(F, T)/d(x, y, z, rx, ry, rz) about the centre of mass.
 
-    ``K`` in N/m (translation rows/cols), N/rad, N m/m and N m/rad; ``error`` the Richardson error
-    bar per entry (|R - D_h|, R the extrapolated value); ``force_N``/``torque_Nm`` at the pose.
+    ``K`` in N/m (translation rows/cols), N/rad, N m/m and N m/rad; ``error`` the error bar per
+    entry, ``error_richardson + error_quadrature``: the finite-difference share ``|R - D_h|`` (R the
+    extrapolated value) plus the quadrature share (see :func:`stiffness_matrix`);
+    ``force_N``/``torque_Nm`` at the pose.
     """
 
     K: np.ndarray
@@ -44,6 +47,8 @@ class Stiffness:
     currents_A: np.ndarray
     step_length_m: float
     step_angle_rad: float
+    error_richardson: np.ndarray | None = None
+    error_quadrature: np.ndarray | None = None
 
     @property
     def translational(self) -> np.ndarray:
@@ -63,22 +68,39 @@ def stiffness_stencil(design: Design, position_m, rotvec_rad, step_length_m: flo
 
     Returns
     -------
-    positions_m (25, 3), rotvecs_rad (25, 3), finish : callable(basis, currents_A) -> Stiffness
+    positions_m (25, 3), rotvecs_rad (25, 3), finish : callable(basis, currents_A, quadrature=None) -> Stiffness
+        ``quadrature`` (6, 6), optional: the quadrature share of the error bar, added to the
+        Richardson share (zeros without it); or a second basis on the same poses at a coarser rule
+        level, whose extrapolated matrix gives the share as ``|K - K_coarser|``.
     """
     steps = pose_steps(step_length_m, step_angle_rad)
     dq = central_offsets(steps, multiples=RICHARDSON_MULTIPLES, centre=True)
     P, Rv = displace(design, position_m, rotvec_rad, dq)
 
-    def finish(b, currents_A) -> Stiffness:
-        I = np.asarray(currents_A, float)
+    def wrench_at(b, I):
         F = b.force(I) if len(I) else b.F0_N
         T = b.torque(I) if len(I) else b.T0_Nm
+        return F, T
+
+    def extrapolated(F, T):
         W = np.concatenate([F, T], axis=1)  # (25, 6)
         D = stencil_derivatives(W, steps, multiples=RICHARDSON_MULTIPLES)  # (2, 6 rows, 6 axes)
-        R, err = richardson(-D[0], -D[1])
-        return Stiffness(K=R, error=err, force_N=F[-1], torque_Nm=T[-1],
+        return richardson(-D[0], -D[1])
+
+    def finish(b, currents_A, quadrature=None) -> Stiffness:
+        I = np.asarray(currents_A, float)
+        F, T = wrench_at(b, I)
+        R, err = extrapolated(F, T)
+        if quadrature is None:
+            quad = np.zeros_like(R)
+        elif hasattr(quadrature, "F0_N"):  # a basis at the next coarser rule level
+            quad = np.abs(R - extrapolated(*wrench_at(quadrature, I))[0])
+        else:
+            quad = np.asarray(quadrature, float)
+        return Stiffness(K=R, error=err + quad, force_N=F[-1], torque_Nm=T[-1],
                          position_m=np.asarray(position_m, float), rotvec_rad=np.asarray(rotvec_rad, float),
-                         currents_A=I, step_length_m=step_length_m, step_angle_rad=step_angle_rad)
+                         currents_A=I, step_length_m=step_length_m, step_angle_rad=step_angle_rad,
+                         error_richardson=err, error_quadrature=quad)
 
     return P, Rv, finish
 
@@ -86,20 +108,57 @@ def stiffness_stencil(design: Design, position_m, rotvec_rad, step_length_m: flo
 def stiffness_matrix(design: Design, position_m, rotvec_rad, currents_A=None,
                      step_length_m: float = STEP_LENGTH_M, step_angle_rad: float = STEP_ANGLE_RAD) -> Stiffness:
     """The 6x6 stiffness at one pose and coil currents, by central differences of the exact
-    force with Richardson extrapolation (steps h and 2h; the error bar is |R - D_h|).
+    force with Richardson extrapolation (steps h and 2h).
 
     Step rule: h = 1e-6 m for translations and 1e-4 rad for rotations by default (balances the
     O(h^2) truncation of the central difference against rounding of order eps |F| / h).
     All 25 poses go through one batched force evaluation.
+
+    Error bar (``Stiffness.error``) = finite-difference share + quadrature share:
+
+    - finite difference: the Richardson bar ``|R - D_h|`` (:func:`fields.analysis.stencil.richardson`);
+    - quadrature, iron-free: the same stencil evaluated again with the next coarser rule level
+      (:data:`STIFFNESS_ORDER` and :func:`fields.physics.levels.coarser_level`), share
+      ``|K_level - K_coarser|`` per entry (the two-level rule of the force engine, applied to K);
+    - quadrature, with cores (the cell solve, at these currents through the saturable
+      :func:`fields.physics.wrench.wrench` when there are coils): the engine's two-level force and
+      torque estimates ``e_F``, ``e_T`` at the centre pose only (the stencil itself is solved at
+      one level, so the iron cost grows by two poses, not twofold), turned into derivative bars
+      over the length ``L = min(clearance at the pose, floater size)``
+      (:func:`fields.analysis.poses.floater_size_m`): ``e/L`` per metre and ``e a/L`` per radian
+      (``a`` the floater size, the lever of a rotation), force rows with ``e_F``, torque rows with
+      ``e_T``. This assumes the quadrature error varies on the scale of the gap or the floater.
     """
     I = np.zeros(len(design.coils)) if currents_A is None else np.asarray(currents_A, float)
     P, Rv, finish = stiffness_stencil(design, position_m, rotvec_rad, step_length_m, step_angle_rad)
-    if design.cores and len(I):  # the iron's B-H curve: forces at these currents, not the linear basis
-        from fields.physics.wrench import wrench
+    if design.cores:
+        if len(I):  # the iron's B-H curve: forces at these currents, not the linear basis
+            from fields.physics.wrench import wrench
 
-        return finish(_AtCurrents(wrench(design, P, Rv, I, estimate_error=False)), I)
-    # the error bar is the finite-difference one (Richardson); no second quadrature level needed
-    return finish(wrench_basis(design, P, Rv, estimate_error=False), I)
+            b = _AtCurrents(wrench(design, P, Rv, I, order=STIFFNESS_ORDER, estimate_error=False))
+            c = wrench(design, P[-1:], Rv[-1:], I, order=STIFFNESS_ORDER, estimate_error=True)
+        else:
+            b = wrench_basis(design, P, Rv, order=STIFFNESS_ORDER, estimate_error=False)
+            c = wrench_basis(design, P[-1:], Rv[-1:], order=STIFFNESS_ORDER, estimate_error=True)
+        return finish(b, I, _core_quadrature_bar(design, c))
+    fine = wrench_basis(design, P, Rv, order=STIFFNESS_ORDER, estimate_error=False)
+    coarse = wrench_basis(design, P, Rv, order=coarser_level(STIFFNESS_ORDER, "stiffness_matrix"),
+                          estimate_error=False)
+    return finish(fine, I, coarse)
+
+
+#: rule level of the stiffness matrix (the engine's default); its quadrature bar uses the next coarser
+STIFFNESS_ORDER = "standard"
+
+
+def _core_quadrature_bar(design: Design, w) -> np.ndarray:
+    """Quadrature share (6, 6) of the stiffness bar with cores, from the centre pose's force and
+    torque error estimates over L = min(clearance, floater size) (see :func:`stiffness_matrix`)."""
+    a = floater_size_m(design)
+    L = min(float(w.clearance_m[0]), a) if np.isfinite(w.clearance_m[0]) and w.clearance_m[0] > 0 else a
+    eF, eT = float(w.error_F_N[0]), float(w.error_T_Nm[0])
+    per = np.array([1.0 / L] * 3 + [a / L] * 3)  # per metre, per radian
+    return np.outer([eF] * 3 + [eT] * 3, per)
 
 
 class _AtCurrents:

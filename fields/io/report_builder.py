@@ -133,8 +133,8 @@ def _stability(stab: dict, out: Path) -> list[str]:
     E = stab["stiffness_error"]
     krows = [[esc(a)] + [_stiffness_cell(K, E, i, j) for j in range(6)] for i, a in enumerate(axes)]
     S.append("<p>Stiffness matrix K = -d(F, T)/d(x, y, z, rx, ry, rz) about the centre of mass "
-             "(N/m, N/rad, N m/m, N m/rad by block; every error bar carries its unit), with the Richardson error bar "
-             "of each entry. "
+             "(N/m, N/rad, N m/m, N m/rad by block; every error bar carries its unit), with the error bar "
+             "of each entry (finite-difference plus quadrature share). "
              f"{esc(stab['step_rule'])}.</p>" + table(["row"] + axes, krows))
     S.append(f"<p>Earnshaw check: trace of the translational block "
              f"{num(stab['earnshaw_trace_N_per_m'], 'stability.json', 'earnshaw_trace_N_per_m', 'N/m')} "
@@ -271,7 +271,7 @@ def _accuracy(J: dict) -> list[str]:
         E = stab["stiffness_error"]
         i, j = max(((a, b) for a in range(6) for b in range(6)), key=lambda ab: E[ab[0]][ab[1]])
         axes = ("x", "y", "z", "rx", "ry", "rz")
-        acc.append([f"stiffness error bar, largest entry (Richardson): K[{axes[i]}][{axes[j]}]",
+        acc.append([f"stiffness error bar, largest entry (Richardson + quadrature): K[{axes[i]}][{axes[j]}]",
                     num(E[i][j], "stability.json", f"stiffness_error[{i}][{j}]", stiffness_unit(i, j), digits=2)])
     if coil:
         for i, c in enumerate(coil["coils"]):

@@ -81,7 +81,9 @@ def earnshaw_note(has_iron: bool) -> str:
 def step_rule_text(step_length_m: float, step_angle_rad: float) -> str:
     """How the stiffness matrix was differentiated."""
     return (f"central differences, steps {step_length_m:g} m and {step_angle_rad:g} rad, "
-            "Richardson extrapolation with h and 2h; error bar |R - D_h|")
+            "Richardson extrapolation with h and 2h; error bar |R - D_h| plus the quadrature share "
+            "(the difference from the next coarser rule level; with cores the force error estimate over "
+            "min(gap, floater size))")
 
 
 def equilibrium_label(stable: bool) -> str:

@@ -71,16 +71,20 @@ def _write_tables(design: Design, c: analysis.AxialCurves, out: Path) -> None:
     cols = ["gap_m", "height_m"] + [f"Fup_N_at_{I:g}A" for I in c.currents_A] + [
         "F0_N", "ki_N_per_A", "kz0_N_per_m", "kz_at_hover_N_per_m", "hover_current_A", "hover_within_limit",
         "max_total_mass_kg", "min_total_mass_kg", "max_payload_kg", "min_payload_kg", "contact", "error_F_N",
-        "saturation_onset_A"]
+        "saturation_onset_A", "error_kz_at_hover_N_per_m"]
     kzh = c.kz_at_hover()
+    ekzh = c.kz_error_at_hover()
     onset = c.saturation_onset_A if c.saturation_onset_A is not None else np.full(len(c.gaps_m), np.nan)
     rows = [[c.gaps_m[i], c.heights_m[i], *c.Fup_N[i], c.F0_N[i], c.ki_N_per_A[i], c.kz0_N_per_m[i], kzh[i],
              c.hover_current_A[i], bool(c.hover_within_limit[i]), c.max_total_mass_kg[i], c.min_total_mass_kg[i],
              c.max_payload_kg[i], c.min_payload_kg[i], bool(c.contact[i]), c.error_F_N[i],
-             onset[i]] for i in range(len(c.gaps_m))]
+             onset[i], ekzh[i]] for i in range(len(c.gaps_m))]
     write_csv(out / "curves.csv", cols, rows, header_lines(
         design.name, "axial force versus gap; F_up is the magnetic force along up (N); "
-                     "k = -dF/dh (positive restores); drive pattern " + str(c.pattern.tolist())
+                     "k = -dF/dh (positive restores); error_kz_at_hover_N_per_m is the bar of kz_at_hover_N_per_m "
+                     + ("(force error over min(gap, floater size))" if design.cores else
+                        "(Richardson share of steps h and 2h plus the difference from the next coarser rule level)")
+                     + "; drive pattern " + str(c.pattern.tolist())
                      + ("; iron core by the ring-cell solve (B-H curve): error_F_N is |fine - coarse| plus interpolation "
                         "tails, the largest over the family's currents; saturation_onset_A is the |current| from which the "
                         "force departs from affine by more than 0.1 %" if c.core_model == "cells" else "")))

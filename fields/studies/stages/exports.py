@@ -35,7 +35,9 @@ def _tables(design: Design, c, exp: Path) -> list[str]:
     W = design.weight_N
     Fgrid = np.linspace(0.0, 3.0 * W, 13)
     if getattr(c, "core_model", "none") == "cells":
-        Fz, kz, ki, Iinv = _saturable_tables(design, g, I, Fgrid, c.pattern)
+        Fz, kz, ki, Iinv, eFz, ekz = _saturable_tables(design, g, I, Fgrid, c.pattern)
+        fz_note = "error_Fz_N: the cell solve's |fine - coarse| plus interpolation tails at each gap and current"
+        kz_note = "error_kz_N_per_m: error_Fz_N over min(gap, floater size)"
         hdr = header_lines(design.name, "soft-iron core solved by ring cells with its B-H curve: F_up(g, I) is not affine in "
                                         "current; ki = dF_up/dI (spline in current); k = -dF_up/dh; drive pattern "
                                         + str(c.pattern.tolist()))
@@ -43,6 +45,15 @@ def _tables(design: Design, c, exp: Path) -> list[str]:
         Fz = F0[:, None] + f[:, None] * I[None, :]
         kz = kz0[:, None] - dki[:, None] * I[None, :]
         ki = np.repeat(f[:, None], len(I), axis=1)
+        # the basis force error at each gap (two-level estimate at the nominal current), for every current
+        eFz = np.repeat(np.asarray(c.error_F_N)[ok][:, None], len(I), axis=1)
+        ekz = _affine_kz_error(c, ok, I)
+        fz_note = ("error_Fz_N: the basis force error estimate at each gap (difference from the next coarser rule "
+                   "level, at the nominal current), the same for every current")
+        kz_note = ("error_kz_N_per_m: the curves' k_z bar ("
+                   + ("error_Fz_N over min(gap, floater size)" if design.cores else
+                      "Richardson share of steps h and 2h plus the difference from the next coarser rule level")
+                   + "), linear in current between the curves' currents")
         with np.errstate(divide="ignore", invalid="ignore"):
             Iinv = (Fgrid[None, :] - F0[:, None]) / f[:, None]
         hdr = header_lines(design.name, "affine in current (iron-free): F_up(g, I) = F0(g) + I ki(g); "
@@ -50,8 +61,10 @@ def _tables(design: Design, c, exp: Path) -> list[str]:
     reachable = np.isfinite(Iinv) & (np.abs(Iinv) <= imax)
     by_current = {"gap_m": g, "current_A": I}
     for name, values, what, axes in (
-            ("table_Fz.csv", {"Fz_N": Fz}, "upward magnetic force Fz_N at each gap and current", by_current),
-            ("table_kz.csv", {"kz_N_per_m": kz}, "axial stiffness kz_N_per_m at each gap and current", by_current),
+            ("table_Fz.csv", {"Fz_N": Fz, "error_Fz_N": eFz},
+             "upward magnetic force Fz_N at each gap and current; " + fz_note, by_current),
+            ("table_kz.csv", {"kz_N_per_m": kz, "error_kz_N_per_m": ekz},
+             "axial stiffness kz_N_per_m at each gap and current; " + kz_note, by_current),
             ("table_ki.csv", {"ki_N_per_A": ki}, "force per ampere ki_N_per_A at each gap and current", by_current),
             ("table_I_of_F.csv", {"I_A": np.where(reachable, Iinv, np.nan)},
              "current I_A that gives the force force_N at each gap; empty where it would exceed +-max current",
@@ -74,6 +87,8 @@ def _saturable_tables(design: Design, g, I, Fgrid, pattern):
 
     fam = analysis.axial_curves(design, gaps_m=g, currents_A=I, pattern=pattern)
     Fz, kz = fam.Fup_N, fam.kz_N_per_m
+    eFz = fam.error_Fup_N if fam.error_Fup_N is not None else np.repeat(fam.error_F_N[:, None], len(I), axis=1)
+    ekz = fam.error_kz_N_per_m if fam.error_kz_N_per_m is not None else np.full_like(Fz, np.nan)
     ki = np.empty_like(Fz)
     Iinv = np.full((len(g), len(Fgrid)), np.nan)
     for i in range(len(g)):
@@ -83,7 +98,16 @@ def _saturable_tables(design: Design, g, I, Fgrid, pattern):
             r = [x for x in s.solve(F, extrapolate=False) if I[0] <= x <= I[-1]]
             if r:
                 Iinv[i, j] = min(r, key=abs)
-    return Fz, kz, ki, Iinv
+    return Fz, kz, ki, Iinv, eFz, ekz
+
+
+def _affine_kz_error(c, ok, I) -> np.ndarray:
+    """The curves' k_z bar (g, c) at the table's currents: linear in current between the curves'
+    currents, held at the end values beyond them (nan without a bar)."""
+    if c.error_kz_N_per_m is None or not len(c.currents_A):
+        return np.full((int(np.sum(ok)), len(I)), np.nan)
+    o = np.argsort(c.currents_A)
+    return np.array([np.interp(I, c.currents_A[o], e[o]) for e in c.error_kz_N_per_m[ok]])
 
 
 def _spice(design: Design, control, exp: Path) -> list[str]:

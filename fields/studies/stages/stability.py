@@ -95,7 +95,8 @@ def _write_stiffness(design: Design, S: analysis.Stiffness, out: Path) -> None:
     rows = [[analysis.AXES[i], *S.K[i], *S.error[i]] for i in range(6)]
     write_csv(out / "stiffness.csv", ["row"] + [f"K_{a}" for a in analysis.AXES] + [f"err_{a}" for a in analysis.AXES], rows,
               header_lines(design.name, "6x6 stiffness K = -d(F, T)/d(x, y, z, rx, ry, rz) about the centre of mass; "
-                                        "units N/m, N/rad, N m/m, N m/rad; err = Richardson error bar"))
+                                        "units N/m, N/rad, N m/m, N m/rad; err = error bar (Richardson share plus "
+                                        "quadrature share, see step_rule in stability.json)"))
 
 
 def _allocation(design: Design, eq: analysis.Equilibrium, out: Path) -> AllocationSummary:
