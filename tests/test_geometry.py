@@ -257,3 +257,13 @@ def test_gap_is_the_clearance_at_a_tilted_pose_under_a_coil_bore():
     # now sits closer than g to the plane of the coil's underside, because it is under the bore
     top = 0.005 * math.sin(math.radians(20)) + 0.0025 * math.cos(math.radians(20))
     assert 0.020 - (d.study.floater_origin_m(g)[0][2] + top) < g - 1e-5
+
+
+def test_core_of_relative_permeability_one_is_refused_with_its_key_path():
+    # mu_r = 1 is free space: a "core" of it magnetizes nothing, and the iron solve needs
+    # chi = mu_r - 1 > 0 (definition of susceptibility; common practice, no source)
+    text = MINIMAL.replace("[floater]", '[[cores]]\nname = "air core"\nshape = "cylinder"\ndiameter = "8 mm"\n'
+                           'height = "10 mm"\nposition = ["0 mm", "0 mm", "30 mm"]\nrelative_permeability = 1\n'
+                           'saturation_polarization = "1.6 T"\n\n[floater]', 1)
+    with pytest.raises(GeometryError, match=r"bad.toml: cores\[0\]\.relative_permeability: the value must be greater than 1"):
+        loads(text, "bad.toml")

@@ -281,6 +281,8 @@ def _core(t: _Table, i: int) -> Core:
         jsat = curve[-1][1] - MU_0 * curve[-1][0]
     else:
         mur = t.number("relative_permeability", minimum=1.0)
+        if mur <= 1.0:  # mu_r = 1 is air: the iron solve has nothing to magnetize
+            raise t.fail("relative_permeability", "greater than 1 (a soft-iron core; 1 is air: leave the core out)", mur)
         jsat = t.quantity("saturation_polarization", "flux_density", positive=True)
     t.done(CORE_KEYS)
     return Core(name=name, shape=shape, dimensions_m=tuple(float(d) for d in dims), position_m=pos, axis=axis,
