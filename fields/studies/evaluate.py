@@ -55,7 +55,9 @@ def _stiffness_columns(design: Design, op) -> dict[str, Any]:
     saturable = bool(design.cores) and len(design.coils) > 0
     # with cores the stiffness comes from the saturable solve at the operating currents (the
     # report's rule, analysis.stiffness_matrix); the basis at the centre pose gives k_i there
-    b = wrench_basis(design, P[-1:], Rv[-1:]) if saturable else wrench_basis(design, P, Rv)
+    # the force error estimate (a second rule level) only where the row carries it: the centre pose
+    b = wrench_basis(design, P[-1:], Rv[-1:]) if saturable else wrench_basis(design, P, Rv, estimate_error=False)
+    centre = b if saturable else wrench_basis(design, P[-1:], Rv[-1:])
     out: dict[str, Any] = {"ki_N_per_A": float((b.Fk_N_per_A[-1] @ up) @ d) if len(design.coils) else 0.0,
                            "contact": bool(np.any(b.contact)), "core_saturation": False}
     if out["contact"]:
@@ -77,7 +79,7 @@ def _stiffness_columns(design: Design, op) -> dict[str, Any]:
     out["residual_lateral_force_N"] = float(np.linalg.norm(Fres - (Fres @ up) * up))
     out["residual_torque_Nm"] = float(np.linalg.norm(stiff.torque_Nm))
     out["core_saturation"] = bool(b.core_saturated[-1])
-    out["force_error_N"] = float(b.error_F_N[-1])
+    out["force_error_N"] = float(centre.error_F_N[-1])
     return out
 
 
