@@ -342,8 +342,11 @@ def main() -> int:
         for i, r in enumerate(rows):
             table.append(f"| {c['label'] if i == 0 else ''} | " + " | ".join(r) + " |")
         notes.append(f"- {c['label']}: {'; '.join(checks)}.")
+    import os
+
+    load_avg = os.getloadavg()[0]  # 1-minute load average at the end of the run
     out.append(f"Machine: {machine()}, magpylib {magpylib.__version__}, scipy {scipy.__version__}; "
-               "shared with another job while measured (times contended; best of repeats, routes interleaved).")
+               f"load average {load_avg:.1f} at the end of the run (best of repeats, routes interleaved).")
     out.append("")
     out += table
     out.append("")
