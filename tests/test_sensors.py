@@ -375,3 +375,21 @@ def test_sensors_stage_writes_sideways_sensitivity_and_placement(tmp_path):
     assert pl["counts"]["floater_travel"] == 11 and pl["excluded"] == 11 and "best_position_m" not in pl
     assert any("no candidate is usable" in w and "11 inside the floater's travel" in w for w in res.warnings)
     assert js["beam_placement"][0]["best_height_m"] is not None
+
+
+def test_sideways_hall_sensors_get_no_gap_table_and_no_function_names(tmp_path):
+    # the repulsive example's Hall sensors sense x and y: on the axis their reading does not
+    # change with the gap (by symmetry: B_x = B_y = 0 on the axis of an axisymmetric floater;
+    # common practice, no source), so there is no gap table to invert and the warning says why
+    # in words, without an internal function name
+    from fields.input.geometry import load
+    from fields.studies.stages.sensors import run_sensors
+
+    from helpers import REPULSIVE
+
+    res = run_sensors(load(REPULSIVE), tmp_path)
+    assert not any("no inverse table" in w for w in res.warnings)
+    assert not any("inverse_table" in w or "hall_inverse_table" in w for w in res.warnings)
+    side = [w for w in res.warnings if "does not change with the gap" in w]
+    assert len(side) == 2 and all("sideways or tilt" in w for w in side)
+    assert not list(tmp_path.glob("inverse_*.csv"))

@@ -310,7 +310,8 @@ def notice_text(n) -> str:
         "approximate_silhouette": lambda: f"sensor {s}: an oblique or mesh silhouette is outlined by a polygon (approximate)",
         "hall_saturates": lambda: f"sensor {s}: the reading reaches {v['worst_T'] * 1e3:.3g} mT with all coils at max current, "
                                   f"beyond the {v['range_T'] * 1e3:.3g} mT range",
-        "no_sensitivity": lambda: f"sensor {s}: no sensitivity to the gap at the operating gap",
+        "no_sensitivity": lambda: f"sensor {s}: its reading does not change with the gap at the operating gap (it may "
+                                  "still sense sideways or tilt motion: see the control section); no inverse gap table",
         "coil_crosstalk": lambda: f"sensor {s}: coil {v['coil']} at max current reads like {v['apparent_gap_m'] * mm:.3g} mm of "
                                   "gap; compensate it (subtract c_k I_k)",
         "core_approximate": lambda: f"sensor {s}: core response from the ring-cell iron solve with linear iron (initial "

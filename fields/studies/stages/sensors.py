@@ -167,10 +167,13 @@ def _inverse_tables(design: Design, gaps, halls, out: Path) -> tuple[list[str], 
 
     files, warnings = [], []
     for h in halls:
+        if any(n.code == "no_sensitivity" for n in h.notices):
+            continue  # a sensor that does not see the gap (sideways or tilt) has no gap table to invert
         try:
             inv = hall.hall_inverse_table(design, next(s for s in design.sensors if s.name == h.name), gaps)
         except HoverfieldError as e:  # non-monotone readings: report, keep going
-            warnings.append(f"{h.name}: no inverse table: {e}")
+            why = str(e).split(": ", 1)[-1]  # the rule without the function's name
+            warnings.append(f"{h.name}: no inverse table: {why}")
             continue
         name = f"inverse_{slug(h.name)}.csv"
         write_csv(out / name, ["reading_T", "gap_m"], zip(inv.reading, inv.gap_m),
