@@ -99,7 +99,10 @@ def map_grid_text(lateral, tilt, gap_points: int) -> str:
 
 
 def _vec(v) -> str:
-    return "(" + ", ".join(f"{x:.3g}" if abs(x) > 1e-12 else "0" for x in v) + ")"
+    """A force or torque vector, round-off below 1e-12 (N or N m) shown as 0."""
+    from fields.io.numbers import fmt
+
+    return "(" + ", ".join(fmt(x, 3, error=1e-12) for x in v) + ")"
 
 
 def operating_point_text(op) -> str:

@@ -333,35 +333,12 @@ class HarmonicIron:
             out[..., m, :, :] = linalg.cho_solve(self.factors[m], x.reshape(-1, x.shape[-1]).T).T.reshape(x.shape)
         return out
 
-    def solve_linearized(self, bh, J0_T) -> np.ndarray:
-        """Harmonics linearized about a saturated axisymmetric state J0 (c, 2): ``(mass dh/dJ + D_m) J = b``.
+    def solve_linearized_many(self, bh, J0s_T) -> np.ndarray:
+        """Harmonics linearized about n saturated axisymmetric states: ``(mass dh/dJ + D_m) J = b``
+        for bh (n, M, 2, 3c) and J0s (n, c, 2).
 
         ``dh/dJ`` is the inverse differential tensor of each cell's curve at ``J0`` (3 x 3 in
         ``(e_r, e_phi, e_z)``); approximate where the harmonics are not small against ``J0``.
-        """
-        m0 = self.model
-        c = self.cells
-        J3 = np.zeros((c, 3))
-        J0 = np.asarray(J0_T, dtype=float).reshape(c, 2)
-        J3[:, 0], J3[:, 2] = J0[:, 0], J0[:, 1]
-        Ti = np.empty((c, 3, 3))
-        for i, cv in enumerate(m0.curves):
-            idx = np.nonzero(m0.cell_curve == i)[0]
-            _, Ti[idx] = field_and_inverse_tensor(cv, J3[idx])
-        blk = 0.5 * m0.mesh.volume_m3[:, None, None] * Ti
-        bh = np.asarray(bh, dtype=float)
-        out = np.empty_like(bh)
-        idx = np.arange(c)
-        for m in range(self.harmonics):
-            A = self.D[m].copy().reshape(c, 3, c, 3)
-            A[idx, :, idx, :] += blk
-            f = linalg.cho_factor(A.reshape(3 * c, 3 * c))
-            x = bh[..., m, :, :]
-            out[..., m, :, :] = linalg.cho_solve(f, x.reshape(-1, x.shape[-1]).T).T.reshape(x.shape)
-        return out
-
-    def solve_linearized_many(self, bh, J0s_T) -> np.ndarray:
-        """:meth:`solve_linearized` for n nearby states at once: bh (n, M, 2, 3c), J0s (n, c, 2).
 
         The poses of a stencil or a short family differ little, so one Cholesky factor per
         harmonic (at the first state) preconditions all of them: each solve is iterative
