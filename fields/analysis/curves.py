@@ -145,6 +145,8 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
     d = drive_pattern(design, pattern)
     up = design.up
     pos, rot = pose_at_gap(design, gaps)
+    if design.floater.soft_iron:
+        return _requested(_iron_curves(design, gaps, np.union1d(cur, family_currents(design)), d, pos, rot), cur)
     if design.cores and core_model == "cells" and _iron_axis_family_applies(design, pos, rot):
         return _requested(_iron_curves(design, gaps, np.union1d(cur, family_currents(design)), d, pos, rot), cur)
     h = STEP_LENGTH_M
@@ -296,7 +298,12 @@ def _iron_curves(design: Design, gaps, cur, d, pos, rot) -> AxialCurves:
     dfk = np.zeros(n)
     sat = np.zeros((n, cur.size), dtype=bool)
     if np.any(ok):
-        fam = iron_axial_family(design, pos[ok, 2], cur[:, None] * d[None, :], float(np.min(clear[ok])))
+        if design.floater.soft_iron:
+            from fields.physics.iron_floater import floater_iron_family
+
+            fam = floater_iron_family(design, pos[ok, 2], gaps[ok], cur[:, None] * d[None, :])
+        else:
+            fam = iron_axial_family(design, pos[ok, 2], cur[:, None] * d[None, :], float(np.min(clear[ok])))
         Fup[ok], dF[ok], Flin[ok], err[ok] = uz * fam.Fz_N, fam.dFz_dz_N_per_m, uz * fam.Fz_linear_N, fam.error_Fz_N
         F0[ok], dF0[ok] = uz * fam.F0_N, fam.dF0_dz_N_per_m
         fk[ok], dfk[ok] = uz * (fam.Fk_N_per_A @ d), fam.dFk_dz_N_per_A_m @ d
@@ -355,7 +362,15 @@ def _exact_hover(design, z, ok, d, target_N, ih, ki_h, kz_h, uz):
     from fields.physics.iron import iron_model
     from fields.physics.iron_family import REPORTED_LEVEL, hover_points
 
-    model = iron_model(design, REPORTED_LEVEL)
+    if design.floater.soft_iron:
+        from fields.physics.iron_floater import floater_hover_points
+
+        def hover_points(_model, zz, d, target, guess):  # noqa: F811 - the soft-iron floater's solve
+            return floater_hover_points(design, zz, d, target, guess)
+
+        model = None
+    else:
+        model = iron_model(design, REPORTED_LEVEL)
     idx = np.flatnonzero(ok)
     ih, ki_h, kz_h = ih.copy(), ki_h.copy(), kz_h.copy()
     if idx.size <= HOVER_NODES:
@@ -420,7 +435,7 @@ def _hover(cur, Fup, W):
         lo, hi = float(np.min(cur)), float(np.max(cur))
         roots = [r for r in s.solve(W, extrapolate=False) if lo <= r <= hi]
         if roots:
-            r = min(roots, key=abs)
+            r = min(roots, key=lambda x: (round(abs(x), 12), x < 0))  # an even force: the positive root
             ih[i], ki[i] = r, float(s(r, 1))
             continue
         for end in (lo, hi):  # beyond the family: extrapolate along the end slope

@@ -66,8 +66,8 @@ def drive_pattern(design: Design, pattern=None) -> np.ndarray:
 
 
 def floater_size_m(design: Design) -> float:
-    """A length scale of the floater (m): the largest dimension of its magnets."""
-    s = 0.0
+    """A length scale of the floater (m): the largest dimension of its magnets and soft iron."""
+    s = max((max(p.dimensions_m) for p in design.floater.soft_iron), default=0.0)
     for m in design.floater.magnets:
         if m.shape == "mesh":
             s = max(s, float(np.ptp(m.mesh_vertices_m, axis=0).max()))

@@ -32,10 +32,11 @@ from fields.model.design import (
     rotation_matrix,
 )
 from fields.input.csvtable import TomlTable as _Table, show_value as _show
+from fields.input.ironparts import iron_law, part_inertia_kg_m2, soft_iron_part
 from fields.input.units import UnitParseError, parse
 from fields.model.clearance import overlapping_pairs
 from fields.model.gap import gap_axis, nearest_reference
-from fields.model.solids import Solid, coil_solid, core_solid, magnet_solid
+from fields.model.solids import Solid, coil_solid, core_solid, floater_solids, magnet_solid
 
 # --------------------------------------------------------------------------------------------
 # sections
@@ -217,39 +218,6 @@ CORE_KEYS = ("name", "shape", "diameter", "height", "inner_diameter", "outer_dia
              "axis", "relative_permeability", "saturation_polarization", "bh_curve")
 
 
-def _bh_curve(t: _Table) -> tuple[tuple[float, float], ...]:
-    """``bh_curve = [["0 A/m", "0 T"], ["100 A/m", "0.5 T"], ...]``: pairs with units, from (0, 0),
-    H and B strictly increasing, B - mu0 H non-decreasing (the rules of a table B-H curve)."""
-    v = t.raw("bh_curve")
-    if isinstance(v, str):
-        raise t.fail("bh_curve", "a list of [H, B] pairs with units, e.g. [[\"0 A/m\", \"0 T\"], [\"100 A/m\", \"0.5 T\"]] "
-                     "(no named curves are built in)", v)
-    if not isinstance(v, list) or len(v) < 3:
-        raise t.fail("bh_curve", "a list of at least 3 [H, B] pairs with units", v)
-    pts = []
-    for j, p in enumerate(v):
-        where = f"bh_curve[{j}]"
-        if not isinstance(p, list) or len(p) != 2:
-            raise t.fail(where, "a pair [\"<H> A/m\", \"<B> T\"]", p)
-        try:
-            H = parse(p[0], "field_strength")
-            B = parse(p[1], "flux_density")
-        except UnitParseError as e:
-            raise t.fail(where, e.rule, p) from None
-        pts.append((float(H), float(B)))
-    H = np.array([a for a, _ in pts])
-    B = np.array([b for _, b in pts])
-    if H[0] != 0.0 or B[0] != 0.0:
-        raise t.fail("bh_curve[0]", "the point [\"0 A/m\", \"0 T\"]", v[0])
-    for j in range(1, len(pts)):
-        if not (H[j] > H[j - 1] and B[j] > B[j - 1]):
-            raise t.fail(f"bh_curve[{j}]", f"above the previous point in both H and B ({v[j - 1]})", v[j])
-        if (B[j] - MU_0 * H[j]) < (B[j - 1] - MU_0 * H[j - 1]):
-            raise t.fail(f"bh_curve[{j}]", "a slope of B of at least mu0 from the previous point (B - mu0 H "
-                         "must not fall)", v[j])
-    return tuple(pts)
-
-
 def _core(t: _Table, i: int) -> Core:
     t.done(CORE_KEYS)
     name = t.string("name", f"core {i + 1}")
@@ -270,31 +238,26 @@ def _core(t: _Table, i: int) -> Core:
         dims = size
     pos = t.vector("position", "length", (0.0, 0.0, 0.0))
     axis = t.direction("axis", (0.0, 0.0, 1.0))
-    curve = None
-    if t.has("bh_curve"):
-        for k in ("relative_permeability", "saturation_polarization"):
-            if t.has(k):
-                raise t.fail(k, "left out when bh_curve is given (the table sets the curve)", t.data[k])
-        curve = _bh_curve(t)
-        # the first segment's slope and the last point's polarization (the solver uses the table)
-        mur = curve[1][1] / (MU_0 * curve[1][0])
-        jsat = curve[-1][1] - MU_0 * curve[-1][0]
-    else:
-        mur = t.number("relative_permeability", minimum=1.0)
-        if mur <= 1.0:  # mu_r = 1 is air: the iron solve has nothing to magnetize
-            raise t.fail("relative_permeability", "greater than 1 (a soft-iron core; 1 is air: leave the core out)", mur)
-        jsat = t.quantity("saturation_polarization", "flux_density", positive=True)
+    mur, jsat, curve = iron_law(t, "a soft-iron core; 1 is air: leave the core out")
     t.done(CORE_KEYS)
     return Core(name=name, shape=shape, dimensions_m=tuple(float(d) for d in dims), position_m=pos, axis=axis,
                 relative_permeability=float(mur), saturation_polarization_T=float(jsat), bh_curve=curve)
 
 
 def _floater(t: _Table, base_dir: Path) -> Floater:
-    t.done(("name", "magnets", "payload_mass", "payload_position", "mass", "centre_of_mass"))
+    keys = ("name", "magnets", "soft_iron", "payload_mass", "payload_position", "mass", "centre_of_mass")
+    t.done(keys)
     name = t.string("name", "floater")
-    mags = [_magnet(m, f"floater magnet {j + 1}", base_dir) for j, m in enumerate(t.array("magnets", required=True))]
-    if not mags:
-        raise GeometryError(t._where("magnets"), "the floater", "made of at least one magnet ([[floater.magnets]])", "none")
+    irons = [soft_iron_part(p, j) for j, p in enumerate(t.array("soft_iron"))] if t.has("soft_iron") else []
+    mags = [_magnet(m, f"floater magnet {j + 1}", base_dir)
+            for j, m in enumerate(t.array("magnets", required=not irons))] if (t.has("magnets") or not irons) else []
+    if not mags and not irons:
+        raise GeometryError(t._where("magnets"), "the floater", "made of at least one magnet ([[floater.magnets]]) "
+                            "or one soft-iron part ([[floater.soft_iron]])", "none")
+    if irons and (mags or len(irons) > 1):
+        raise GeometryError(t._where("soft_iron"), "the floater", "one soft-iron part and no magnets (magnets and "
+                            "several parts on a soft-iron floater are not modelled)",
+                            f"{len(irons)} soft-iron part(s) and {len(mags)} magnet(s)")
     payload = t.quantity("payload_mass", "mass", 0.0, nonnegative=True)
     ppos = t.vector("payload_position", "length", (0.0, 0.0, 0.0))
     # rigid-body mass properties from the magnets (each a uniform solid) plus a point payload
@@ -304,6 +267,10 @@ def _floater(t: _Table, base_dir: Path) -> Floater:
         masses.append(m.mass_kg)
         coms.append(np.asarray(m.position_m) + r @ m.centroid_own_m)
         inertias.append(r @ m.inertia_own_kg_m2() @ r.T)
+    for p in irons:
+        masses.append(p.mass_kg)
+        coms.append(np.asarray(p.position_m))
+        inertias.append(part_inertia_kg_m2(p))
     masses.append(payload)
     coms.append(np.asarray(ppos))
     inertias.append(np.zeros((3, 3)))
@@ -321,8 +288,8 @@ def _floater(t: _Table, base_dir: Path) -> Floater:
         mtot = mtot_file
     if t.has("centre_of_mass"):
         com = np.asarray(t.vector("centre_of_mass", "length"))
-    t.done(("name", "magnets", "payload_mass", "payload_position", "mass", "centre_of_mass"))
-    return Floater(name=name, magnets=tuple(mags), payload_mass_kg=payload, payload_position_m=ppos,
+    t.done(keys)
+    return Floater(name=name, magnets=tuple(mags), soft_iron=tuple(irons), payload_mass_kg=payload, payload_position_m=ppos,
                    mass_kg=mtot, centre_of_mass_m=tuple(float(c) for c in com),
                    inertia_kg_m2=tuple(tuple(float(x) for x in row) for row in inertia), mass_given=mass_given)
 
@@ -379,7 +346,7 @@ def _study(t: _Table, fixed: tuple[Solid, ...], floater: Floater, file: str, has
     if not fixed:
         raise GeometryError(f"{file}: study.gap_reference", "a design", "given at least one fixed body (coil, core or magnet) to measure the gap from", "none")
     names = [s.name for s in fixed]
-    floater_solids = [magnet_solid(m, True) for m in floater.magnets]
+    floater_solid_list = floater_solids(floater)
     if t.has("gap_reference"):
         ref = t.string("gap_reference")
         if ref not in names:
@@ -391,11 +358,11 @@ def _study(t: _Table, fixed: tuple[Solid, ...], floater: Floater, file: str, has
         side = t.string("gap_side", "above", choices=("auto", "above", "below"))
         # the body over (under) the floater whose underside is lowest is the ceiling (suspension
         # designs); the one whose top is highest is the floor (repulsive bases)
-        ref = nearest_reference(fixed, floater_solids, up, side if side != "auto" else "above", lateral, tilt_rot)
+        ref = nearest_reference(fixed, floater_solid_list, up, side if side != "auto" else "above", lateral, tilt_rot)
     if side == "auto":
         side = "above"
     try:
-        axis = gap_axis(fixed, floater_solids, ref, side, up, lateral, tilt_rot, op)
+        axis = gap_axis(fixed, floater_solid_list, ref, side, up, lateral, tilt_rot, op)
     except SolverError as e:
         raise GeometryError(f"{file}: study.operating_gap", "the floater", f"able to reach the operating gap from "
                             f"gap_reference \"{ref}\" moving along gravity ({e})", t.data.get("operating_gap", "default")) from None

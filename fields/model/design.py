@@ -218,6 +218,25 @@ class Core:
         return solid_volume_m3(self.shape, self.dimensions_m)
 
 
+#: density of plain carbon steel (kg/m^3), the default of a soft-iron floater part (handbook value,
+#: e.g. 7.85 g/cm^3 for low-carbon steel; from memory)
+STEEL_DENSITY_KG_M3 = 7850.0
+SOFT_IRON_SHAPES = ("sphere", "cylinder", "ring")
+
+
+@dataclass(frozen=True)
+class SoftIronPart(Core):
+    """A soft-iron part of the floater (a steel ball, a soft-iron disc or ring): no magnetization
+    of its own, the fixed sources induce it. Placed in the floater frame on the floater's z axis.
+    ``dimensions_m``: ``(d,)`` for a sphere, as a core otherwise."""
+
+    density_kg_m3: float = STEEL_DENSITY_KG_M3
+
+    @property
+    def mass_kg(self) -> float:
+        return self.density_kg_m3 * solid_volume_m3(self.shape, self.dimensions_m)
+
+
 @dataclass(frozen=True)
 class Floater:
     """The levitated rigid body: magnets placed in the floater frame plus a payload.
@@ -235,10 +254,12 @@ class Floater:
     centre_of_mass_m: Vec3
     inertia_kg_m2: tuple[Vec3, Vec3, Vec3]
     mass_given: bool = False
+    soft_iron: tuple[SoftIronPart, ...] = ()
 
     @property
     def magnet_mass_kg(self) -> float:
-        return float(sum(m.mass_kg for m in self.magnets))
+        """Mass of the floater's magnetic parts: magnets and soft iron (kg)."""
+        return float(sum(m.mass_kg for m in self.magnets) + sum(p.mass_kg for p in self.soft_iron))
 
 
 @dataclass(frozen=True)

@@ -221,6 +221,15 @@ def core_solid(core: Core) -> Solid:
                  np.asarray(core.position_m, dtype=float), False)
 
 
+def floater_solids(floater) -> list[Solid]:
+    """Solids of the floater: its magnets, then its soft-iron parts (floater frame)."""
+    out = [magnet_solid(m, True) for m in floater.magnets]
+    for p in getattr(floater, "soft_iron", ()):
+        size = _shape_size(f"floater.soft_iron.{p.name}", p.shape, p.dimensions_m, ("sphere", "cylinder", "ring"))
+        out.append(Solid(p.name, "floater", p.shape, size, np.eye(3), np.asarray(p.position_m, dtype=float), True))
+    return out
+
+
 def design_solids(design: Design) -> tuple[Solid, ...]:
     """All solids of a design: fixed magnets, coil windings, cores, then floater magnets.
 
@@ -240,7 +249,7 @@ def design_solids(design: Design) -> tuple[Solid, ...]:
     out: list[Solid] = [magnet_solid(m, False) for m in design.magnets]
     out.extend(coil_solid(c) for c in design.coils)
     out.extend(core_solid(k) for k in design.cores)
-    out.extend(magnet_solid(m, True) for m in design.floater.magnets)
+    out.extend(floater_solids(design.floater))
     seen: set[str] = set()
     for s in out:
         if s.name in seen:

@@ -413,6 +413,9 @@ def wrench_basis(design: Design, positions_m, rotvecs_rad, order: str | RuleLeve
     there, so that differences across the call stay consistent. Designs with cores use the 1-D
     radial cap rule on the axis.
     """
+    if design.floater.soft_iron:
+        raise input_error("wrench_basis", "design.floater", "a floater of magnets (the force on a soft-iron floater "
+                          "is not affine in the currents: use wrench with the currents)", "soft iron")
     out, eF, eT, contact, clearance = _evaluate(design, positions_m, rotvecs_rad, order, None, estimate_error,
                                                 near_field, axis_symmetry, core_model)
     return WrenchBasis(out[0], out[1], out[2], out[3], eF, eT, contact, clearance, out[7])
@@ -438,6 +441,12 @@ def wrench(design: Design, positions_m, rotvecs_rad, currents_A, order: str | Ru
         With cells the saturable iron is solved by Newton's method at these currents (``"uniform"``
         clips the core polarization at saturation); nonlinear in the currents.
     """
+    if design.floater.soft_iron:
+        from fields.physics.iron_floater import floater_iron_wrench
+
+        F, T, eF, contact, clearance, sat = floater_iron_wrench(design, positions_m, rotvecs_rad, currents_A,
+                                                                estimate_error)
+        return Wrench(F, T, eF, np.where(np.isnan(eF), np.nan, 0.0), contact, clearance, sat)
     out, eF, eT, contact, clearance = _evaluate(design, positions_m, rotvecs_rad, order, currents_A, estimate_error,
                                                 near_field, axis_symmetry, core_model)
     return Wrench(out[4], out[5], eF, eT, contact, clearance, out[6])
