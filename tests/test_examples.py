@@ -22,7 +22,7 @@ from helpers import EXAMPLES, REPULSIVE, SUSPENSION
 
 
 #: examples that take more than a few seconds to solve
-SLOW_EXAMPLES = {REPULSIVE.name, "ring_steering.toml"}
+SLOW_EXAMPLES = {REPULSIVE.name, "ring_steering.toml", "steel_ball.toml"}
 
 
 @pytest.mark.parametrize("path", [pytest.param(p, marks=pytest.mark.slow) if p.name in SLOW_EXAMPLES else p
@@ -36,8 +36,9 @@ def test_example_solves(path):
     eq = op.equilibrium
     # force balance at the six-axis equilibrium: residual below 1e-6 of the weight
     assert np.linalg.norm(eq.residual_force_N) < 1e-6 * d.weight_N
-    # the floater mass is the magnets' volume x density plus the payload
+    # the floater mass is the magnets' volume x density (a ball: pi d^3 / 6) plus the payload
     mags = sum(m.volume_m3 * m.density_kg_per_m3 for m in d.floater.magnets)
+    mags += sum(p.density_kg_m3 * math.pi * p.dimensions_m[0] ** 3 / 6 for p in d.floater.soft_iron)
     assert d.floater.mass_kg == pytest.approx(mags + d.floater.payload_mass_kg, rel=1e-12)
 
 

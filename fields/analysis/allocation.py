@@ -108,10 +108,31 @@ def control_axis(design: Design, stiff: Stiffness) -> ControlAxis:
     if not design.coils:
         return ControlAxis(("sideways x", "sideways y", "vertical")[j], j, direction, float(diag[j]), 0.0,
                            np.zeros(0), np.zeros(0))
-    b = wrench_basis(design, np.atleast_2d(stiff.position_m), np.atleast_2d(stiff.rotvec_rad))
-    g = b.Fk_N_per_A[0] @ direction  # (k,)
+    if design.floater.soft_iron:  # induced floater: the incremental force per ampere at the bias currents
+        g = _incremental_force_per_ampere(design, stiff) @ direction
+    else:
+        b = wrench_basis(design, np.atleast_2d(stiff.position_m), np.atleast_2d(stiff.rotvec_rad))
+        g = b.Fk_N_per_A[0] @ direction  # (k,)
     big = np.abs(g) >= 1e-6 * np.abs(g).max() if np.abs(g).max() > 0 else np.zeros_like(g, bool)
     pattern = np.where(big, np.sign(g), 0.0)
     ki = float(g @ pattern)
     name = {0: "sideways x", 1: "sideways y", 2: "vertical"}[j]
     return ControlAxis(name, j, direction, float(stiff.K[j, j]), ki, pattern, np.asarray(stiff.currents_A, float))
+
+
+#: current step (A, relative to max(1, |I|)) of the incremental force per ampere of a soft-iron floater
+INCREMENT_A = 1e-4
+
+
+def _incremental_force_per_ampere(design: Design, stiff: Stiffness) -> np.ndarray:
+    """dF/dI_k (k, 3) at the stiffness pose and currents by central differences of the saturable force."""
+    from fields.physics.wrench import wrench
+
+    I0 = np.asarray(stiff.currents_A, dtype=float)
+    out = np.zeros((len(design.coils), 3))
+    for k in range(len(design.coils)):
+        e = INCREMENT_A * max(1.0, abs(I0[k]))
+        F = [wrench(design, np.atleast_2d(stiff.position_m), np.atleast_2d(stiff.rotvec_rad),
+                    I0 + s * e * np.eye(len(design.coils))[k], estimate_error=False).force_N[0] for s in (1.0, -1.0)]
+        out[k] = (F[0] - F[1]) / (2 * e)
+    return out

@@ -130,6 +130,10 @@ def stiffness_matrix(design: Design, position_m, rotvec_rad, currents_A=None,
       ``e_T``. This assumes the quadrature error varies on the scale of the gap or the floater.
     """
     I = np.zeros(len(design.coils)) if currents_A is None else np.asarray(currents_A, float)
+    if design.floater.soft_iron:
+        from fields.analysis.stiffness_iron import soft_iron_stiffness
+
+        return soft_iron_stiffness(design, position_m, rotvec_rad, I)
     P, Rv, finish = stiffness_stencil(design, position_m, rotvec_rad, step_length_m, step_angle_rad)
     if design.cores:
         if len(I):  # the iron's B-H curve: forces at these currents, not the linear basis

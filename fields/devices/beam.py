@@ -190,7 +190,7 @@ def _silhouettes(design: Design, position_m, rotvec_rad, d, across, up) -> list[
     Rp = rotation_matrix(rotvec_rad)
     P = np.asarray(position_m, dtype=float)
     out = []
-    for m in design.floater.magnets:
+    for m in tuple(design.floater.magnets) + tuple(design.floater.soft_iron):  # soft-iron balls block too
         Rw = Rp @ rotation_matrix(m.rotvec_rad)
         tw = P + Rp @ np.asarray(m.position_m, dtype=float)
         c2 = np.array([tw @ across, tw @ up])

@@ -334,7 +334,7 @@ def core_inductance_terms(design: Design, gaps_m, hover_currents_A=None, layers:
     ng = gaps.size
     Lc = np.zeros((ng, k, k))
     sat = np.zeros(ng, dtype=bool)
-    if not design.cores:
+    if not design.cores and not design.floater.soft_iron:
         return (Lc, sat, np.zeros((ng, k))) if linkage else (Lc, sat)
     st = design.study
     P = st.floater_origin_m(gaps)
@@ -394,7 +394,7 @@ def mutual_inductance_matrix(design: Design, order: int = 8, currents_A=None, ga
         L[i, i] = air_self_inductance_H(c)[0]
         for j in range(i + 1, k):
             L[i, j] = L[j, i] = air_mutual_inductance_H(c, design.coils[j], order)[0]
-    if design.cores:
+    if design.cores or design.floater.soft_iron:
         g = design.study.operating_gap_m if gap_m is None else float(gap_m)
         I = None if currents_A is None else np.asarray(currents_A, dtype=float).reshape(1, k)
         Lc, _ = core_inductance_terms(design, [g], I)

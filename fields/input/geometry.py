@@ -14,7 +14,6 @@ import tomllib
 from pathlib import Path
 
 import numpy as np
-from scipy.constants import mu_0 as MU_0
 
 from fields.input import tables
 from fields.errors import GeometryError, SolverError

@@ -78,3 +78,18 @@ def file_description(rel: str, csv_notes: Sequence[str] = ()) -> str:
             return text
     dot = name.rfind(".")
     return _BY_SUFFIX.get(name[dot:] if dot >= 0 else "", "output file")
+
+
+def soft_iron_notes() -> tuple[str, ...]:
+    """What the stability numbers of a soft-iron (ball) floater are."""
+    return ("soft-iron ball: its polarization is induced by the coils and cores (solved with them on the axis); "
+            "a ball turns into itself under rotation, so tilt and spin are neutral by symmetry (no torque)",
+            "sideways stiffness of the soft-iron ball: the value with the ball's and the cores' polarization held "
+            "at their on-axis solution; for linear iron it is an upper bound (the polarization following the "
+            "offset lowers it), so a negative value means the ball is surely pushed off the axis",
+            "sideways and tilt maps: not computed for soft-iron floaters (only poses on the axis are modelled)")
+
+
+def soft_iron_earnshaw_note() -> str:
+    return ("the floater is soft iron, whose magnetization is induced (and follows the pose): the trace need not "
+            "vanish")

@@ -221,7 +221,7 @@ class Core:
 #: density of plain carbon steel (kg/m^3), the default of a soft-iron floater part (handbook value,
 #: e.g. 7.85 g/cm^3 for low-carbon steel; from memory)
 STEEL_DENSITY_KG_M3 = 7850.0
-SOFT_IRON_SHAPES = ("sphere", "cylinder", "ring")
+SOFT_IRON_SHAPES = ("sphere",)
 
 
 @dataclass(frozen=True)

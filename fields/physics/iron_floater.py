@@ -461,3 +461,77 @@ def floater_iron_wrench(design: Design, positions_m, rotvecs_rad, currents_A, es
             rc = floater_iron_forces(design, P[idx, 2], I, CHECK_LEVEL)
             err[idx] = np.abs(r.Fz_N[:, 0] - rc.Fz_N[:, 0])
     return F, np.zeros((n, 3)), err, contact, clear, sat
+
+
+#: sideways offset (m) and azimuthal points of the frozen-polarization lateral stiffness
+LATERAL_OFFSET_M = 1e-5
+LATERAL_ANGLES = 8
+LATERAL_POINTS = 3
+
+
+def floater_iron_lateral_stiffness(design: Design, z_m: float, currents_A, level: str = "fine",
+                                   direction: str = "x") -> float:
+    """Sideways stiffness (N/m) of the on-axis soft-iron floater with its polarization and the
+    cores' frozen at their on-axis solution (saturable solve at ``currents_A``).
+
+    The floater's face loops, offset sideways by :data:`LATERAL_OFFSET_M`, in the field of the coils,
+    the fixed magnets and the frozen cores: ``F_x = sum I_loop r dphi cos(phi) B_z``,
+    ``k = -F_x / offset`` (the force is odd in the offset).
+
+    For linear iron this is an upper bound of the true sideways stiffness: at fixed currents the
+    co-energy is the maximum over polarizations of ``J . b(x) - J^T A(x) J / 2`` (the Galerkin
+    system's variational form), so it lies above the frozen-polarization value with equality and
+    equal slopes on the axis, and its curvature is larger: letting the polarization follow the
+    offset can only lower the centring stiffness.
+
+    ``direction="z"`` gives the frozen stiffness along the axis instead (central difference of
+    ``F_z = -sum I_loop r dphi B_rho`` over offsets +-:data:`LATERAL_OFFSET_M` along z): a check,
+    since a rigid polarization in a source-free field has a traceless stiffness (Earnshaw), so the
+    sideways value must be minus half of it.
+    """
+    from fields.physics.coils import coil_field_per_ampere_T
+    from fields.physics.iron import face_sheet_field_T
+    from fields.physics.iron_newton import newton_sweep
+    from fields.physics.magnets import magnet_field_T
+
+    I = np.asarray(currents_A, dtype=float).reshape(-1)
+    j = _joint(design, level, float(z_m))
+    m = j.model
+    b = m.b_magnets + I @ m.b_coils
+    J, _, _ = newton_sweep(m, b[None])
+    J = J.reshape(-1)
+    Jc, Jf = J[:j.nc], J[j.nc:]
+    fi = floater_iron(design, level)
+    ef = _shifted(fi, float(z_m))
+    p, w = ef.points(LATERAL_POINTS)  # (e, q, 2)
+    K = (fi.incidence @ Jf) / mu_0  # (e,) A/m
+    phi = 2 * np.pi * (np.arange(LATERAL_ANGLES) + 0.5) / LATERAL_ANGLES
+    axis = m.axis_xy_m
+    r = p[..., 0][..., None]
+    core = iron_model(design, level) if j.nc else None
+    loop_I = K[:, None] * w  # (e, q) A
+
+    def field(dx, dz):
+        pts = np.stack((axis[0] + dx + r * np.cos(phi), axis[1] + r * np.sin(phi),
+                        np.broadcast_to(p[..., 1][..., None] + dz, r.shape[:-1] + phi.shape)), axis=-1).reshape(-1, 3)
+        B = np.zeros((pts.shape[0], 3))
+        for i, c in enumerate(design.coils):
+            B += I[i] * coil_field_per_ampere_T(c, pts, m.settings["layers"])
+        for mg in design.magnets:
+            B += magnet_field_T(mg, pts)
+        if core is not None:
+            B += face_sheet_field_T(core.mesh.edges, core.face_currents(Jc), pts, core.axis_xy_m,
+                                    m.settings["face_points"])
+        return B.reshape(p.shape[0], p.shape[1], phi.size, 3)
+
+    dphi = 2 * np.pi / phi.size
+    if direction == "z":
+        Fz = []
+        for dz in (LATERAL_OFFSET_M, -LATERAL_OFFSET_M):
+            B = field(0.0, dz)
+            Brho = B[..., 0] * np.cos(phi) + B[..., 1] * np.sin(phi)
+            Fz.append(-np.einsum("eq,eq,eqa->", loop_I, p[..., 0], Brho) * dphi)
+        return float(-(Fz[0] - Fz[1]) / (2 * LATERAL_OFFSET_M))
+    Bz = field(LATERAL_OFFSET_M, 0.0)[..., 2]
+    Fx = np.einsum("eq,eq,eqa,a->", loop_I, p[..., 0], Bz, np.cos(phi)) * dphi
+    return float(-Fx / LATERAL_OFFSET_M)

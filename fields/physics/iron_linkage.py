@@ -73,8 +73,10 @@ def iron_inductance(design: Design, positions_m, rotvecs_rad, currents_A, level:
     from fields.physics.iron_basis import floater_rhs
     from fields.physics.iron_newton import incremental_response, newton_sweep
 
-    if not design.cores:
-        raise input_error("iron_inductance", "design.cores", "at least one core", 0)
+    if not design.cores and not design.floater.soft_iron:
+        raise input_error("iron_inductance", "design.cores", "at least one core or a soft-iron floater", 0)
+    if design.floater.soft_iron:
+        return _soft_iron_inductance(design, positions_m, currents_A, level)
     model = iron_model(design, level)
     P = np.atleast_2d(np.asarray(positions_m, dtype=float))
     Rv = np.atleast_2d(np.asarray(rotvecs_rad, dtype=float))
@@ -99,3 +101,29 @@ def iron_inductance(design: Design, positions_m, rotvecs_rad, currents_A, level:
         if all(s is not None for s in coil_sheets):
             fl[axial] = _floater_linkage(model, coil_sheets, P[axial, 2])
     return IronInductance(L, L_lin, link + fl, np.any(sat, axis=1), level)
+
+
+def _soft_iron_inductance(design: Design, positions_m, currents_A, level: str) -> IronInductance:
+    """:func:`iron_inductance` of a soft-iron floater on the axis: the joint cell system of cores
+    and floater at each height (:mod:`fields.physics.iron_floater`)."""
+    from fields.physics.iron_floater import _joint
+    from fields.physics.iron_newton import incremental_response, newton_sweep
+
+    P = np.atleast_2d(np.asarray(positions_m, dtype=float))
+    n, k = P.shape[0], len(design.coils)
+    I = np.asarray(currents_A, dtype=float).reshape(n, k)
+    L = np.empty((n, k, k))
+    L_lin = np.empty((n, k, k))
+    link = np.empty((n, k))
+    sat = np.zeros(n, dtype=bool)
+    for i in range(n):
+        m = _joint(design, level, float(P[i, 2])).model
+        J, s, _ = newton_sweep(m, (m.b_magnets + I[i] @ m.b_coils)[None])
+        dJ = incremental_response(m, J[0], m.b_coils.T)
+        L[i] = m.coil_linkage_Wb(dJ.T)
+        L_lin[i] = m.coil_linkage_Wb(m.solve_linear(m.b_coils))
+        link[i] = m.coil_linkage_Wb(J.reshape(1, -1))[0]
+        sat[i] = bool(np.any(s))
+    L = 0.5 * (L + L.transpose(0, 2, 1))
+    # the linear part is pose dependent here (the floater is iron): the operating pose's value
+    return IronInductance(L, 0.5 * (L_lin[0] + L_lin[0].T), link, sat, level)

@@ -520,6 +520,10 @@ def run_control(design: Design, out: Path, stability=None, coil=None, switch: st
     reused. ``switch`` chooses the on/off stage ("auto", "low_side", "h_bridge");
     ``with_capture`` False skips the releases, capture region and on/off study (quick check).
     """
+    if design.floater.soft_iron:
+        raise SolverError("control: not modelled for soft-iron floaters yet (the control layer's force model is "
+                          "affine in the current, while the pull on induced iron grows with the current's square); "
+                          "use k_z and k_i at the hover current from stability.json and curves.json")
     from fields.io.export import write_json
     from fields.studies.stages.control_multi import multiaxis_data, multiaxis_study, write_multiaxis_files
     from fields.studies.stages.control_switch import switch_study

@@ -168,7 +168,7 @@ def run_stability(design: Design, out: Path, curves: analysis.AxialCurves | None
     the stiffness and verdict then describe that pose, which need not be in balance; the maps
     are at its currents."""
     from fields.analysis.operating import chosen_point
-    from fields.io import wording
+    from fields.io import wording, wording_files
     from fields.io.export import write_json
 
     out = Path(out)
@@ -187,7 +187,7 @@ def run_stability(design: Design, out: Path, curves: analysis.AxialCurves | None
         alloc = _allocation(design, eq, out)
         files.append("allocation.csv")
     maps = None
-    if with_maps:
+    if with_maps and not design.floater.soft_iron:  # off-axis poses: not modelled for soft-iron floaters
         maps = _maps(design, eq, out)
         files += list(MAP_FILES)
     result = StabilityResult(
@@ -200,7 +200,10 @@ def run_stability(design: Design, out: Path, curves: analysis.AxialCurves | None
                     for m in v.modes),
         verdict_lines=tuple(wording.verdict_lines(v)), unstable_count=v.unstable_count,
         earnshaw_trace_N_per_m=v.earnshaw_trace_N_per_m, earnshaw_residual=v.earnshaw_residual,
-        earnshaw_note=wording.earnshaw_note(bool(design.cores)), notes=wording.verdict_notes(v), allocation=alloc,
+        earnshaw_note=(wording_files.soft_iron_earnshaw_note() if design.floater.soft_iron
+                       else wording.earnshaw_note(bool(design.cores))),
+        notes=tuple(wording.verdict_notes(v)) + (wording_files.soft_iron_notes() if design.floater.soft_iron else ()),
+        allocation=alloc,
         passively_centred_fraction_lateral=float(maps.lateral.passively_centred.mean()) if maps else None,
         passively_centred_fraction_tilt=float(maps.tilt.passively_centred.mean()) if maps else None,
         map_grid=wording.map_grid_text(maps.lateral, maps.tilt, design.study.gap_points) if maps else None,
