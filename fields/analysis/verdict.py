@@ -223,4 +223,4 @@ def stability_verdict(design: Design, stiff: Stiffness, free_axes=None) -> Verdi
     tr, rel = stiff.earnshaw_residual()
     return Verdict(modes=tuple(modes), unstable_count=unstable_axes, earnshaw_trace_N_per_m=tr, earnshaw_residual=rel,
                    stiffness=stiff, mass_matrix=mass_matrix(design, stiff.rotvec_rad), free_axes=free,
-                   iron=bool(design.cores))
+                   iron=bool(design.cores) or bool(design.floater.soft_iron))

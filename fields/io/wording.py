@@ -61,7 +61,7 @@ def verdict_lines(verdict) -> list[str]:
     axes needing control, the Earnshaw trace check (Earnshaw 1842)."""
     out = [mode_text(m) for m in verdict.modes]
     out.append(f"axes needing active control: {verdict.unstable_count}")
-    why = ("not expected to vanish: the iron core's magnetization follows the floater" if verdict.iron
+    why = ("not expected to vanish: induced iron magnetization (cores, a soft-iron floater) follows the pose" if verdict.iron
            else "vanishes for rigid magnets in iron-free fields (Earnshaw)")
     diag = ("; it adds the matrix diagonal K[x,x] + K[y,y] + K[z,z], not the modal stiffnesses of coupled modes"
             if any(getattr(m, "coupled_axes", ()) for m in verdict.modes) else "")
@@ -241,7 +241,8 @@ def saturation_sentences(curves) -> list[str]:
         return ["a core saturates at some gaps: the force is no longer affine in current there"]
     fin = np.isfinite(onset)
     i_lo = int(np.nanargmin(np.where(fin, onset, np.nan)))
-    return [f"the iron core's B-H curve bends the force away from affine in current (by more than 0.1 %) from "
+    return [f"the iron's B-H curve bends the force away from the linear-iron force (affine in current for a magnet "
+            f"floater, quadratic for a soft-iron one; by more than 0.1 %) from "
             f"{float(np.nanmin(onset)):.3g} A (at a {curves.gaps_m[i_lo] * 1e3:.3g} mm gap) at {int(fin.sum())} of "
             f"{len(curves.gaps_m)} gaps; the curves there come from the saturable solve at each current"]
 
