@@ -44,7 +44,7 @@ def _walk_keys(d, out=None):
 
 def _rl_axis(R, L, i0):
     # a pure R-L load: no force, the "sensor" reads the coil current itself
-    return sw.SwitchedAxis(math.inf, R, L, i0, lambda s, i: 0.0, lambda s: 0.0, lambda s, i: i, lambda s: 0.0, (-1.0, 1.0))
+    return sw.SwitchedAxis(math.inf, R, L, i0, lambda s, i: 0.0, lambda s, i=None: 0.0, lambda s, i: i, lambda s: 0.0, (-1.0, 1.0))
 
 
 @pytest.mark.parametrize("kind", sw.SWITCH_KINDS)

@@ -134,3 +134,38 @@ def test_frozen_sideways_stiffness_is_minus_half_the_axial_one():
     kz = floater_iron_lateral_stiffness(d, z, [1.5], "coarse", direction="z")
     assert kx > 0
     assert kx == pytest.approx(-kz / 2, rel=1e-5)  # finite-difference offsets of 1e-5 m: about 4e-7 seen
+
+
+def test_linear_iron_pull_is_quadratic_in_current():
+    """Linear media and no magnets: the fields scale with the current, so the force on the induced
+    ball scales with its square (superposition, Maxwell's equations being linear)."""
+    d = _rig()
+    z = _ball_z([0.008])
+    r = floater_iron_forces(d, z, np.array([[0.3], [0.6], [-0.6]]), "coarse", saturable=False)
+    F = r.Fz_linear_N[0]
+    assert F[1] == pytest.approx(4 * F[0], rel=1e-10)
+    assert F[2] == pytest.approx(F[1], rel=1e-10)
+    assert F[0] > 0  # pulled up towards the core whatever the current's sign
+
+
+@pytest.mark.slow
+def test_steel_ball_example_gets_a_single_axis_controller(tmp_path):
+    """The control stage on the steel-ball example: the loop closes along the vertical axis with
+    the single-axis route, the grid table balances the weight at the bias current, and two routes
+    agree: k_i and k_z of the plant (central differences of direct joint solves) against the
+    table's dF/dI and -dF/ds (bicubic spline through the family at 13 currents)."""
+    from fields.input.geometry import load
+    from fields.studies.stages.coil import run_coil
+    from fields.studies.stages.control import run_control
+    from fields.studies.stages.stability import run_stability
+
+    d = load(Path(__file__).parent.parent / "geometries" / "steel_ball.toml")
+    st = run_stability(d, tmp_path, with_maps=False)
+    co = run_coil(d, tmp_path, stability=st)
+    r = run_control(d, tmp_path, stability=st, coil=co, with_capture=False)
+    assert r.status == "closable" and r.route == "single-axis" and r.single_axis is not None
+    I0 = float(st.equilibrium_point.currents_A[0])
+    t = r.table
+    assert float(t.force_N(0.0, I0)) == pytest.approx(d.weight_N, rel=1e-5)
+    assert r.params.force_per_ampere_N_per_A == pytest.approx(float(t.force_per_ampere_N_per_A(0.0, I0)), rel=2e-3)
+    assert r.params.stiffness_N_per_m == pytest.approx(float(t.stiffness_N_per_m(0.0, I0)), rel=2e-3)

@@ -411,8 +411,9 @@ class ForceTable:
         """``F0(s)`` (N)."""
         return self._f0(s_m)
 
-    def force_per_ampere_N_per_A(self, s_m) -> np.ndarray:
-        """``Fk(s)`` (N/A), also the back-EMF coefficient (V s/m)."""
+    def force_per_ampere_N_per_A(self, s_m, current_A=None) -> np.ndarray:
+        """``Fk(s)`` (N/A), also the back-EMF coefficient (V s/m); the same at every current (an
+        argument for the interface of :class:`fields.control.force_grid.GridForceTable`)."""
         return self._fk(s_m)
 
     def stiffness_N_per_m(self, s_m, current_A) -> np.ndarray:

@@ -174,12 +174,13 @@ class AxisDynamics:
         """Coil current, applied voltage and ``Fk(s)`` for states X (x, n), held command (n,)."""
         p = self.p
         s, v = X[0], X[1]
-        fk = self.table.force_per_ampere_N_per_A(s)
         if self.drive == "current":
             I = np.clip(held, -self.imax, self.imax) if self.coil_on else np.zeros_like(s)
+            fk = self.table.force_per_ampere_N_per_A(s, I)
             V = p.resistance_ohm * I + fk * v
         else:
             I = X[2]
+            fk = self.table.force_per_ampere_N_per_A(s, I)
             if self.coil_on:
                 iref = np.clip(held, -self.imax, self.imax)
                 V = np.clip(p.resistance_ohm * iref + self.kc * (iref - I), -self.vs, self.vs)
@@ -192,7 +193,7 @@ class AxisDynamics:
         p = self.p
         I, V, fk = self.current_and_voltage(X, held)
         s, v = X[0], X[1]
-        acc = (self.table.zero_current_force_N(s) + I * fk + f_ext) / mass - p.gravity_m_per_s2
+        acc = (self.table.force_N(s, I) + f_ext) / mass - p.gravity_m_per_s2
         if self.drive == "current":
             return np.stack([v, acc])
         dI = (V - p.resistance_ohm * I - fk * v) / p.inductance_H

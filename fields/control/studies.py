@@ -320,16 +320,15 @@ class _Relay:
         p = self.p
         R, L = p.resistance_ohm, p.inductance_H
         s, v = x[0], x[1]
-        fk = float(self.table.force_per_ampere_N_per_A(s))
+        I = x[2] if self.volt else (self.on if state_on else self.off)
+        fk = float(self.table.force_per_ampere_N_per_A(s, I))
         if self.volt:
-            I = x[2]
             V = self.on if state_on else self.off
             dI = [(V - R * I - fk * v) / L]
         else:
-            I = self.on if state_on else self.off
             V = R * I + fk * v
             dI = []
-        acc = (float(self.table.zero_current_force_N(s)) + I * fk) / p.mass_kg - p.gravity_m_per_s2
+        acc = float(self.table.force_N(s, I)) / p.mass_kg - p.gravity_m_per_s2
         return [v, acc] + dI + [R * I * I, V * I]
 
     def current(self, state_on: bool) -> float:

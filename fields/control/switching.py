@@ -90,7 +90,8 @@ class SwitchStage:
 class SwitchedAxis:
     """One axis driven through a switch (module docstring).
 
-    ``force_N(s, i)`` and ``force_per_ampere_N_per_A(s)`` along the axis; ``sensor(s, i)`` the
+    ``force_N(s, i)`` and ``force_per_ampere_N_per_A(s, i)`` (dF/dI, also the back-EMF coefficient) along
+    the axis; ``sensor(s, i)`` the
     reading and ``sensor_slope(s)`` its d/ds (for the lead term); ``range_m`` the stretch the
     force model covers (leaving it ends the run).
     """
@@ -212,7 +213,7 @@ class _Loop:
     def rhs(self, t, x, mode):
         ax, st = self.ax, self.st
         s, v, i = x[0], x[1], x[2]
-        k = float(ax.force_per_ampere_N_per_A(s))
+        k = float(ax.force_per_ampere_N_per_A(s, i))
         if mode in ("clamp_on", "clamp_off"):  # held at the current limit by chopping (average)
             V = ax.resistance_ohm * i + k * v
             acc = (float(ax.force_N(s, i)) - self.F0) / ax.mass_kg if math.isfinite(ax.mass_kg) else 0.0
@@ -244,7 +245,7 @@ def simulate_switched(axis: SwitchedAxis, stage: SwitchStage, half_band: float, 
     I0 = float(ax.bias_current_A)
     ys = float(ax.sensor(0.0, I0)) if y_set is None else float(y_set)
     if orientation is None:
-        k, g = float(ax.force_per_ampere_N_per_A(0.0)), float(ax.sensor_slope(0.0))
+        k, g = float(ax.force_per_ampere_N_per_A(0.0, I0)), float(ax.sensor_slope(0.0))
         orientation = float(np.sign(k * g)) if math.isfinite(ax.mass_kg) and k * g != 0 else 1.0
     lp = _Loop(ax, stage, half_band, float(lead_time_s), ys, float(orientation))
     lo, hi = ax.range_m

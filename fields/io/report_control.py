@@ -29,7 +29,14 @@ def key_rows(ctrl: dict | None) -> list[list[str]]:
         if ctrl and ctrl.get("status") == "refused":
             return [["control", "<b>refused</b>: the loop cannot be closed (see Control)"]]
         return []
-    ma = ctrl["multiaxis"]
+    ma = ctrl.get("multiaxis")
+    if not ma:  # the single-axis route only (a soft-iron floater)
+        sa = ctrl.get("single_axis") or {}
+        if "unstable_pole_rad_per_s" not in sa:
+            return []
+        return [["unstable pole along the control axis", _n(sa["unstable_pole_rad_per_s"], "single_axis.unstable_pole_rad_per_s",
+                                                            "rad/s")],
+                ["minimum sample rate (single loop)", _n(sa["min_sample_rate_Hz"], "single_axis.min_sample_rate_Hz", "Hz")]]
     rows = []
     fast = max((m for m in ma["modes"] if m["kind"] == "unstable"), key=lambda m: m["growth_rate_per_s"])
     i = ma["modes"].index(fast)
@@ -245,6 +252,13 @@ def control_section(ctrl: dict | None, out: Path) -> list[str]:
         S.append("<p>No unstable mode: the floater needs no active control.</p>")
         if ma:
             S.append(_modes(ma))
+        return S
+    if not ma:  # the single-axis route only (a soft-iron floater: no forces off the axis)
+        S.append("<p>" + "".join(esc(x) + "<br>" for x in ctrl.get("summary", ())) + "</p>")
+        if ctrl.get("on_off"):
+            S.append(_on_off(ctrl["on_off"], out))
+        if ctrl.get("single_axis"):
+            S.append(_single_axis(ctrl["single_axis"], out))
         return S
     S.append(f"<p>Every free axis ({esc(', '.join(ma['free_axes']))}) in one plant: voltage drive, the full inductance "
              "matrix, back-EMF by reciprocity, every sensor linearised; modes of the rigid body, each checked for "

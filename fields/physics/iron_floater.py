@@ -143,13 +143,42 @@ def _shifted(fi: FloaterIron, z_m: float) -> Edges:
 
 @dataclass(frozen=True)
 class _Joint:
+    """The joint cell system at one height, and (computed when first asked) the force integrals."""
+
     model: IronModel          # the joint cell system (cores first, then the floater)
     nc: int                   # core unknowns (2 x core cells)
-    force_coils: np.ndarray   # (k,) N per (T of floater face sheet) ... see _force
-    Q_coils: np.ndarray       # (k, e_f) int (-2 pi r B_r) dl of each coil per ampere
-    Q_magnets: np.ndarray     # (e_f,)
-    T_cores: np.ndarray       # (e_f, nc) the same per core polarization
     C_f: np.ndarray           # floater incidence
+    design: Design
+    level: str
+    edges_f: Edges            # the floater's faces at this height
+
+    @functools.cached_property
+    def force_integrals(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """``int (-2 pi r B_r) dl`` along every floater face: per ampere of each coil (k, e_f), of
+        the fixed magnets (e_f,) and per core polarization (e_f, nc)."""
+        from fields.physics.coils import coil_field_per_ampere_T
+        from fields.physics.iron import face_field_matrix
+        from fields.physics.magnets import magnet_field_T
+
+        d, st = self.design, self.model.settings
+        ne_f = self.edges_f.start_m.shape[0]
+        pq, wq, pts = _ball_points(self.edges_f, FORCE_POINTS)
+        wr = (-2.0 * np.pi * pq[..., 0] * wq).reshape(-1)
+        nq = FORCE_POINTS
+        Q_coils = np.zeros((len(d.coils), ne_f))
+        for i, c in enumerate(d.coils):
+            B = coil_field_per_ampere_T(c, pts, st["layers"])
+            Q_coils[i] = (B[:, 0] * wr).reshape(ne_f, nq).sum(axis=1)
+        Q_mag = np.zeros(ne_f)
+        for m in d.magnets:
+            B = magnet_field_T(m, pts)
+            Q_mag += (B[:, 0] * wr).reshape(ne_f, nq).sum(axis=1)
+        T = np.zeros((ne_f, self.nc))
+        if self.nc:
+            core = iron_model(d, self.level)
+            G = face_field_matrix(core.mesh.edges, pts, core.axis_xy_m, st["face_points"])  # (q, 2, e_c)
+            T = ((G[:, 0, :] * wr[:, None]).reshape(ne_f, nq, -1).sum(axis=1)) @ core.mesh.incidence
+        return Q_coils, Q_mag, T
 
 
 def _ball_points(edges: Edges, n: int):
@@ -158,13 +187,11 @@ def _ball_points(edges: Edges, n: int):
     return p, w, pts
 
 
-@functools.lru_cache(maxsize=16)
+#: joint systems kept (about 40 MB each at the fine level; the reuse is at one height: hover search,
+#: sideways stiffness)
+@functools.lru_cache(maxsize=4)
 def _joint(design: Design, level: str, z_m: float) -> _Joint:
     """The joint cell system of cores and floater iron with the floater frame at height ``z_m``."""
-    from fields.physics.coils import coil_field_per_ampere_T
-    from fields.physics.iron import face_field_matrix
-    from fields.physics.magnets import magnet_field_T
-
     fi = floater_iron(design, level)
     st = dict(LEVELS[level])
     core = iron_model(design, level) if design.cores else None
@@ -217,24 +244,7 @@ def _joint(design: Design, level: str, z_m: float) -> _Joint:
         face_flux = np.concatenate((core.coil_face_flux, ff_coils), axis=1)
     model = IronModel(None, level, axis, mesh, curves, mesh.body, D, factor, 0.5 * (A_inv + A_inv.T),
                       b_coils, b_mag, np.zeros_like(b_coils), np.zeros_like(b_mag), face_flux, st)
-    # force integrals: -2 pi r B_r of every other source along the floater's faces
-    pq, wq, pts = _ball_points(ef, FORCE_POINTS)
-    rq = pq[..., 0]
-    wr = (-2.0 * np.pi * rq * wq).reshape(-1)
-    nq = FORCE_POINTS
-    Q_coils = np.zeros((k, ne_f))
-    for i, c in enumerate(design.coils):
-        B = coil_field_per_ampere_T(c, pts, st["layers"])
-        Q_coils[i] = (B[:, 0] * wr).reshape(ne_f, nq).sum(axis=1)
-    Q_mag = np.zeros(ne_f)
-    for m in design.magnets:
-        B = magnet_field_T(m, pts)
-        Q_mag += (B[:, 0] * wr).reshape(ne_f, nq).sum(axis=1)
-    T = np.zeros((ne_f, nc))
-    if core is not None:
-        G = face_field_matrix(core.mesh.edges, pts, axis, st["face_points"])  # (q, 2, e_c)
-        T = ((G[:, 0, :] * wr[:, None]).reshape(ne_f, nq, -1).sum(axis=1)) @ core.mesh.incidence
-    return _Joint(model, nc, np.zeros(k), Q_coils, Q_mag, T, fi.incidence)
+    return _Joint(model, nc, fi.incidence, design, level, ef)
 
 
 @dataclass(frozen=True)
@@ -264,7 +274,8 @@ class FloaterIronForces:
 
 def _force(j: _Joint, J: np.ndarray, I: np.ndarray) -> float:
     Jc, Jf = J[:j.nc], J[j.nc:]
-    q = I @ j.Q_coils + j.Q_magnets + (j.T_cores @ Jc if j.nc else 0.0)
+    Q_coils, Q_magnets, T_cores = j.force_integrals
+    q = I @ Q_coils + Q_magnets + (T_cores @ Jc if j.nc else 0.0)
     return float((j.C_f @ Jf) @ q / mu_0)
 
 
@@ -313,6 +324,15 @@ def floater_iron_forces(design: Design, floater_z_m, currents_A, level: str = "f
 FAMILY_NODES = 9
 
 
+@functools.lru_cache(maxsize=16)
+def _family_forces(design: Design, level: str, z_bytes: bytes, rows_bytes: bytes, k: int) -> FloaterIronForces:
+    """:func:`floater_iron_forces` at a family's nodes, kept per design: the stages of one command
+    (curves, control table, exports) ask for the same nodes and current rows."""
+    z = np.frombuffer(z_bytes, dtype=float)
+    rows = np.frombuffer(rows_bytes, dtype=float).reshape(-1, k)
+    return floater_iron_forces(design, z, rows, level)
+
+
 def floater_iron_family(design: Design, floater_z_m, gaps_m, currents_A):
     """The axial force family of an on-axis soft-iron floater (saturable), as
     :class:`fields.physics.iron_family.IronAxialFamily`.
@@ -342,10 +362,8 @@ def floater_iron_family(design: Design, floater_z_m, gaps_m, currents_A):
         sn = 0.5 * (lo + hi) + 0.5 * (hi - lo) * lobatto_points(n)
         slope = (z[-1] - z[0]) / (gaps[-1] - gaps[0])  # heights are affine in the gap
         zn = z[0] + slope * (np.exp(sn) - gaps[0])
-    out = {}
-    for lv in (REPORTED_LEVEL, CHECK_LEVEL):
-        r = floater_iron_forces(design, zn, rows, lv)
-        out[lv] = r
+    out = {lv: _family_forces(design, lv, zn.tobytes(), rows.tobytes(), rows.shape[1])
+           for lv in (REPORTED_LEVEL, CHECK_LEVEL)}
     if n == 0:
         # direct: derivatives by central differences of extra heights
         h = 1e-6

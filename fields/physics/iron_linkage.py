@@ -16,6 +16,8 @@ through saturation). The air-core self and mutual inductances are not part of th
 
 from __future__ import annotations
 
+import functools
+
 from dataclasses import dataclass
 
 import numpy as np
@@ -76,7 +78,9 @@ def iron_inductance(design: Design, positions_m, rotvecs_rad, currents_A, level:
     if not design.cores and not design.floater.soft_iron:
         raise input_error("iron_inductance", "design.cores", "at least one core or a soft-iron floater", 0)
     if design.floater.soft_iron:
-        return _soft_iron_inductance(design, positions_m, currents_A, level)
+        P = np.ascontiguousarray(np.atleast_2d(np.asarray(positions_m, dtype=float)))
+        I = np.ascontiguousarray(np.asarray(currents_A, dtype=float).reshape(P.shape[0], len(design.coils)))
+        return _soft_iron_inductance(design, P.tobytes(), I.tobytes(), len(design.coils), level)
     model = iron_model(design, level)
     P = np.atleast_2d(np.asarray(positions_m, dtype=float))
     Rv = np.atleast_2d(np.asarray(rotvecs_rad, dtype=float))
@@ -103,15 +107,17 @@ def iron_inductance(design: Design, positions_m, rotvecs_rad, currents_A, level:
     return IronInductance(L, L_lin, link + fl, np.any(sat, axis=1), level)
 
 
-def _soft_iron_inductance(design: Design, positions_m, currents_A, level: str) -> IronInductance:
+@functools.lru_cache(maxsize=8)
+def _soft_iron_inductance(design: Design, P_bytes: bytes, I_bytes: bytes, k: int, level: str) -> IronInductance:
     """:func:`iron_inductance` of a soft-iron floater on the axis: the joint cell system of cores
-    and floater at each height (:mod:`fields.physics.iron_floater`)."""
+    and floater at each height (:mod:`fields.physics.iron_floater`); kept per design and poses
+    (the design summary and the coil stage ask for the same gaps)."""
     from fields.physics.iron_floater import _joint
     from fields.physics.iron_newton import incremental_response, newton_sweep
 
-    P = np.atleast_2d(np.asarray(positions_m, dtype=float))
-    n, k = P.shape[0], len(design.coils)
-    I = np.asarray(currents_A, dtype=float).reshape(n, k)
+    P = np.frombuffer(P_bytes, dtype=float).reshape(-1, 3)
+    n = P.shape[0]
+    I = np.frombuffer(I_bytes, dtype=float).reshape(n, k)
     L = np.empty((n, k, k))
     L_lin = np.empty((n, k, k))
     link = np.empty((n, k))

@@ -303,12 +303,13 @@ class _AxisPieces:
     s_grid: np.ndarray
 
 
-def _axis_pieces(design: Design, eq, ax, mplant) -> _AxisPieces:
-    """The single-axis model along the control axis at the hot resistance (cold for the corner)."""
+def _axis_pieces(design: Design, eq, ax, mplant, drv=None, tables=None) -> _AxisPieces:
+    """The single-axis model along the control axis at the hot resistance (cold for the corner);
+    ``drv`` and ``tables`` replace the multi-axis plant's drive and the affine force table."""
     from fields import control as dyn
 
-    drv = _drive(ax, mplant)
-    table, I0, poses, s_grid = _axis_tables(design, eq, ax)
+    drv = _drive(ax, mplant) if drv is None else drv
+    table, I0, poses, s_grid = _axis_tables(design, eq, ax) if tables is None else tables
     name, sensor, gs, gi, unit = _axis_sensor(design, eq, ax, s_grid, poses, I0)
     common = dict(axis_name=ax.name, mass_kg=design.floater.mass_kg, stiffness_N_per_m=ax.stiffness_N_per_m,
                   force_per_ampere_N_per_A=ax.force_per_ampere_N_per_A, inductance_H=drv.inductance_H,
@@ -520,10 +521,6 @@ def run_control(design: Design, out: Path, stability=None, coil=None, switch: st
     reused. ``switch`` chooses the on/off stage ("auto", "low_side", "h_bridge");
     ``with_capture`` False skips the releases, capture region and on/off study (quick check).
     """
-    if design.floater.soft_iron:
-        raise SolverError("control: not modelled for soft-iron floaters yet (the control layer's force model is "
-                          "affine in the current, while the pull on induced iron grows with the current's square); "
-                          "use k_z and k_i at the hover current from stability.json and curves.json")
     from fields.io.export import write_json
     from fields.studies.stages.control_multi import multiaxis_data, multiaxis_study, write_multiaxis_files
     from fields.studies.stages.control_switch import switch_study
@@ -545,6 +542,10 @@ def run_control(design: Design, out: Path, stability=None, coil=None, switch: st
                 raise
             return _refused_result(design, out, {"reasons": [f"mode '{ref['mode']}': {ref['why']}"], "fix": [ref["fix"]],
                                                  "modes": [ref["mode"]], "detail": ref["operating_point_error"]}, None)
+    if design.floater.soft_iron:
+        from fields.studies.stages.control_iron import soft_iron_control
+
+        return soft_iron_control(design, out, stability, coil, switch, with_capture)
     eq = stability.equilibrium_point
     L = None if coil is None else np.asarray(coil.inductance_matrix_H, float)
     o = multiaxis_study(design, eq, inductance_H=L, with_capture=with_capture)

@@ -83,7 +83,7 @@ def switch_study(design, ax, params, plant, table, sensor, sensor_gain_per_m: fl
 
     axis = sw.SwitchedAxis(mass_kg=float(params.mass_kg), resistance_ohm=R, inductance_H=L, bias_current_A=I0,
                            force_N=lambda s, i: float(table.force_N(s, i)),
-                           force_per_ampere_N_per_A=lambda s: float(table.force_per_ampere_N_per_A(s)),
+                           force_per_ampere_N_per_A=lambda s, i=None: float(table.force_per_ampere_N_per_A(s, i)),
                            sensor=lambda s, i: float(sensor(s, i)), sensor_slope=slope, range_m=table.range_m)
     p = float(plant.unstable_pole_rad_per_s) if plant.unstable_pole_rad_per_s > 0 else float(plant.mechanical_pole_rad_per_s)
     lead = 2.0 / p  # the switching line s + t_lead v: a first-order approach at p/2 (a design choice)

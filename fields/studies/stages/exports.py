@@ -96,8 +96,8 @@ def _saturable_tables(design: Design, g, I, Fgrid, pattern):
         ki[i] = s(I, 1)
         for j, F in enumerate(Fgrid):
             r = [x for x in s.solve(F, extrapolate=False) if I[0] <= x <= I[-1]]
-            if r:
-                Iinv[i, j] = min(r, key=abs)
+            if r:  # the smallest current; of two equal ones (a soft-iron floater's even pull) the positive
+                Iinv[i, j] = min(r, key=lambda x: (round(abs(x), 12), x < 0))
     return Fz, kz, ki, Iinv, eFz, ekz
 
 
@@ -119,9 +119,12 @@ def _spice(design: Design, control, exp: Path) -> list[str]:
     sp = formats.spice_subcircuit(design.name, "hf_plant", t.positions_m, t.F0_N, t.Fk_N_per_A,
                                   prm.resistance_ohm, prm.inductance_H, prm.mass_kg,
                                   prm.gravity_m_per_s2 or 0.0, prm.axis_name,
-                                  inductance_note=("soft-iron core solved by ring cells at the hover current and "
-                                                   "operating gap; the coil datasheet lists L(gap)") if design.cores else
-                                  "air coil")
+                                  inductance_note=("soft-iron floater: the force is the tangent in current at the "
+                                                   "bias current (F0 + I Fk about it), not the full F(s, I); L at the "
+                                                   "operating gap and hover current" if design.floater.soft_iron else
+                                                   "soft-iron core solved by ring cells at the hover current and "
+                                                   "operating gap; the coil datasheet lists L(gap)") if
+                                  (design.cores or design.floater.soft_iron) else "air coil")
     write_atomic(exp / "plant.sub", sp)
     return [str(exp / "plant.sub")]
 
