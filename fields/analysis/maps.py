@@ -10,6 +10,7 @@ from fields.analysis.curves import axial_curves
 from fields.analysis.poses import displace, pose_at_gap
 from fields.model.design import Design
 from fields.physics.checks import input_error
+from fields.physics.parallel import map_chunks
 from fields.physics.wrench import wrench_basis
 
 #: the kinds of map: the second coordinate is a lateral offset along world x (m) or a tilt about
@@ -80,16 +81,27 @@ def pose_map(design: Design, kind: str = "lateral", gaps_m=None, coordinate=None
         P[i], Rv[i] = displace(design, pos0[i], rot0[i], dq)
     P = P.reshape(-1, 3)
     Rv = Rv.reshape(-1, 3)
-    F = np.empty_like(P)
-    T = np.empty_like(P)
-    contact = np.empty(len(P), bool)
-    for a in range(0, len(P), chunk):
-        # maps use the plain cap rule: fast, accurate to ~1e-3 within a few mm of a source edge
-        b = (wrench_basis(design, P[a:a + chunk], Rv[a:a + chunk], order="fast", estimate_error=False, near_field=False)
-             if cells else wrench_basis(design, P[a:a + chunk], Rv[a:a + chunk], estimate_error=False, near_field=False))
-        F[a:a + chunk] = b.force(I) if len(I) else b.F0_N
-        T[a:a + chunk] = b.torque(I) if len(I) else b.T0_Nm
-        contact[a:a + chunk] = b.contact
+    def part(sl: slice):
+        Pp, Rp = P[sl], Rv[sl]
+        F = np.empty_like(Pp)
+        T = np.empty_like(Pp)
+        contact = np.empty(len(Pp), bool)
+        for a in range(0, len(Pp), chunk):
+            # maps use the plain cap rule: fast, accurate to ~1e-3 within a few mm of a source edge
+            b = (wrench_basis(design, Pp[a:a + chunk], Rp[a:a + chunk], order="fast", estimate_error=False,
+                              near_field=False)
+                 if cells else wrench_basis(design, Pp[a:a + chunk], Rp[a:a + chunk], estimate_error=False,
+                                            near_field=False))
+            F[a:a + chunk] = b.force(I) if len(I) else b.F0_N
+            T[a:a + chunk] = b.torque(I) if len(I) else b.T0_Nm
+            contact[a:a + chunk] = b.contact
+        return F, T, contact
+
+    # the poses are independent: with cores (a cell solve per pose) split over the cores
+    parts = map_chunks(part, len(P)) if cells else [part(slice(0, len(P)))]
+    F = np.concatenate([p[0] for p in parts])
+    T = np.concatenate([p[1] for p in parts])
+    contact = np.concatenate([p[2] for p in parts])
     F = F.reshape(G, S, 3)
     T = T.reshape(G, S, 3)
     contact = contact.reshape(G, S)

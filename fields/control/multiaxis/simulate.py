@@ -129,8 +129,23 @@ class ForceModel:
         return v[0:3] + currents_A @ Fk, v[3:6] + currents_A @ Tk, Fk, Tk
 
 
+def _basis_parts(design: Design, P, Rv):
+    """The wrench basis at independent sample poses; with cores split over the cores
+    (:func:`fields.physics.parallel.map_chunks`)."""
+    from types import SimpleNamespace
+
+    from fields.physics.parallel import map_chunks
+
+    if not design.cores:
+        return wrench_basis(design, P, Rv, estimate_error=False)
+    parts = map_chunks(lambda sl: wrench_basis(design, P[sl], Rv[sl], estimate_error=False), len(P))
+    cat = lambda name: np.concatenate([getattr(p, name) for p in parts])  # noqa: E731
+    return SimpleNamespace(F0_N=cat("F0_N"), T0_Nm=cat("T0_Nm"), Fk_N_per_A=cat("Fk_N_per_A"),
+                           Tk_Nm_per_A=cat("Tk_Nm_per_A"), contact=cat("contact"))
+
+
 def _raw_columns(design: Design, P, Rv):
-    b = wrench_basis(design, P, Rv, estimate_error=False)
+    b = _basis_parts(design, P, Rv)
     k = len(design.coils)
     cols = [b.F0_N, b.T0_Nm, b.Fk_N_per_A.reshape(len(P), 3 * k), b.Tk_Nm_per_A.reshape(len(P), 3 * k)]
     spans = []
