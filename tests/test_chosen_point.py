@@ -74,3 +74,54 @@ def test_stability_says_how_many_gaps_the_maps_use(tmp_path):
     s = run_stability(d, tmp_path)
     assert s.map_grid.startswith(f"maps on {len(s.maps.lateral.gaps_m)} gaps x {len(s.maps.lateral.coordinate)}")
     assert f"gap_points = {d.study.gap_points}" in s.map_grid
+
+
+TWO_SPHERES = """
+name = "two spheres"
+invented = true
+[[magnets]]
+name = "top"
+shape = "sphere"
+diameter = "10 mm"
+grade = "N42"
+position = ["0 mm", "0 mm", "60 mm"]
+magnetization = [0, 0, 1]
+[floater]
+name = "ball magnet"
+[[floater.magnets]]
+name = "ball"
+shape = "sphere"
+diameter = "6 mm"
+grade = "N42"
+magnetization = [0, 0, 1]
+[study]
+gap_min = "5 mm"
+gap_max = "50 mm"
+operating_gap = "20 mm"
+gap_reference = "top"
+"""
+
+
+def test_unstable_zero_current_balance_without_coils_gets_stiffness_and_verdict():
+    """Two sphere magnets, the lower one hanging: outside a uniformly magnetized sphere the field is
+    exactly a dipole's (Jackson, Classical Electrodynamics, 3rd ed., sec. 5.10), so the pull is the
+    coaxial dipole-dipole force F = 3 mu0 m1 m2 / (2 pi d^4) (ibid. sec. 5.6). The balance is at
+    F = m g and the vertical stiffness there is -4 m g / d (unstable); Earnshaw: the trace vanishes."""
+    from scipy.constants import mu_0
+
+    d = geometry.loads(TWO_SPHERES, "two_spheres.toml")
+    op = operating_point(d)
+    assert op.passive and not op.axially_stable
+    top, ball = d.magnets[0], d.floater.magnets[0]
+    m1 = np.linalg.norm(top.polarization_T) / mu_0 * top.volume_m3
+    m2 = np.linalg.norm(ball.polarization_T) / mu_0 * ball.volume_m3
+    W = d.weight_N
+    dist = (3 * mu_0 * m1 * m2 / (2 * np.pi * W)) ** 0.25
+    eq = op.equilibrium
+    centre_distance = 0.060 - float(eq.position_m[2])
+    assert centre_distance == pytest.approx(dist, rel=1e-6)
+    S = analysis.stiffness_matrix(d, eq.position_m, eq.rotvec_rad, eq.currents_A)
+    assert S.K[2, 2] == pytest.approx(-4 * W / dist, rel=1e-5)
+    assert abs(np.trace(S.K[:3, :3])) < 1e-6 * abs(S.K[2, 2])
+    v = analysis.stability_verdict(d, S)
+    assert v.unstable_count >= 1

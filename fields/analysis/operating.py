@@ -48,6 +48,9 @@ class OperatingPoint:
     chosen : bool
         True: a point the user asked for (:func:`chosen_point`), in general not an equilibrium;
         the residual force and torque say how far from one.
+    axially_stable : bool
+        False only for a zero-current balance that is axially unstable, the operating point of a
+        design without coils that has no stable height (its stiffness and verdict are still given).
     """
 
     equilibrium: analysis.Equilibrium
@@ -60,6 +63,7 @@ class OperatingPoint:
     max_current_A: float
     at_operating_gap: analysis.AxialCurves
     chosen: bool = False
+    axially_stable: bool = True
 
     @property
     def hover_within_limit(self) -> bool:
@@ -80,6 +84,10 @@ def choose_start(design: Design, curves: analysis.AxialCurves, at_gap: analysis.
         return True, float(pick.gap_m), 0.0
     if np.isfinite(ih) and abs(ih) <= limit:
         return False, float(gop), ih
+    if not design.coils:  # nothing can hold it: describe the zero-current balance nearest the operating gap
+        eqs = analysis.axial_equilibria(design, 0.0, curves)
+        if eqs:
+            return True, float(min(eqs, key=lambda e: abs(e.gap_m - gop)).gap_m), 0.0
     raise SolverError(
         f"operating point: the floater cannot hover at the operating gap {gop * 1e3:.4g} mm within "
         f"+-{limit:g} A (needs {ih:.4g} A) and has no stable height at zero current in "
@@ -113,10 +121,11 @@ def operating_point(design: Design, curves: analysis.AxialCurves | None = None) 
     passive, start, drive = choose_start(design, c, one)
     currents = np.zeros(len(design.coils)) if passive else drive * c.pattern
     eq = analysis.find_equilibrium(design, currents, start_gap_m=start)
+    stable = not passive or any(e.stable and abs(e.gap_m - start) <= 1e-12 for e in analysis.axial_equilibria(design, 0.0, c))
     return OperatingPoint(equilibrium=eq, currents_A=currents, passive=passive, axial_gap_m=start,
                           drive_current_A=float(drive), operating_gap_m=float(gop),
                           hover_current_at_operating_gap_A=float(one.hover_current_A[0]),
-                          max_current_A=float(c.max_current_A), at_operating_gap=one)
+                          max_current_A=float(c.max_current_A), at_operating_gap=one, axially_stable=stable)
 
 
 def chosen_point(design: Design, gap_m: float, current_A: float | None = None) -> OperatingPoint:

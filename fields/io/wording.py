@@ -114,6 +114,9 @@ def operating_point_text(op) -> str:
         return (f"chosen point: gap {eq.gap_m * 1e3:.4g} mm, drive current {op.drive_current_A:.4g} A (hover "
                 f"current there {ih:.4g} A); not solved for balance: net force {_vec(eq.residual_force_N)} N, "
                 f"torque {_vec(eq.residual_torque_Nm)} N m")
+    if op.passive and not getattr(op, "axially_stable", True):
+        return (f"zero-current balance at gap {op.axial_gap_m * 1e3:.4g} mm, axially unstable: the design has no coils "
+                "to hold it (the verdict says which axes would need control)")
     if op.passive:
         return (f"passive equilibrium at zero current, gap {op.axial_gap_m * 1e3:.4g} mm (axially stable; "
                 f"holding the operating gap {gop:.4g} mm instead would take {ih:.4g} A)")
