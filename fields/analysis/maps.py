@@ -98,7 +98,7 @@ def pose_map(design: Design, kind: str = "lateral", gaps_m=None, coordinate=None
         return F, T, contact
 
     # the poses are independent: with cores (a cell solve per pose) split over the cores
-    parts = map_chunks(part, len(P)) if cells else [part(slice(0, len(P)))]
+    parts = map_chunks(part, len(P), warm_first=True) if cells else [part(slice(0, len(P)))]
     F = np.concatenate([p[0] for p in parts])
     T = np.concatenate([p[1] for p in parts])
     contact = np.concatenate([p[2] for p in parts])

@@ -246,11 +246,20 @@ def stiffness_versus_gap(design: Design, gaps_m=None, currents_A=None, at_hover:
     P = np.concatenate(Ps)
     Rv = np.concatenate(Rs)
     # an overview across the gap range: the plain cap rule (see fields.analysis.maps.pose_map)
-    if design.cores:  # every pose needs its own iron response: the fast rule and the coarse cell level
-        b = wrench_basis(design, P, Rv, order="fast", estimate_error=False, near_field=False)
+    m = 2 * len(axes)
+    if design.cores:  # every pose needs its own iron response: the fast rule and the coarse cell level;
+        # the gaps' stencils are independent, so whole stencils are split over the cores
+        from types import SimpleNamespace
+
+        from fields.physics.parallel import map_chunks
+
+        parts = map_chunks(lambda sl: wrench_basis(design, P[sl.start * m:sl.stop * m], Rv[sl.start * m:sl.stop * m],
+                                                   order="fast", estimate_error=False, near_field=False),
+                           len(gaps), min_items_per_worker=4)
+        b = SimpleNamespace(**{k: np.concatenate([getattr(p, k) for p in parts])
+                               for k in ("F0_N", "T0_Nm", "Fk_N_per_A", "Tk_Nm_per_A", "contact")})
     else:
         b = wrench_basis(design, P, Rv, estimate_error=False, near_field=False)
-    m = 2 * len(axes)
     F0 = b.F0_N.reshape(len(gaps), m, 3)
     T0 = b.T0_Nm.reshape(len(gaps), m, 3)
     if design.coils:

@@ -282,11 +282,23 @@ def _force(j: _Joint, J: np.ndarray, I: np.ndarray) -> float:
 def floater_iron_forces(design: Design, floater_z_m, currents_A, level: str = "fine",
                         saturable: bool = True) -> FloaterIronForces:
     """Axial force on the on-axis soft-iron floater with its frame origin at heights (g,) (m)
-    for current rows (c, k)."""
-    from fields.physics.iron_newton import newton_sweep
+    for current rows (c, k). Heights are independent (one joint system each, about a second at
+    the fine level): several are split over the cores (:func:`fields.physics.parallel.map_chunks`)."""
+    from fields.physics.parallel import map_chunks
 
     z = np.asarray(floater_z_m, dtype=float).reshape(-1)
     I = np.atleast_2d(np.asarray(currents_A, dtype=float))
+    parts = map_chunks(lambda sl: _forces_at(design, z[sl], I, level, saturable), z.size, min_items_per_worker=2)
+    if len(parts) == 1:
+        return parts[0]
+    cat = lambda name: np.concatenate([getattr(p, name) for p in parts])  # noqa: E731
+    return FloaterIronForces(z, I, cat("Fz_N"), cat("Fz_linear_N"), cat("linkage_Wb"), cat("saturated_cells"))
+
+
+def _forces_at(design: Design, z: np.ndarray, I: np.ndarray, level: str, saturable: bool) -> FloaterIronForces:
+    """:func:`floater_iron_forces` in this process."""
+    from fields.physics.iron_newton import newton_sweep
+
     g, c = z.size, I.shape[0]
     F = np.zeros((g, c))
     Fl = np.zeros((g, c))

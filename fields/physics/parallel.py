@@ -46,17 +46,25 @@ def _run(i: int):
     return _TASK(i)  # type: ignore[misc]
 
 
-def map_chunks(fn: Callable[[slice], object], n: int, workers: int | None = None) -> list:
+def map_chunks(fn: Callable[[slice], object], n: int, workers: int | None = None,
+               min_items_per_worker: int = MIN_ITEMS_PER_WORKER, warm_first: bool = False) -> list:
     """``[fn(chunk) for chunk in contiguous slices of range(n)]``, the chunks on several processes.
 
     ``fn`` takes a slice of the items and returns a picklable result; it runs in this process for
-    the first chunk and in forked children for the others.
+    the first chunk and in forked children for the others. ``min_items_per_worker``: fewer items
+    per process are not split (lower it for items that cost seconds each). ``warm_first``: the
+    first item alone runs here before the fork (its own chunk), so that caches it builds (e.g. an
+    iron model's harmonic matrices) are built once and inherited.
     """
     global _TASK
     w = worker_count() if workers is None else max(1, int(workers))
-    w = min(w, max(1, n // MIN_ITEMS_PER_WORKER))
+    w = min(w, max(1, n // max(1, int(min_items_per_worker))))
     if w <= 1 or mp.current_process().daemon or "fork" not in mp.get_all_start_methods():
         return [fn(slice(0, n))]
+    if warm_first and n > 1:
+        head = fn(slice(0, 1))
+        return [head] + [r for r in map_chunks(lambda sl: fn(slice(sl.start + 1, sl.stop + 1)), n - 1, w,
+                                                min_items_per_worker)]
     edges = [round(i * n / w) for i in range(w + 1)]
     chunks = [slice(a, b) for a, b in zip(edges[:-1], edges[1:])]
     _TASK = lambda i: fn(chunks[i])  # noqa: E731 - read by the forked children through _run

@@ -388,7 +388,7 @@ def _matrices(M, K, G, L, R, R0, Cq, Di, drive, wc):
 
 def multiaxis_plant(design: Design, equilibrium, drive: str = "voltage",
                     current_loop_bandwidth_rad_per_s: float | None = None, control_rms_current_A=0.0,
-                    inductance_H=None, free_axes=None) -> MultiaxisPlant:
+                    inductance_H=None, free_axes=None, stiffness=None) -> MultiaxisPlant:
     """Linear plant of the floater over its free axes at an equilibrium.
 
     Parameters
@@ -407,6 +407,9 @@ def multiaxis_plant(design: Design, equilibrium, drive: str = "voltage",
         A precomputed inductance matrix (default :func:`fields.devices.inductance.mutual_inductance_matrix`).
     free_axes : tuple of str, optional
         Default the study's free axes.
+    stiffness : Stiffness, optional
+        The 6x6 stiffness at this equilibrium when the caller has it (the stability stage's); used
+        only if its pose and currents are the equilibrium's, else recomputed.
 
     Returns
     -------
@@ -424,7 +427,10 @@ def multiaxis_plant(design: Design, equilibrium, drive: str = "voltage",
     rot = np.asarray(equilibrium.rotvec_rad, float)
     I0 = np.asarray(equilibrium.currents_A, float).reshape(k)
     notes = []
-    S = stiffness_matrix(design, pos, rot, I0)
+    same = (stiffness is not None and np.array_equal(np.asarray(stiffness.position_m, float), pos)
+            and np.array_equal(np.asarray(stiffness.rotvec_rad, float), rot)
+            and np.array_equal(np.asarray(stiffness.currents_A, float).reshape(k), I0))
+    S = stiffness if same else stiffness_matrix(design, pos, rot, I0)
     M6 = mass_matrix(design, rot)
     M = M6[np.ix_(idx, idx)]
     K = S.K[np.ix_(idx, idx)]

@@ -144,6 +144,16 @@ def _basis_parts(design: Design, P, Rv):
                            Tk_Nm_per_A=cat("Tk_Nm_per_A"), contact=cat("contact"))
 
 
+def _hall_parts_split(design: Design, sensor, P, Rv):
+    """:func:`hall_parts` at independent poses; with cores (an iron response per pose) split over the cores."""
+    from fields.physics.parallel import map_chunks
+
+    if not design.cores:
+        return hall_parts(design, sensor, P, Rv)
+    parts = map_chunks(lambda sl: hall_parts(design, sensor, P[sl], Rv[sl]), len(P))
+    return np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts])
+
+
 def _raw_columns(design: Design, P, Rv):
     b = _basis_parts(design, P, Rv)
     k = len(design.coils)
@@ -152,7 +162,7 @@ def _raw_columns(design: Design, P, Rv):
     c0 = 6 + 6 * k
     for s in design.sensors:
         if isinstance(s, HallSensor):
-            z, per_A = hall_parts(design, s, P, Rv)
+            z, per_A = _hall_parts_split(design, s, P, Rv)
             cols += [z[:, None], per_A]
             spans.append((c0, 1 + k))
             c0 += 1 + k

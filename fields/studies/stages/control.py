@@ -548,7 +548,7 @@ def run_control(design: Design, out: Path, stability=None, coil=None, switch: st
         return soft_iron_control(design, out, stability, coil, switch, with_capture)
     eq = stability.equilibrium_point
     L = None if coil is None else np.asarray(coil.inductance_matrix_H, float)
-    o = multiaxis_study(design, eq, inductance_H=L, with_capture=with_capture)
+    o = multiaxis_study(design, eq, inductance_H=L, with_capture=with_capture, stiffness=stability.stiffness)
     ax = analysis.control_axis(design, stability.stiffness)
     pieces = None
     if ax.force_per_ampere_N_per_A != 0:

@@ -68,12 +68,14 @@ def _grid(largest, box: float, floor: float) -> np.ndarray:
     return np.linspace(-reach, reach, GRID_POINTS)
 
 
-def multiaxis_study(design: Design, equilibrium, inductance_H=None, with_capture: bool = True) -> MultiaxisOutcome:
-    """Plant, structure, both controller forms, margins and (when closable) the releases."""
+def multiaxis_study(design: Design, equilibrium, inductance_H=None, with_capture: bool = True,
+                    stiffness=None) -> MultiaxisOutcome:
+    """Plant, structure, both controller forms, margins and (when closable) the releases.
+    ``stiffness``: the 6x6 stiffness at the equilibrium when the caller has it (computed once)."""
     from fields.control import multiaxis as mx
     from fields.control.multiaxis.capture import capture_region, largest_offset
 
-    plant = mx.multiaxis_plant(design, equilibrium, inductance_H=inductance_H)
+    plant = mx.multiaxis_plant(design, equilibrium, inductance_H=inductance_H, stiffness=stiffness)
     report = mx.check_structure(plant, design)
     if report.status == "refused":
         return MultiaxisOutcome(plant, report, refusal="; ".join(report.reasons))
@@ -84,7 +86,7 @@ def multiaxis_study(design: Design, equilibrium, inductance_H=None, with_capture
     lm = mx.mimo_margins(plant, report, lqg)
     wc = min(CURRENT_LOOP_MULTIPLE * sr.fastest_growth_rate_per_s, 0.3 * math.pi * sr.rate_Hz)
     pdp = mx.multiaxis_plant(design, equilibrium, drive="current_loop", current_loop_bandwidth_rad_per_s=wc,
-                             inductance_H=plant.inductance_H)
+                             inductance_H=plant.inductance_H, stiffness=stiffness)
     pd = pm = refusal = None
     try:
         rp = mx.check_structure(pdp, design)
