@@ -12,7 +12,11 @@ Compared in the same run:
 - timings: the 131-gap curve family with the core, one general (offset and tilted) pose, the
   operating point's hover current, k_i and forces against the FE data.
 
-Run: ``OPENBLAS_NUM_THREADS=1 PYTHONPATH=. python benchmarks/bench_iron.py`` (about a minute).
+- the steel-ball rig of the FE reference (a soft-iron floater): the joint cell solve of core and
+  ball against the stored FE forces at every gap and current (deep saturation included), its
+  timing per height, and the FE route's time per gap.
+
+Run: ``OPENBLAS_NUM_THREADS=1 PYTHONPATH=. python benchmarks/bench_iron.py`` (a few minutes).
 Prints markdown tables.
 """
 
@@ -146,5 +150,46 @@ def main():
               f"{s_u[i]:.5g} ({(s_u[i] / s_fe[i] - 1) * 100:+.1f} %) |")
 
 
+def steel_ball():
+    """The steel-ball rig: the joint cell solve against the FE data, and timings."""
+    from fe_reference.cases import sphere_case
+    from fe_reference.make import SPEC
+    from fe_reference.material import FrohlichKennelly
+    from fe_reference.solver import Model
+    from test_soft_iron import _ball_z, _rig
+
+    from fields.physics.iron_floater import floater_iron_family, floater_iron_forces
+
+    ref = reference("sphere")
+    d = _rig()
+    gaps = np.array(ref["gaps_m"])
+    cur = np.array(ref["currents_A"])[:, None]
+    t0 = time.perf_counter()
+    fine = floater_iron_forces(d, _ball_z(gaps), cur, "fine")
+    t_fine = time.perf_counter() - t0
+    coarse = floater_iron_forces(d, _ball_z(gaps), cur, "coarse")
+    F = np.array(ref["Fz_N"])
+    err = np.abs(fine.Fz_N - F) / F
+    bound = np.abs(fine.Fz_N - F) / (np.abs(fine.Fz_N - coarse.Fz_N) + np.array(ref["Fz_error_N"]))
+    g = np.linspace(gaps.min(), gaps.max(), 131)
+    t0 = time.perf_counter()
+    floater_iron_family(d, _ball_z(g), g, np.array([[0.0], [0.5], [1.0], [2.0], [4.0]]))
+    t_fam = time.perf_counter() - t0
+    mat = FrohlichKennelly(ref["bh"]["mu_r"], ref["bh"]["Js_T"])
+    t0 = time.perf_counter()
+    m = Model(sphere_case(0.01, mat, mat), 0, SPEC)
+    m.forces_N(m.solve([1.0]).A)
+    t_fe = time.perf_counter() - t0
+    print("\n## Steel-ball rig (soft-iron floater), against the FE reference\n")
+    print("| what | value |\n|---|---|")
+    print(f"| joint cell solve, max error / FE force (7 gaps x 5 currents, 0.25-4 A) | {err.max() * 100:.2f} % |")
+    print(f"| max actual error / (fine - coarse estimate + FE's own), up to 2 A / at 4 A | "
+          f"{bound[:, :4].max():.2f} / {bound[:, 4].max():.2f} |")
+    print(f"| joint cell solve, fine level, per height (5 currents, saturable; both cores) | {t_fine / gaps.size:.2f} s |")
+    print(f"| 131-gap family, 5 currents, both levels (9 Chebyshev heights in log gap) | {t_fam:.1f} s |")
+    print(f"| FE route (tests/fe_reference, coarse mesh), one gap and current | {t_fe:.1f} s |")
+
+
 if __name__ == "__main__":
     main()
+    steel_ball()

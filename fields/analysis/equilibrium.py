@@ -66,6 +66,8 @@ def axial_equilibria(design: Design, current_A: float, curves: AxialCurves | Non
         F, _, _ = _force_torque(design, p, r, current_A * d if len(d) else np.zeros(0), estimate_error=False)
         return float(F[0] @ up) - c.weight_N
 
+    if design.floater.soft_iron:
+        return _equilibria_from_family(c, F, current_A)
     for i in range(len(F) - 1):
         a, bb = F[i], F[i + 1]
         if not (np.isfinite(a) and np.isfinite(bb)):
@@ -86,6 +88,27 @@ def axial_equilibria(design: Design, current_A: float, curves: AxialCurves | Non
         kz = -central_difference(Fs[0], Fs[1], hgt)
         out.append(Equilibrium1D(gap_m=float(g0), current_A=float(current_A), kz_N_per_m=float(kz), stable=bool(kz > 0)))
     return out
+
+
+def _equilibria_from_family(c: AxialCurves, F: np.ndarray, current_A: float) -> list[Equilibrium1D]:
+    """Roots of ``F_up - W`` for a soft-iron floater from its family's interpolant (each exact force
+    there costs a joint cell solve, about a second; the family is interpolated to about 1e-7 of the
+    force): a cubic spline in height through the family's gaps, k_z = -dF/dh from it."""
+    from scipy.interpolate import CubicSpline
+
+    ok = np.isfinite(F)
+    h = c.heights_m[ok]
+    o = np.argsort(h)
+    h, Fh, g = h[o], F[ok][o], c.gaps_m[ok][o]
+    if h.size < 4:
+        return []
+    s = CubicSpline(h, Fh)
+    out = []
+    for r in s.solve(0.0, extrapolate=False):
+        gap = float(np.interp(r, h, g))
+        kz = -float(s(r, 1))
+        out.append(Equilibrium1D(gap_m=gap, current_A=float(current_A), kz_N_per_m=kz, stable=bool(kz > 0)))
+    return sorted(out, key=lambda e: e.gap_m)
 
 
 @dataclass(frozen=True)
