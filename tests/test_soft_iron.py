@@ -169,3 +169,16 @@ def test_steel_ball_example_gets_a_single_axis_controller(tmp_path):
     assert float(t.force_N(0.0, I0)) == pytest.approx(d.weight_N, rel=1e-5)
     assert r.params.force_per_ampere_N_per_A == pytest.approx(float(t.force_per_ampere_N_per_A(0.0, I0)), rel=2e-3)
     assert r.params.stiffness_N_per_m == pytest.approx(float(t.stiffness_N_per_m(0.0, I0)), rel=2e-3)
+
+
+def test_hall_sensor_and_studies_are_refused_for_a_soft_iron_floater(tmp_path):
+    """Named refusals instead of silently wrong numbers: a Hall sensor would miss the ball's induced
+    field, and sweeps/tolerance/sizing use the force basis affine in current."""
+    from fields.studies.evaluate import evaluate_design
+
+    hall = RIG.replace("[study]", '[[sensors]]\ntype = "hall"\nname = "h"\nposition = ["20 mm", "0 mm", "-3 mm"]\n'
+                                  'axis = [0, 0, 1]\nrange = "100 mT"\n\n[study]')
+    with pytest.raises(GeometryError, match=r"rig.toml: sensors\[0\].type: .*must be a beam gate"):
+        _rig(hall)
+    with pytest.raises(GeometryError, match=r"floater.soft_iron: the floater of a sweep.*must be made of magnets"):
+        evaluate_design(_rig())

@@ -129,6 +129,7 @@ class Verdict:
     mass_matrix: np.ndarray
     free_axes: tuple[str, ...]
     iron: bool = False
+    coils: bool = True
 
 
 def mass_matrix(design: Design, rotvec_rad) -> np.ndarray:
@@ -223,4 +224,4 @@ def stability_verdict(design: Design, stiff: Stiffness, free_axes=None) -> Verdi
     tr, rel = stiff.earnshaw_residual()
     return Verdict(modes=tuple(modes), unstable_count=unstable_axes, earnshaw_trace_N_per_m=tr, earnshaw_residual=rel,
                    stiffness=stiff, mass_matrix=mass_matrix(design, stiff.rotvec_rad), free_axes=free,
-                   iron=bool(design.cores) or bool(design.floater.soft_iron))
+                   iron=bool(design.cores) or bool(design.floater.soft_iron), coils=bool(design.coils))

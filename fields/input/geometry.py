@@ -444,6 +444,11 @@ def loads(text: str, file: str = "<string>", base_dir: str | Path = ".", check_o
         raise GeometryError(f"{file}: floater", "a design", "given a [floater] section with at least one [[floater.magnets]]", "none")
     floater = _floater(root.sub("floater"), base)
     sensors = tuple(_sensor(s, i) for i, s in enumerate(root.array("sensors")))
+    for i, s in enumerate(sensors):
+        if floater.soft_iron and s.kind == "hall":
+            raise GeometryError(f"{file}: sensors[{i}].type", "a sensor beside a soft-iron floater",
+                                "a beam gate (the field of the floater's induced magnetization at a Hall sensor is "
+                                "not modelled yet)", "hall")
     # names must be unique (they key outputs and the gap reference)
     seen: dict[str, str] = {}
     for kind, objs in (("coils", coils), ("cores", cores), ("magnets", magnets), ("sensors", sensors)):

@@ -33,7 +33,7 @@ def safety_text() -> str:
 # stability
 
 
-def mode_text(mode) -> str:
+def mode_text(mode, coils: bool = True) -> str:
     """One line for a stability mode (:class:`fields.analysis.Mode`): name, stable or not,
     stiffness with its unit, natural frequency or growth time."""
     from fields.io.numbers import fmt
@@ -51,15 +51,16 @@ def mode_text(mode) -> str:
     if mode.stable:
         f = f", {mode.frequency_Hz:.3g} Hz" if mode.frequency_Hz else ""
         return f"{name}: stable, {k}{f}"
-    t = (f", grows with time constant {mode.growth_time_s * 1e3:.3g} ms (the floater alone at a held current, "
-         "1/sqrt(-k/m); the control plant's time constant adds the coil)") if mode.growth_time_s else ""
+    why = ("the floater alone at a held current, 1/sqrt(-k/m); the control plant's time constant adds the coil"
+           if coils else "1/sqrt(-k/m); the design has no coils to hold it")
+    t = f", grows with time constant {mode.growth_time_s * 1e3:.3g} ms ({why})" if mode.growth_time_s else ""
     return f"{name}: unstable, needs feedback, {k}{t}"
 
 
 def verdict_lines(verdict) -> list[str]:
     """The verdict (:class:`fields.analysis.Verdict`) as lines: every mode, the count of
     axes needing control, the Earnshaw trace check (Earnshaw 1842)."""
-    out = [mode_text(m) for m in verdict.modes]
+    out = [mode_text(m, getattr(verdict, 'coils', True)) for m in verdict.modes]
     out.append(f"axes needing active control: {verdict.unstable_count}")
     why = ("not expected to vanish: induced iron magnetization (cores, a soft-iron floater) follows the pose" if verdict.iron
            else "vanishes for rigid magnets in iron-free fields (Earnshaw)")

@@ -127,6 +127,17 @@ def _coil_heat_columns(design: Design, drive_current_A: float) -> dict[str, Any]
             "coil_voltage_V": V_max, "voltage_headroom_V": supply - V_max, "supply_short": V_max > supply}
 
 
+def check_affine_floater(design: Design, what: str) -> None:
+    """Refuse a soft-iron floater with a one-line error: these studies use the force basis that is
+    affine in current (:func:`fields.physics.wrench.wrench_basis`)."""
+    if design.floater.soft_iron:
+        from fields.errors import GeometryError
+
+        raise GeometryError(f"{design.source}: floater.soft_iron", f"the floater of {what}",
+                            "made of magnets (the pull on a soft-iron floater is not affine in current; these studies "
+                            "do not take it yet: use report, curves, stability and control)", "soft iron")
+
+
 def evaluate_design(design: Design) -> dict:
     """Operating point, stiffness, stability, coil heat and payload envelope of one design.
 
@@ -161,6 +172,7 @@ def evaluate_design(design: Design) -> dict:
     - Payload envelope: masses whose weight the force ``F0 +- |k_i| I_max`` can hold at the
       operating gap, as in :func:`fields.analysis.axial_curves`.
     """
+    check_affine_floater(design, "a sweep, tolerance study or sizing")
     from fields import analysis
 
     gop = float(design.study.operating_gap_m)

@@ -127,6 +127,10 @@ def run_sweep(base_path, sweep_path, out_dir, workers: int | None = None, schedu
     """
     t0 = time.perf_counter()
     spec = load_sweep(sweep_path, base_path)
+    from fields.input.geometry import load as load_design
+    from fields.studies.evaluate import check_affine_floater
+
+    check_affine_floater(load_design(base_path), "a sweep")
     out = Path(out_dir)
     _check_out_dir(spec, sweep_path, out)
     chunk_dir = out / "sweep_chunks"

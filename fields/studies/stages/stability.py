@@ -196,7 +196,7 @@ def run_stability(design: Design, out: Path, curves: analysis.AxialCurves | None
                                        eq.residual_torque_Nm, tuple(eq.free_axes)),
         stiffness_matrix=S.K, stiffness_error=S.error, stiffness_error_max=float(np.max(S.error)),
         step_rule=wording.step_rule_text(S.step_length_m, S.step_angle_rad),
-        modes=tuple(ModeRow(wording.mode_name(m), m.stable, m.stiffness, m.unit, m.frequency_Hz, m.growth_time_s, wording.mode_text(m))
+        modes=tuple(ModeRow(wording.mode_name(m), m.stable, m.stiffness, m.unit, m.frequency_Hz, m.growth_time_s, wording.mode_text(m, v.coils))
                     for m in v.modes),
         verdict_lines=tuple(wording.verdict_lines(v)), unstable_count=v.unstable_count,
         earnshaw_trace_N_per_m=v.earnshaw_trace_N_per_m, earnshaw_residual=v.earnshaw_residual,
