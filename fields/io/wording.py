@@ -221,17 +221,19 @@ def _axes_name(kind, axes) -> str:
     return "spin about vertical"
 
 
-def verdict_notes(verdict) -> tuple[str, ...]:
+def verdict_notes(verdict, ball: bool = False) -> tuple[str, ...]:
     """Warnings about neutral modes of a verdict that a reader must act on.
 
     The spin about the vertical is neutral for every round (axisymmetric) design, by symmetry,
     and harmless: the verdict lines say so, and it is no warning. A neutral sideways, tilt or
-    vertical mode is: nothing holds the floater along it.
+    vertical mode is: nothing holds the floater along it. For a soft-iron ball (``ball``) every
+    rotation turns it into itself: its neutral tilt is no warning either.
     """
     from fields.analysis.verdict import ModeKind
 
+    skip = (ModeKind.SPIN, ModeKind.TILT) if ball else (ModeKind.SPIN,)
     return tuple(f"{mode_name(m)}: neutral (no restoring stiffness; it may drift slowly)"
-                 for m in verdict.modes if m.neutral and m.kind is not ModeKind.SPIN)
+                 for m in verdict.modes if m.neutral and m.kind not in skip)
 
 
 def saturation_sentences(curves) -> list[str]:

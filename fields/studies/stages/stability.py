@@ -202,7 +202,8 @@ def run_stability(design: Design, out: Path, curves: analysis.AxialCurves | None
         earnshaw_trace_N_per_m=v.earnshaw_trace_N_per_m, earnshaw_residual=v.earnshaw_residual,
         earnshaw_note=(wording_files.soft_iron_earnshaw_note() if design.floater.soft_iron
                        else wording.earnshaw_note(bool(design.cores))),
-        notes=tuple(wording.verdict_notes(v)) + (wording_files.soft_iron_notes() if design.floater.soft_iron else ()),
+        notes=(tuple(wording.verdict_notes(v, ball=bool(design.floater.soft_iron)))
+               + (wording_files.soft_iron_notes() if design.floater.soft_iron else ())),
         allocation=alloc,
         passively_centred_fraction_lateral=float(maps.lateral.passively_centred.mean()) if maps else None,
         passively_centred_fraction_tilt=float(maps.tilt.passively_centred.mean()) if maps else None,
