@@ -45,9 +45,23 @@ class PoseMap:
 CORE_MAP_GRID = (17, 13)
 
 
+def map_gaps(design: Design) -> np.ndarray:
+    """The default gap grid of :func:`pose_map` (m)."""
+    st = design.study
+    return np.linspace(st.gap_min_m, st.gap_max_m, CORE_MAP_GRID[0] if design.cores else 50)
+
+
+def holding_curves(design: Design, gaps_m):
+    """The axial curves :func:`pose_map` judges vertical authority by (the coils' current range
+    holds the weight), at the map's gaps: pass them to several maps of one gap grid."""
+    return axial_curves(design, gaps_m=np.asarray(gaps_m, float), currents_A=[0.0], near_field=False)
+
+
 def pose_map(design: Design, kind: str = "lateral", gaps_m=None, coordinate=None, currents_A=None,
-             chunk: int = 4096) -> PoseMap:
+             chunk: int = 4096, hold_curves=None) -> PoseMap:
     """Force/torque maps versus gap and lateral offset (``kind="lateral"``) or tilt (``"tilt"``).
+
+    ``hold_curves``: :func:`holding_curves` at these gaps when the caller has them (several maps).
 
     Maps use the plain cap rule (no near-field grading): fast, accurate to about 1e-3 within a
     few mm of a source edge. With soft-iron cores (cell solve) the default grid is
@@ -59,8 +73,8 @@ def pose_map(design: Design, kind: str = "lateral", gaps_m=None, coordinate=None
         raise input_error("pose_map", "kind", "'lateral' or 'tilt'", kind)
     st = design.study
     cells = bool(design.cores)
-    ng, ns = CORE_MAP_GRID if cells else (50, None)
-    gaps = np.linspace(st.gap_min_m, st.gap_max_m, ng) if gaps_m is None else np.asarray(gaps_m, float)
+    ns = CORE_MAP_GRID[1] if cells else None
+    gaps = map_gaps(design) if gaps_m is None else np.asarray(gaps_m, float)
     if coordinate is None:
         if kind == "lateral":
             coordinate = np.linspace(-st.lateral_span_m, st.lateral_span_m, ns or st.lateral_points)
@@ -121,7 +135,9 @@ def pose_map(design: Design, kind: str = "lateral", gaps_m=None, coordinate=None
     curves = None
     holdable = np.ones(G, bool)
     if design.coils:
-        curves = axial_curves(design, gaps_m=gaps, currents_A=[0.0], near_field=False)
+        curves = holding_curves(design, gaps) if hold_curves is None else hold_curves
+        if len(curves.gaps_m) != G or not np.allclose(curves.gaps_m, gaps, rtol=0, atol=1e-12):
+            raise input_error("pose_map", "hold_curves", "curves at the map's gaps", f"{len(curves.gaps_m)} gaps")
         holdable = (curves.max_total_mass_kg * design.gravity_magnitude >= W) & (curves.min_total_mass_kg * design.gravity_magnitude <= W)
     else:
         Fz = F[..., :] @ up

@@ -25,7 +25,7 @@ from fields.analysis.stencil import (
 )
 from fields.model.design import Design
 from fields.physics.levels import coarser_level
-from fields.physics.wrench import wrench_basis
+from fields.physics.wrench import concat_bases, wrench_basis
 
 
 @dataclass(frozen=True)
@@ -249,15 +249,12 @@ def stiffness_versus_gap(design: Design, gaps_m=None, currents_A=None, at_hover:
     m = 2 * len(axes)
     if design.cores:  # every pose needs its own iron response: the fast rule and the coarse cell level;
         # the gaps' stencils are independent, so whole stencils are split over the cores
-        from types import SimpleNamespace
-
         from fields.physics.parallel import map_chunks
 
         parts = map_chunks(lambda sl: wrench_basis(design, P[sl.start * m:sl.stop * m], Rv[sl.start * m:sl.stop * m],
                                                    order="fast", estimate_error=False, near_field=False),
                            len(gaps), min_items_per_worker=4)
-        b = SimpleNamespace(**{k: np.concatenate([getattr(p, k) for p in parts])
-                               for k in ("F0_N", "T0_Nm", "Fk_N_per_A", "Tk_Nm_per_A", "contact")})
+        b = concat_bases(parts)
     else:
         b = wrench_basis(design, P, Rv, estimate_error=False, near_field=False)
     F0 = b.F0_N.reshape(len(gaps), m, 3)

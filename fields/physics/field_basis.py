@@ -94,7 +94,7 @@ class FieldBasis:
 
 def fixed_field_basis(design: Design, points_m, floater_positions_m, floater_rotvecs_rad,
                       layers: int = 8, core_order: int = 8, grade_within: float = LAYER_GRADE_WITHIN,
-                      core_model: str = "cells") -> FieldBasis:
+                      core_model: str = "cells", iron_level: str = FIELD_IRON_LEVEL) -> FieldBasis:
     """Field of the fixed sources at observers of n poses, split by linearity in current.
 
     Parameters
@@ -114,6 +114,8 @@ def fixed_field_basis(design: Design, points_m, floater_positions_m, floater_rot
         ``"cells"`` (the ring-cell solve; observers must keep clear of the cores by about a cell)
         or ``"uniform"`` (uniformly magnetized cores, for comparison). With cells the coils'
         fields use the cell model's own layer count.
+    iron_level : str
+        Cell level of the ring-cell solve (default ``"fine"``; ``"coarse"`` for overviews).
 
     Returns
     -------
@@ -124,7 +126,7 @@ def fixed_field_basis(design: Design, points_m, floater_positions_m, floater_rot
     if pts.ndim == 2:
         pts = pts[None]
     if design.cores and core_model == "cells":
-        return cell_field_basis(design, pts, floater_positions_m, floater_rotvecs_rad)
+        return cell_field_basis(design, pts, floater_positions_m, floater_rotvecs_rad, iron_level)
     n, q = pts.shape[:2]
     flat = pts.reshape(-1, 3)
     k = len(design.coils)

@@ -49,6 +49,7 @@ from scipy import linalg
 from fields.errors import InputError
 from fields.physics.bh import field_and_inverse_tensor
 from fields.physics.iron import IronModel
+from fields.physics.parallel import map_chunks
 from fields.physics.iron_toroidal import (
     fan_rule,
     quad_rule,
@@ -185,39 +186,57 @@ def _element_kernel_matrices(el: _Elements, mmax: int) -> np.ndarray:
     K = np.zeros((mmax + 1, E, E))
     near, mid, far = _pair_classes(el)
     kinds = (np.arange(c), np.arange(c, E))
-    # tensor rules for mid and far pairs, block by element kind
+    # tensor rules for mid and far pairs, block by element kind; the pairs are independent, so
+    # each block's pair list is split over the cores (fields.physics.parallel)
     for mask, order in ((far, FAR_ORDER), (mid, MID_ORDER)):
         rules = [_element_rule(el, k, order) for k in kinds]
         for ia, ka in enumerate(kinds):
             pa, wa = rules[ia]
             for ib, kb in enumerate(kinds):
                 pb, wb = rules[ib]
-                sub = mask[np.ix_(ka, kb)]
-                I, J = np.nonzero(sub)
-                for s in range(0, I.size, 4000):
-                    i, j = I[s:s + 4000], J[s:s + 4000]
-                    g = ring_kernel(pa[i][:, :, None, 0], pa[i][:, :, None, 1], pb[j][:, None, :, 0],
-                                    pb[j][:, None, :, 1], mmax)
-                    K[:, ka[i], kb[j]] = np.einsum("mpab,pa,pb->mp", g, wa[i], wb[j])
-    # near pairs (both orders): outer Gauss rule, inner rule around each outer point
+                I, J = np.nonzero(mask[np.ix_(ka, kb)])
+
+                def pairs(sl, I=I, J=J, pa=pa, wa=wa, pb=pb, wb=wb):
+                    out = np.empty((mmax + 1, sl.stop - sl.start))
+                    for s in range(sl.start, sl.stop, 4000):
+                        i, j = I[s:min(s + 4000, sl.stop)], J[s:min(s + 4000, sl.stop)]
+                        g = ring_kernel(pa[i][:, :, None, 0], pa[i][:, :, None, 1], pb[j][:, None, :, 0],
+                                        pb[j][:, None, :, 1], mmax)
+                        out[:, s - sl.start:s - sl.start + i.size] = np.einsum("mpab,pa,pb->mp", g, wa[i], wb[j])
+                    return out
+
+                if I.size:
+                    K[:, ka[I], kb[J]] = np.concatenate(map_chunks(pairs, I.size, min_items_per_worker=4000), axis=1)
+    # near pairs (both orders): outer Gauss rule, inner rule around each outer point; split by
+    # column over the cores
     outer = [_element_rule(el, k, NEAR_OUTER, NEAR_GRADED) for k in kinds]
-    for b in range(E):
-        A = np.nonzero(near[:, b])[0]
-        for ka_i, ka in enumerate(kinds):
-            a = A[np.isin(A, ka)]
-            if a.size == 0:
-                continue
-            pa, wa = outer[ka_i]
-            loc = a - (0 if ka_i == 0 else c)
-            X = pa[loc].reshape(-1, 2)
-            W = wa[loc].reshape(-1)
-            if b < c:
-                Y, Wy = fan_rule(X, el.polys[b], NEAR_INNER)
-            else:
-                Y, Wy = split_segment_rule(X, el.s0[b - c], el.s1[b - c], NEAR_INNER)
-            g = ring_kernel(X[:, None, 0], X[:, None, 1], Y[..., 0], Y[..., 1], mmax)
-            inner = np.einsum("mpy,py->mp", g, Wy) * W[None]
-            K[:, a, b] = inner.reshape(mmax + 1, a.size, -1).sum(axis=-1)
+
+    order = np.random.default_rng(0).permutation(E)  # cells cost far more than faces: mix them
+
+    def columns(sl):
+        out = []
+        for b in order[sl]:
+            A = np.nonzero(near[:, b])[0]
+            for ka_i, ka in enumerate(kinds):
+                a = A[np.isin(A, ka)]
+                if a.size == 0:
+                    continue
+                pa, wa = outer[ka_i]
+                loc = a - (0 if ka_i == 0 else c)
+                X = pa[loc].reshape(-1, 2)
+                W = wa[loc].reshape(-1)
+                if b < c:
+                    Y, Wy = fan_rule(X, el.polys[b], NEAR_INNER)
+                else:
+                    Y, Wy = split_segment_rule(X, el.s0[b - c], el.s1[b - c], NEAR_INNER)
+                g = ring_kernel(X[:, None, 0], X[:, None, 1], Y[..., 0], Y[..., 1], mmax)
+                inner = np.einsum("mpy,py->mp", g, Wy) * W[None]
+                out.append((a, b, inner.reshape(mmax + 1, a.size, -1).sum(axis=-1)))
+        return out
+
+    for part in map_chunks(columns, E, min_items_per_worker=64):
+        for a, b, v in part:
+            K[:, a, b] = v
     # mirror the tensor-rule triangle; near pairs were done in both orders: average them
     upper = mid | far
     T = np.where(upper[None], K, 0.0)

@@ -11,6 +11,9 @@ caller must not need across chunks: finite-difference stencils stay in one call)
 The number of processes is ``HOVERFIELD_WORKERS`` from the environment, else the CPUs this
 process may use, at most :data:`MAX_WORKERS`; 1 runs serially, and so does a call from inside a
 worker process (no nested pools) or where ``fork`` is not available.
+
+:func:`background` runs a whole independent task (a report stage) in one forked process while
+this one goes on; inside it every split runs serially (one extra process, not a second pool).
 """
 
 from __future__ import annotations
@@ -25,10 +28,14 @@ MAX_WORKERS = 8
 MIN_ITEMS_PER_WORKER = 16
 
 _TASK: Callable | None = None
+#: set in a process started by :func:`background`: its splits run serially
+_IN_BACKGROUND = False
 
 
 def worker_count() -> int:
     """Processes a split may use (see the module notes)."""
+    if _IN_BACKGROUND:
+        return 1
     env = os.environ.get("HOVERFIELD_WORKERS")
     if env:
         try:
@@ -75,3 +82,72 @@ def map_chunks(fn: Callable[[slice], object], n: int, workers: int | None = None
             return [first] + [p.get() for p in pending]
     finally:
         _TASK = None
+
+
+class Pending:
+    """The outcome of a :func:`background` task: :meth:`get` waits for it."""
+
+    def __init__(self, fn: Callable[[], object]) -> None:
+        self._fn = fn
+        self._proc = self._conn = None
+        self._done = False
+        self._value = None
+        if worker_count() > 1 and not mp.current_process().daemon and "fork" in mp.get_all_start_methods():
+            ctx = mp.get_context("fork")
+            self._conn, child = ctx.Pipe(duplex=False)
+            self._proc = ctx.Process(target=_background_main, args=(fn, child), daemon=False)
+            self._proc.start()
+            child.close()
+
+    def get(self):
+        """The task's return value; its exception is raised here (a :class:`HoverfieldError` as
+        itself, anything else as a RuntimeError naming the original type and message)."""
+        if not self._done:
+            if self._proc is None:
+                self._value = ("value", self._fn())
+            else:
+                try:
+                    self._value = self._conn.recv()
+                except EOFError:
+                    self._value = ("crash", f"the background process ended without a result (exit code "
+                                            f"{self._proc.exitcode})")
+                self._proc.join()
+                self._conn.close()
+            self._done = True
+        kind, v = self._value
+        if kind == "value":
+            return v
+        if kind == "hoverfield":
+            from fields.errors import HoverfieldError
+
+            raise HoverfieldError(v)
+        raise RuntimeError(v)
+
+
+def _background_main(fn: Callable[[], object], conn) -> None:
+    global _IN_BACKGROUND
+    _IN_BACKGROUND = True
+    try:
+        from fields.errors import HoverfieldError
+
+        try:
+            out = ("value", fn())
+        except HoverfieldError as e:
+            out = ("hoverfield", str(e))
+        except Exception as e:  # noqa: BLE001 - reported to the parent, which records it
+            import traceback
+
+            out = ("error", f"{type(e).__name__}: {e} ({traceback.format_exc(limit=2).splitlines()[-1]})")
+        try:
+            conn.send(out)
+        except Exception as e:  # noqa: BLE001 - an unpicklable result
+            conn.send(("error", f"the result could not be sent back: {type(e).__name__}: {e}"))
+    finally:
+        conn.close()
+
+
+def background(fn: Callable[[], object]) -> Pending:
+    """Start ``fn()`` in a forked process (it inherits every cache built so far) and return at
+    once; :meth:`Pending.get` collects its value. Serial (``fn`` runs at ``get``) where there is
+    one worker, inside a worker, or without ``fork``."""
+    return Pending(fn)

@@ -37,6 +37,7 @@ the iron's face sheets); elsewhere from the charges in the field of
 from __future__ import annotations
 
 from dataclasses import dataclass
+from dataclasses import fields as dataclass_fields
 
 import numpy as np
 from scipy.spatial.transform import Rotation
@@ -109,6 +110,13 @@ class WrenchBasis:
     def torque(self, currents_A) -> np.ndarray:
         """Torque about the centre of mass, (n,3) or (c,n,3) (N m)."""
         return _apply(self.T0_Nm, self.Tk_Nm_per_A, currents_A)
+
+
+def concat_bases(parts) -> WrenchBasis:
+    """One :class:`WrenchBasis` of the poses of several, in order (e.g. chunks evaluated on
+    several processes)."""
+    parts = list(parts)
+    return WrenchBasis(*(np.concatenate([getattr(p, f.name) for p in parts]) for f in dataclass_fields(WrenchBasis)))
 
 
 @dataclass(frozen=True)

@@ -35,11 +35,10 @@ from fields.control.multiaxis.margins import (
 )
 from fields.control.multiaxis.outputs import beam_fraction_at_poses, hall_parts, sensor_readings
 from fields.control.multiaxis.plant import MultiaxisPlant, SensorModel, coil_resistances, multiaxis_plant
+from fields.control.multiaxis.force_model import ForceModel, force_model
 from fields.control.multiaxis.simulate import (
-                                             ForceModel,
                                              MultiaxisSimulation,
                                              default_start,
-                                             force_model,
                                              simulate_multiaxis,
                                              window_samples,
 )

@@ -22,9 +22,11 @@ import numpy as np
 
 from fields.control.multiaxis.design import Regulator
 from fields.control.multiaxis.plant import MultiaxisPlant, jsonable
-from fields.control.multiaxis.simulate import ForceModel, simulate_multiaxis
+from fields.control.multiaxis.force_model import ForceModel
+from fields.control.multiaxis.simulate import simulate_multiaxis
 from fields.control.multiaxis.structure import StructureReport
 from fields.model.design import Design
+from fields.physics.parallel import map_chunks
 
 #: bisection rounds of :func:`largest_offset` (the bracket shrinks by 2^-rounds)
 BISECTION_ROUNDS = 6
@@ -127,19 +129,25 @@ def capture_region(plant: MultiaxisPlant, report: StructureReport, regulator: Re
     ja, jb = (plant.free_axes.index(a) for a in axes)
     oa = np.asarray(offsets_a, float)
     ob = np.asarray(offsets_b, float)
-    held = np.zeros((oa.size, ob.size), bool)
-    peak = np.zeros_like(held, float)
-    satu = np.zeros_like(held, float)
-    fate = np.empty(held.shape, object)
-    for i, a in enumerate(oa):
-        for j, b in enumerate(ob):
+    starts = [(a, b) for a in oa for b in ob]
+
+    def runs(sl: slice) -> list:
+        out = []
+        for a, b in starts[sl]:
             q0 = np.zeros(plant.n_axes)
             q0[ja], q0[jb] = a, b
             run = simulate_multiaxis(plant, report, regulator, model, design, q0=q0, t_end_s=t_end_s, start=start)
-            held[i, j] = run.held
-            peak[i, j] = float(np.max(run.peak_current_A)) if run.peak_current_A.size else 0.0
-            satu[i, j] = run.saturated_share
-            fate[i, j] = _fate(run)
+            out.append((run.held, float(np.max(run.peak_current_A)) if run.peak_current_A.size else 0.0,
+                        run.saturated_share, _fate(run)))
+        return out
+
+    # the starts are independent: both cores (each run costs a fraction of a second)
+    rows = [r for part in map_chunks(runs, len(starts), min_items_per_worker=4) for r in part]
+    shape = (oa.size, ob.size)
+    held = np.array([r[0] for r in rows], bool).reshape(shape)
+    peak = np.array([r[1] for r in rows], float).reshape(shape)
+    satu = np.array([r[2] for r in rows], float).reshape(shape)
+    fate = np.array([r[3] for r in rows], object).reshape(shape)
     return CaptureRegion(tuple(axes), oa, ob, held, peak, satu, fate.astype(str), float(t_end_s), start,
                          dict(model.relative_error))
 

@@ -23,7 +23,7 @@ import numpy as np
 from fields.devices.beam import beam_blocked_fraction
 from fields.model.design import BeamGate, Design, HallSensor
 from fields.physics.checks import input_error
-from fields.physics.field_basis import fixed_field_basis, floater_field_T
+from fields.physics.field_basis import FIELD_IRON_LEVEL, fixed_field_basis, floater_field_T
 
 
 def sensor_unit(sensor) -> str:
@@ -49,8 +49,9 @@ def _axis(sensor: HallSensor) -> np.ndarray:
     return a / n
 
 
-def hall_parts(design: Design, sensor: HallSensor, positions_m, rotvecs_rad):
-    """Field along the Hall axis split by linearity in the currents.
+def hall_parts(design: Design, sensor: HallSensor, positions_m, rotvecs_rad, iron_level: str = FIELD_IRON_LEVEL):
+    """Field along the Hall axis split by linearity in the currents (``iron_level``: the cores'
+    cell level, see :func:`fields.physics.field_basis.fixed_field_basis`).
 
     Returns
     -------
@@ -65,7 +66,7 @@ def hall_parts(design: Design, sensor: HallSensor, positions_m, rotvecs_rad):
     p = np.asarray(sensor.position_m, float).reshape(1, 3)
     pts = np.ascontiguousarray(np.broadcast_to(p, (P.shape[0], 1, 3)))
     Bf = floater_field_T(design, pts, P, Rv)[:, 0, :] @ ax
-    fb = fixed_field_basis(design, pts, P, Rv)
+    fb = fixed_field_basis(design, pts, P, Rv, iron_level=iron_level)
     zero = Bf + fb.B0_T[:, 0, :] @ ax
     per_A = fb.Bk_T_per_A[:, :, 0, :] @ ax
     return zero, per_A

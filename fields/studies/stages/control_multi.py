@@ -14,6 +14,7 @@ from pathlib import Path
 import numpy as np
 
 from fields.model.design import Design
+from fields.physics.parallel import map_chunks
 from fields.studies.stages.common import close_figure, slug
 
 #: capture grid points per axis (odd: the equilibrium is on the grid)
@@ -101,20 +102,31 @@ def multiaxis_study(design: Design, equilibrium, inductance_H=None, with_capture
     if not with_capture:
         return MultiaxisOutcome(plant, report, sr, lqg, lm, pdp, pd, pm, refusal)
     model = mx.force_model(design, plant, span_length_m=BOX_LENGTH_M, span_angle_rad=BOX_ANGLE_RAD)
-    releases = {k: mx.simulate_multiaxis(plant, report, lqg, model, design, q0=q, t_end_s=RELEASE_S)
-                for k, q in _practical_starts(plant, report).items()}
-    releases["vertical 500 um, estimator started at zero"] = mx.simulate_multiaxis(
-        plant, report, lqg, model, design, q0=_practical_starts(plant, report).get("vertical 500 um",
-                                                                                    np.zeros(plant.n_axes)),
-        t_end_s=RELEASE_S, start="zero")
+    starts = _practical_starts(plant, report)
+    vertical = starts.get("vertical 500 um", np.zeros(plant.n_axes))
+    tasks = [(k, plant, lqg, q, "measured") for k, q in starts.items()]
+    tasks.append(("vertical 500 um, estimator started at zero", plant, lqg, vertical, "zero"))
     if pd is not None:
-        releases["vertical 500 um, mode-space PD"] = mx.simulate_multiaxis(
-            pdp, report, pd, model, design, q0=_practical_starts(plant, report).get("vertical 500 um",
-                                                                                     np.zeros(plant.n_axes)),
-            t_end_s=RELEASE_S)
+        tasks.append(("vertical 500 um, mode-space PD", pdp, pd, vertical, "measured"))
     tilt = "ry" if "ry" in plant.free_axes else ("rx" if "rx" in plant.free_axes else None)
-    largest = {a: largest_offset(plant, report, lqg, model, design, a, t_end_s=RELEASE_S)
-               for a in ("x", "z", tilt) if a is not None and a in plant.free_axes}
+    axes = [a for a in ("x", "z", tilt) if a is not None and a in plant.free_axes]
+    # the per-axis bisections (a dozen runs each) and the releases (one run each) are independent:
+    # one process each (the bisections dominate; the operating system shares the two cores)
+    jobs = [("largest", a) for a in axes] + [("releases", None)]
+
+    def run(sl: slice) -> list:
+        out = []
+        for kind, a in jobs[sl]:
+            if kind == "largest":
+                out.append(largest_offset(plant, report, lqg, model, design, a, t_end_s=RELEASE_S))
+            else:
+                out.append([mx.simulate_multiaxis(pl, report, reg, model, design, q0=q, t_end_s=RELEASE_S, start=st)
+                            for _, pl, reg, q, st in tasks])
+        return out
+
+    done = [r for part in map_chunks(run, len(jobs), workers=len(jobs), min_items_per_worker=1) for r in part]
+    releases = {t[0]: r for t, r in zip(tasks, done[-1])}
+    largest = dict(zip(axes, done[:-1]))
     region = None
     if "x" in plant.free_axes and "z" in plant.free_axes:
         region = capture_region(plant, report, lqg, model, design, ("z", "x"),

@@ -79,6 +79,7 @@ class _Runner:
 def _run_stages(design: Design, out: Path, progress: bool) -> _Runner:
     from tqdm import tqdm
 
+    from fields.physics.parallel import background
     from fields.studies.stages.coil import run_coil
     from fields.studies.stages.control import run_control
     from fields.studies.stages.curves import run_curves
@@ -92,9 +93,12 @@ def _run_stages(design: Design, out: Path, progress: bool) -> _Runner:
     r.stage("check", lambda: run_check(design, out))
     r.stage("curves", lambda: run_curves(design, out))
     r.stage("stability", lambda: run_stability(design, out, curves=d["curves"].curves), needs=("curves",))
+    # the sensor stage needs no other stage: it runs in a second process (forked now, so that it
+    # inherits the iron matrices built so far) while coil and control run here
+    sensors = background(lambda: run_sensors(design, out))
     r.stage("coil", lambda: run_coil(design, out, curves=d["curves"], stability=d["stability"]), needs=("curves", "stability"))
-    r.stage("sensors", lambda: run_sensors(design, out))
     r.stage("control", lambda: run_control(design, out, stability=d["stability"], coil=d.get("coil")), needs=("stability",))
+    r.stage("sensors", sensors.get)
     r.stage("exports", lambda: run_exports(design, out, d["curves"], d.get("control")), needs=("curves",))
     bar.close()
     return r

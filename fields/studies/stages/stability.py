@@ -133,8 +133,12 @@ def _maps(design: Design, eq: analysis.Equilibrium, out: Path) -> PoseMaps:
     from fields.io import plots
     from fields.io.export import header_lines, write_csv, write_png
 
-    lat = analysis.pose_map(design, "lateral", currents_A=eq.currents_A)
-    tilt = analysis.pose_map(design, "tilt", currents_A=eq.currents_A)
+    from fields.analysis.maps import holding_curves, map_gaps
+
+    gaps = map_gaps(design)
+    hold = holding_curves(design, gaps) if design.coils else None  # both maps judge the same gaps
+    lat = analysis.pose_map(design, "lateral", gaps_m=gaps, currents_A=eq.currents_A, hold_curves=hold)
+    tilt = analysis.pose_map(design, "tilt", gaps_m=gaps, currents_A=eq.currents_A, hold_curves=hold)
     gs = analysis.stiffness_versus_gap(design)
     write_map(out / "map_lateral.csv", design, lat)
     write_map(out / "map_tilt.csv", design, tilt)
