@@ -362,3 +362,27 @@ def test_repulsive_needs_the_suggested_y_sensor_and_is_then_held():
     d2 = _repulsive_with_y_sensor()
     _, _, run = _held(d2, eq, inductance_H=p.inductance_H)
     assert run.held and all(run.converged_axes.values()) and len(run.converged_axes) == 4
+
+
+@pytest.mark.slow
+def test_force_model_with_cores_has_the_plants_linearization(suspension):
+    """With cores the force model samples the coarse cells but takes the plant's linearization
+    at the centre (its contract, fields.control.multiaxis.force_model): the wrench's pose
+    derivative at the bias currents is -K and the per-ampere wrench is the allocation; its
+    stated error (checked on fine-level poses too) stays below 1 %."""
+    d, eq = suspension
+    p = mx.multiaxis_plant(d, eq)
+    model = mx.force_model(d, p)
+    idx = [analysis.AXES.index(a) for a in p.free_axes]
+    h = 1e-7
+    J = np.zeros((p.n_axes, p.n_axes))
+    for b in range(p.n_axes):
+        dq = np.zeros(p.n_axes)
+        dq[b] = h
+        Fp, Tp, _, _ = model.wrench(dq, p.bias_currents_A)
+        Fm, Tm, _, _ = model.wrench(-dq, p.bias_currents_A)
+        J[:, b] = (np.concatenate([Fp, Tp]) - np.concatenate([Fm, Tm]))[idx] / (2 * h)
+    assert np.max(np.abs(-J - p.stiffness)) <= 1e-7 * np.max(np.abs(p.stiffness))
+    _, _, Fk, Tk = model.wrench(np.zeros(p.n_axes), p.bias_currents_A)
+    assert np.allclose(np.concatenate([Fk, Tk], axis=1).T, p.allocation_all_axes, rtol=0, atol=1e-12)
+    assert model.relative_error["force"] < 1e-2 and model.relative_error["torque"] < 1e-2

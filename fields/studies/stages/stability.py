@@ -174,6 +174,7 @@ def run_stability(design: Design, out: Path, curves: analysis.AxialCurves | None
     from fields.analysis.operating import chosen_point
     from fields.io import wording, wording_files
     from fields.io.export import write_json
+    from fields.physics.parallel import background
 
     out = Path(out)
     if at_gap_m is None and at_current_A is not None:
@@ -182,6 +183,9 @@ def run_stability(design: Design, out: Path, curves: analysis.AxialCurves | None
         raise InputError("stability: a current for the chosen point needs its gap as well")
     op = operating_point(design, curves) if at_gap_m is None else chosen_point(design, at_gap_m, at_current_A)
     eq = op.equilibrium
+    # the maps need only the equilibrium's currents: a second process draws them meanwhile
+    with_maps = with_maps and not design.floater.soft_iron  # off-axis poses: not modelled for soft-iron floaters
+    pending = background(lambda: _maps(design, eq, out)) if with_maps else None
     S = analysis.stiffness_matrix(design, eq.position_m, eq.rotvec_rad, eq.currents_A)
     v = analysis.stability_verdict(design, S)
     _write_stiffness(design, S, out)
@@ -191,8 +195,8 @@ def run_stability(design: Design, out: Path, curves: analysis.AxialCurves | None
         alloc = _allocation(design, eq, out)
         files.append("allocation.csv")
     maps = None
-    if with_maps and not design.floater.soft_iron:  # off-axis poses: not modelled for soft-iron floaters
-        maps = _maps(design, eq, out)
+    if pending is not None:
+        maps = pending.get()
         files += list(MAP_FILES)
     result = StabilityResult(
         operating_point=wording.operating_point_text(op),
