@@ -103,11 +103,13 @@ def control_axis(design: Design, stiff: Stiffness) -> ControlAxis:
     order = [2, 0, 1]
     j = min(order, key=lambda a: (diag[a], order.index(a)))
     direction = np.eye(3)[j]
+    ax = design.axial
     if j == 2:
-        direction = design.up * np.sign(design.up[2]) if design.up[2] != 0 else direction
+        direction = ax * np.sign(ax[2]) if ax[2] != 0 else direction
+    # "vertical" where the axial direction is up (gravity along it); an offset study across gravity: "axial"
+    names = ("sideways x", "sideways y", "vertical" if abs(float(design.up @ ax)) > 1e-12 else "axial")
     if not design.coils:
-        return ControlAxis(("sideways x", "sideways y", "vertical")[j], j, direction, float(diag[j]), 0.0,
-                           np.zeros(0), np.zeros(0))
+        return ControlAxis(names[j], j, direction, float(diag[j]), 0.0, np.zeros(0), np.zeros(0))
     if design.floater.soft_iron:  # induced floater: the incremental force per ampere at the bias currents
         g = _incremental_force_per_ampere(design, stiff) @ direction
     else:
@@ -116,8 +118,7 @@ def control_axis(design: Design, stiff: Stiffness) -> ControlAxis:
     big = np.abs(g) >= 1e-6 * np.abs(g).max() if np.abs(g).max() > 0 else np.zeros_like(g, bool)
     pattern = np.where(big, np.sign(g), 0.0)
     ki = float(g @ pattern)
-    name = {0: "sideways x", 1: "sideways y", 2: "vertical"}[j]
-    return ControlAxis(name, j, direction, float(stiff.K[j, j]), ki, pattern, np.asarray(stiff.currents_A, float))
+    return ControlAxis(names[j], j, direction, float(stiff.K[j, j]), ki, pattern, np.asarray(stiff.currents_A, float))
 
 
 #: current step (A, relative to max(1, |I|)) of the incremental force per ampere of a soft-iron floater

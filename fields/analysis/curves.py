@@ -64,7 +64,10 @@ class AxialCurves:
         incremental value, which differs from ``ki_N_per_A``, the linear iron's force per ampere;
         without cores the two are equal)
     weight_N, max_current_A : float
-        The floater's weight and the drive current limit of the pattern.
+        The force the axial force must balance (the floater's weight; in an offset study the
+        weight's share along the gap direction, zero where gravity acts across it) and the drive
+        current limit of the pattern. "F_up" is the force along :attr:`Design.axial` (up, or
+        the offset study's gap direction).
     pattern : (k,) the drive pattern
     linear_in_current : bool, the force is affine in current (within AFFINE_RTOL) at every gap
     """
@@ -143,7 +146,7 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
     gaps = design.study.gaps() if gaps_m is None else np.asarray(gaps_m, float)
     cur = family_currents(design) if currents_A is None else np.asarray(currents_A, float)
     d = drive_pattern(design, pattern)
-    up = design.up
+    up = design.axial  # up, or the gap direction of an offset study (gravity may act across it)
     pos, rot = pose_at_gap(design, gaps)
     if design.floater.soft_iron:
         return _requested(_iron_curves(design, gaps, np.union1d(cur, family_currents(design)), d, pos, rot), cur)
@@ -172,7 +175,7 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
         err_kz = _kz_bar(design, b, lo, up, d, h, n, cur)
     Fup = F0c[:, None] + fc[:, None] * cur[None, :]
     kz = kz0[:, None] - dki[:, None] * cur[None, :]
-    W = design.weight_N
+    W = design.axial_load_N
     with np.errstate(divide="ignore", invalid="ignore"):
         ih = np.where(fc != 0, (W - F0c) / fc, np.nan)
     imax = design.coils[0].max_current_A if design.coils else 0.0
@@ -182,9 +185,7 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
     within = np.isfinite(ih) & (np.abs(ih) <= ilim * (1 + 1e-12))
     fmax = F0c + np.abs(fc) * ilim
     fmin = F0c - np.abs(fc) * ilim
-    g = design.gravity_magnitude
-    mmax = np.maximum(fmax, 0.0) / g
-    mmin = np.maximum(fmin, 0.0) / g
+    mmax, mmin = _mass_envelope(design, fmax, fmin)
     mag = design.floater.magnet_mass_kg
     contact = np.asarray(b.contact).reshape(-1, n).any(axis=0)
     sat3 = np.asarray(b.core_saturated)
@@ -282,7 +283,7 @@ def _iron_curves(design: Design, gaps, cur, d, pos, rot) -> AxialCurves:
     from fields.physics.contact import CONTACT_CLEARANCE_M, clearance_m
     from fields.physics.iron_family import iron_axial_family
 
-    up = design.up
+    up = design.axial
     uz = float(up[2])
     n = len(gaps)
     clear = clearance_m(design, pos, rot)
@@ -322,7 +323,7 @@ def _iron_curves(design: Design, gaps, cur, d, pos, rot) -> AxialCurves:
     bent = np.abs(nonlin) > AFFINE_RTOL * scale[:, None]
     onset = _onset(cur, np.abs(nonlin) / (AFFINE_RTOL * scale[:, None]))
     onset[contact] = np.nan
-    W = design.weight_N
+    W = design.axial_load_N
     imax = design.coils[0].max_current_A if design.coils else 0.0
     sc = float(np.max(np.abs(d))) if len(d) else 1.0
     ilim = imax / sc if sc > 0 else 0.0
@@ -333,9 +334,7 @@ def _iron_curves(design: Design, gaps, cur, d, pos, rot) -> AxialCurves:
     within = np.isfinite(ih) & (np.abs(ih) <= ilim * (1 + 1e-12))
     fmax = np.array([_force_at(cur, Fup[i], ilim) for i in range(n)]) if n else np.zeros(0)
     fmin = np.array([_force_at(cur, Fup[i], -ilim) for i in range(n)]) if n else np.zeros(0)
-    g = design.gravity_magnitude
-    mmax = np.maximum(fmax, 0.0) / g
-    mmin = np.maximum(fmin, 0.0) / g
+    mmax, mmin = _mass_envelope(design, fmax, fmin)
     mag = design.floater.magnet_mass_kg
     # dki/dh of the affine model: the hover stiffness is then kz0 - I dki/dh; with cores use the
     # family's own k_z at the hover current instead (AxialCurves.kz_at_hover reads this field)
@@ -416,6 +415,18 @@ def _spline(cur, F):
 
     order = np.argsort(cur)
     return CubicSpline(cur[order], F[order]) if cur.size >= 3 else None
+
+
+def _mass_envelope(design: Design, fmax, fmin) -> tuple[np.ndarray, np.ndarray]:
+    """Largest and smallest total floater mass the axial force range holds at each gap (kg); NaN
+    where gravity acts across the axial direction (the axial force then carries no weight)."""
+    share = float(design.up @ design.axial)
+    if abs(share) <= 1e-12:
+        return np.full(np.shape(fmax), np.nan), np.full(np.shape(fmin), np.nan)
+    if share < 0:  # the axial direction points down: an upward force is a negative axial one
+        fmax, fmin = -np.asarray(fmin), -np.asarray(fmax)
+    g = design.gravity_magnitude * abs(share)
+    return np.maximum(fmax, 0.0) / g, np.maximum(fmin, 0.0) / g
 
 
 def _hover(cur, Fup, W):

@@ -59,7 +59,7 @@ def axial_equilibria(design: Design, current_A: float, curves: AxialCurves | Non
         F = c.F0_N + c.ki_N_per_A * current_A - c.weight_N
     F = np.where(c.contact, np.nan, F)
     out = []
-    up = design.up
+    up = design.axial
 
     def resid(gap):
         p, r = pose_at_gap(design, [gap])

@@ -129,19 +129,24 @@ def pose_map(design: Design, kind: str = "lateral", gaps_m=None, coordinate=None
         j0 = int(np.flatnonzero(zero)[0])
         nb = [j for j in (j0 - 1, j0 + 1) if 0 <= j < S]
         restoring[:, j0] = np.all(restoring[:, nb], axis=1)
-    up = design.up
-    W = design.weight_N
-    # vertical authority: can the coils' current range hold the weight at this gap?
-    curves = None
+    ax = design.axial
+    W = design.axial_load_N
+    # axial authority: can the coils' current range balance the axial load (the weight, or zero
+    # where gravity acts across an offset study's gap direction) at this gap?
     holdable = np.ones(G, bool)
     if design.coils:
         curves = holding_curves(design, gaps) if hold_curves is None else hold_curves
         if len(curves.gaps_m) != G or not np.allclose(curves.gaps_m, gaps, rtol=0, atol=1e-12):
             raise input_error("pose_map", "hold_curves", "curves at the map's gaps", f"{len(curves.gaps_m)} gaps")
-        holdable = (curves.max_total_mass_kg * design.gravity_magnitude >= W) & (curves.min_total_mass_kg * design.gravity_magnitude <= W)
+        if np.all(np.isnan(curves.max_total_mass_kg)):  # gravity across the axial direction
+            reach = np.abs(curves.ki_N_per_A) * curves.max_current_A
+            holdable = (curves.F0_N + reach >= W) & (curves.F0_N - reach <= W)
+        else:
+            g = design.gravity_magnitude
+            holdable = (curves.max_total_mass_kg * g >= design.weight_N) & (curves.min_total_mass_kg * g <= design.weight_N)
     else:
-        Fz = F[..., :] @ up
-        holdable = np.any(np.isclose(Fz, W, rtol=0.05), axis=1)
+        Fa = F @ ax
+        holdable = np.any(np.isclose(Fa, W, rtol=0.05, atol=0.05 * design.weight_N * (W == 0.0)), axis=1)
     passive = restoring & holdable[:, None] & ~contact
     return PoseMap(kind=kind, gaps_m=gaps, coordinate=s, coordinate_unit="m" if kind == "lateral" else "rad",
                    force_N=F, torque_Nm=T, restoring=restoring & ~contact, passively_centred=passive,

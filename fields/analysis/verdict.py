@@ -80,6 +80,9 @@ class Mode:
         :data:`COUPLING_SHARE` of the kinetic energy (empty: not coupled).
     coupling_share : float
         Share of the kinetic energy on the other family's axes (largest over a merged group).
+    z_vertical : bool
+        Gravity acts along z (the usual stack): z is "vertical", x and y "sideways"; otherwise
+        (a horizontal shaft, an offset study across gravity) z is "axial" and x, y "radial".
     """
 
     kind: ModeKind
@@ -94,6 +97,7 @@ class Mode:
     diagonal_stiffness: tuple[float, ...] = ()
     coupled_axes: tuple[str, ...] = ()
     coupling_share: float = 0.0
+    z_vertical: bool = True
 
     @property
     def coupled(self) -> bool:
@@ -213,7 +217,7 @@ def stability_verdict(design: Design, stiff: Stiffness, free_axes=None) -> Verdi
             kinds = {MODE_KIND[x] for x in coupled}
             coupled = tuple(x for x in free if MODE_KIND[x] in kinds)
         extra = dict(diagonal_stiffness=tuple(float(stiff.K[AXES.index(x), AXES.index(x)]) for x in axes),
-                     coupled_axes=coupled, coupling_share=float(share))
+                     coupled_axes=coupled, coupling_share=float(share), z_vertical=bool(abs(design.up[2]) > 0.999))
         if neutral:
             modes.append(Mode(kind, axes, True, True, 0.0, unit, None, None, v, **extra))
         elif lam_i > 0:

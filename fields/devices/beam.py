@@ -165,7 +165,7 @@ def _union_area(shapes: list[_Shape], x0, x1, y0, y1, nodes: int = 48, scan: int
 
 
 def _beam_frame(design: Design, sensor: BeamGate):
-    up = design.up
+    up = design.axial  # the beam height runs along the axial direction (up, or an offset study's gap direction)
     d = np.asarray(sensor.direction, dtype=float)
     nd = np.linalg.norm(d)
     if not np.isfinite(nd) or nd == 0:

@@ -37,7 +37,7 @@ def floater_height_span_m(design: Design) -> tuple[float, float]:
     Exact extents (support functions, :meth:`fields.model.solids.Solid.extent_along`); the floater
     moves rigidly along the gap axis, so the extremes are at the two ends of the travel.
     """
-    up = design.up
+    up = design.axial
     lo, hi = np.inf, -np.inf
     floater = [s for s in design_solids(design) if s.on_floater]
     for g in (design.study.gap_min_m, design.study.gap_max_m):
@@ -51,7 +51,7 @@ def floater_height_span_m(design: Design) -> tuple[float, float]:
 
 def _blocking_body(design: Design, gate: BeamGate) -> str:
     """Name of the first fixed body whose bounding extents cross the beam's cross-section, or ""."""
-    up = design.up
+    up = design.axial
     d = np.asarray(gate.direction, dtype=float)
     d = d / np.linalg.norm(d)
     across = np.cross(up, d)

@@ -34,7 +34,7 @@ from fields.input.csvtable import TomlTable as _Table, show_value as _show
 from fields.input.ironparts import iron_law, part_inertia_kg_m2, soft_iron_part
 from fields.input.units import UnitParseError, parse
 from fields.model.clearance import overlapping_pairs
-from fields.model.gap import gap_axis, nearest_reference
+from fields.model.gap import GAP_MODES, gap_axis, nearest_reference
 from fields.model.solids import Solid, coil_solid, core_solid, floater_solids, magnet_solid
 
 # --------------------------------------------------------------------------------------------
@@ -323,17 +323,28 @@ def _study(t: _Table, fixed: tuple[Solid, ...], floater: Floater, file: str, has
             "lateral_span", "lateral_points", "tilt_span", "tilt_points", "gravity", "gravity_direction",
             "supply_voltage", "floater_tilt_axis", "floater_tilt_angle", "floater_lateral_position",
             "free_axes", "ambient_temperature", "convection_coefficient", "sensor_line_start",
-            "sensor_line_end", "sensor_line_points"))
+            "sensor_line_end", "sensor_line_points", "gap_mode", "gap_direction", "offset_origin"))
     g_dir = t.direction("gravity_direction", (0.0, 0.0, -1.0))
     g_mag = t.quantity("gravity", "acceleration", tables.G_STANDARD, positive=True)
     gravity = tuple(float(g_mag * c) for c in g_dir)
     up = -np.asarray(g_dir)
-    gmin = t.quantity("gap_min", "length", positive=True)
-    gmax = t.quantity("gap_max", "length", positive=True)
+    mode = t.string("gap_mode", "clearance", choices=GAP_MODES)
+    offset = mode == "offset"
+    if offset:
+        for key in ("gap_reference", "gap_side", "floater_lateral_position"):
+            if t.has(key):
+                raise t.fail(key, 'absent with gap_mode = "offset" (the floater sits at offset_origin + gap x '
+                                  'gap_direction)', t.data[key])
+    elif t.has("gap_direction") or t.has("offset_origin"):
+        key = "gap_direction" if t.has("gap_direction") else "offset_origin"
+        raise t.fail(key, 'absent unless gap_mode = "offset" (a clearance gap moves along gravity from '
+                          'gap_reference)', t.data[key])
+    gmin = t.quantity("gap_min", "length", positive=not offset)
+    gmax = t.quantity("gap_max", "length", positive=not offset)
     if gmin >= gmax:
         raise t.fail("gap_min", f"smaller than gap_max ({t.data['gap_max']})", t.data["gap_min"])
     npts = int(t.number("gap_points", 101, integer=True, minimum=3, maximum=100000))
-    op = t.quantity("operating_gap", "length", 0.5 * (gmin + gmax), positive=True)
+    op = t.quantity("operating_gap", "length", 0.5 * (gmin + gmax), positive=not offset)
     if not gmin <= op <= gmax:
         raise t.fail("operating_gap", f"inside gap_min..gap_max ({t.data['gap_min']} .. {t.data['gap_max']})", t.data["operating_gap"])
     tilt_rot = (0.0, 0.0, 0.0)
@@ -346,7 +357,11 @@ def _study(t: _Table, fixed: tuple[Solid, ...], floater: Floater, file: str, has
         raise GeometryError(f"{file}: study.gap_reference", "a design", "given at least one fixed body (coil, core or magnet) to measure the gap from", "none")
     names = [s.name for s in fixed]
     floater_solid_list = floater_solids(floater)
-    if t.has("gap_reference"):
+    if offset:
+        origin = np.asarray(t.vector("offset_origin", "length", (0.0, 0.0, 0.0)), dtype=float)
+        direction = np.asarray(t.direction("gap_direction", tuple(float(c) for c in up)), dtype=float)
+        ref = "offset"
+    elif t.has("gap_reference"):
         ref = t.string("gap_reference")
         if ref not in names:
             near = difflib.get_close_matches(ref, names, n=1)
@@ -358,14 +373,16 @@ def _study(t: _Table, fixed: tuple[Solid, ...], floater: Floater, file: str, has
         # the body over (under) the floater whose underside is lowest is the ceiling (suspension
         # designs); the one whose top is highest is the floor (repulsive bases)
         ref = nearest_reference(fixed, floater_solid_list, up, side if side != "auto" else "above", lateral, tilt_rot)
-    if side == "auto":
-        side = "above"
-    try:
-        axis = gap_axis(fixed, floater_solid_list, ref, side, up, lateral, tilt_rot, op)
-    except SolverError as e:
-        raise GeometryError(f"{file}: study.operating_gap", "the floater", f"able to reach the operating gap from "
-                            f"gap_reference \"{ref}\" moving along gravity ({e})", t.data.get("operating_gap", "default")) from None
-    origin, direction = axis.origin_m, axis.direction
+    if not offset:
+        if side == "auto":
+            side = "above"
+        try:
+            axis = gap_axis(fixed, floater_solid_list, ref, side, up, lateral, tilt_rot, op)
+        except SolverError as e:
+            raise GeometryError(f"{file}: study.operating_gap", "the floater", f"able to reach the operating gap from "
+                                f"gap_reference \"{ref}\" moving along gravity ({e})",
+                                t.data.get("operating_gap", "default")) from None
+        origin, direction = axis.origin_m, axis.direction
     currents = ()
     if t.has("currents"):
         v = t.raw("currents")
@@ -402,13 +419,13 @@ def _study(t: _Table, fixed: tuple[Solid, ...], floater: Floater, file: str, has
         floater_rotvec_rad=tilt_rot, free_axes=free,
         ambient_temperature_C=t.quantity("ambient_temperature", "temperature", 25.0),
         convection_W_per_m2K=t.quantity("convection_coefficient", "heat_transfer", 10.0, positive=True),
-        sensor_line=line,
+        sensor_line=line, gap_mode=mode,
     )
     t.done(("gap_min", "gap_max", "gap_points", "operating_gap", "gap_reference", "gap_side", "currents",
             "lateral_span", "lateral_points", "tilt_span", "tilt_points", "gravity", "gravity_direction",
             "supply_voltage", "floater_tilt_axis", "floater_tilt_angle", "floater_lateral_position",
             "free_axes", "ambient_temperature", "convection_coefficient", "sensor_line_start",
-            "sensor_line_end", "sensor_line_points"))
+            "sensor_line_end", "sensor_line_points", "gap_mode", "gap_direction", "offset_origin"))
     return st
 
 

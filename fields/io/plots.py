@@ -21,6 +21,22 @@ KIND_COLOURS = {
 }
 
 
+def _gravity_arrow(ax, g_dir, plane: str) -> None:
+    """Gravity's direction projected on the view's plane ("xz": x right, z up; "xy"), as an arrow
+    in the lower left corner; none where gravity is (nearly) normal to the view."""
+    i, j = (0, 2) if plane == "xz" else (0, 1)
+    v = np.array([g_dir[i], g_dir[j]], float)
+    n = float(np.hypot(*v))
+    if n < 0.2:
+        return
+    v = 0.07 * v / n
+    c = np.array([0.1, 0.18])
+    ax.annotate("", xy=tuple(c + v), xytext=tuple(c - v), xycoords="axes fraction",
+                arrowprops=dict(arrowstyle="->", color="#444444"))
+    side = np.array([abs(v[1]), abs(v[0])]) / 0.07 * 0.035  # beside the arrow, right of or above it
+    ax.text(c[0] + side[0], c[1] + side[1], "g", transform=ax.transAxes, color="#444444", ha="center", va="center")
+
+
 def design_picture(design, gap_m: float | None = None):
     """To-scale side section (plane y = 0) and top view of a design, floater at ``gap_m``.
 
@@ -54,13 +70,11 @@ def design_picture(design, gap_m: float | None = None):
             com = design.study.floater_origin_m(gap)[0] + np.asarray(design.floater.centre_of_mass_m)
             ax.plot(com[0] * 1e3, com[2] * 1e3, "x", color="black", ms=8, label="floater centre of mass (payload included)")
             allpts.append(np.array([[com[0] * 1e3, com[2] * 1e3]]))
-            ax.annotate("", xy=(0.06, 0.12), xytext=(0.06, 0.26), xycoords="axes fraction",
-                        arrowprops=dict(arrowstyle="->", color="#444444"))
-            ax.text(0.075, 0.17, "g", transform=ax.transAxes, color="#444444")
         else:
             for s in design.sensors:
                 if s.kind == "hall":
                     ax.plot(s.position_m[0] * 1e3, s.position_m[1] * 1e3, "k^", ms=7)
+        _gravity_arrow(ax, -design.up, plane)
         if allpts:
             pts = np.concatenate(allpts)
             lo, hi = pts.min(axis=0), pts.max(axis=0)
@@ -72,14 +86,14 @@ def design_picture(design, gap_m: float | None = None):
         ax.set_ylabel("z (mm)" if plane == "xz" else "y (mm)")
         ax.set_title(title)
         ax.grid(True, alpha=0.25)
-    ax1.legend(loc="upper center", bbox_to_anchor=(0.5, -0.11), ncol=3, fontsize=7, frameon=False)
+    ax1.legend(loc="upper center", bbox_to_anchor=(0.5, -0.2), ncol=3, fontsize=7, frameon=False)
     fig.suptitle(f"{design.name}: floater at gap {gap * 1e3:.3g} mm (to scale)"
                  + ("  [invented example]" if design.invented else ""), fontsize=11)
     fig.tight_layout()
     return fig
 
 
-def curve_family(curves, equilibria=(), title: str = ""):
+def curve_family(curves, equilibria=(), title: str = "", gap_label: str = "gap (mm)"):
     """F_up versus gap for each current, the weight line, equilibria (filled: stable, open: unstable)."""
     fig, (ax, ax2) = plt.subplots(2, 1, figsize=(8, 7.5), sharex=True, gridspec_kw={"height_ratios": [2.2, 1]})
     g = curves.gaps_m * 1e3
@@ -88,18 +102,27 @@ def curve_family(curves, equilibria=(), title: str = ""):
     for j, I in enumerate(curves.currents_A):
         F = np.where(curves.contact, np.nan, curves.Fup_N[:, j])
         ax.plot(g, F, color=cmap(j / max(n - 1, 1)), lw=1.6, label=f"I = {I:g} A")
-    ax.axhline(curves.weight_N, color="#b22222", ls="--", lw=1.3, label=f"weight {curves.weight_N:.3g} N")
-    ax.fill_between(g, np.where(curves.contact, np.nan, curves.min_total_mass_kg * curves.weight_N / max(curves.weight_N, 1e-30) * G_STANDARD),
-                    np.where(curves.contact, np.nan, curves.max_total_mass_kg * G_STANDARD), color="#999999", alpha=0.15,
-                    label=f"reach within +-{curves.max_current_A:g} A")
+    across = curves.weight_N == 0.0  # an offset study with gravity across its gap direction
+    ax.axhline(curves.weight_N, color="#b22222", ls="--", lw=1.3,
+               label="balance: zero axial force (gravity acts across the gap direction)" if across
+               else f"weight {curves.weight_N:.3g} N")
+    if curves.max_current_A > 0 and not across:
+        ax.fill_between(g, np.where(curves.contact, np.nan, curves.min_total_mass_kg * G_STANDARD),
+                        np.where(curves.contact, np.nan, curves.max_total_mass_kg * G_STANDARD), color="#999999", alpha=0.15,
+                        label=f"reach within +-{curves.max_current_A:g} A")
     for e in equilibria:
         ax.plot(e.gap_m * 1e3, curves.weight_N, "o", ms=8, mfc="black" if e.stable else "white", mec="black",
                 label=f"{equilibrium_label(e.stable)} at {e.gap_m * 1e3:.3g} mm, {e.current_A:g} A")
     lo = np.nanmin(np.where(curves.contact[:, None], np.nan, curves.Fup_N))
     hi = np.nanmax(np.where(curves.contact[:, None], np.nan, curves.Fup_N))
-    span = max(hi, curves.weight_N * 3) - min(lo, 0)
-    ax.set_ylim(min(lo, 0) - 0.05 * span, min(hi, curves.weight_N * 6) + 0.05 * span)
-    ax.set_ylabel("upward magnetic force F_up (N)")
+    if across:
+        span = max(hi - lo, 1e-12)
+        ax.set_ylim(min(lo, 0) - 0.05 * span, max(hi, 0) + 0.05 * span)
+        ax.set_ylabel("magnetic force along the gap direction (N)")
+    else:
+        span = max(hi, curves.weight_N * 3) - min(lo, 0)
+        ax.set_ylim(min(lo, 0) - 0.05 * span, min(hi, curves.weight_N * 6) + 0.05 * span)
+        ax.set_ylabel("upward magnetic force F_up (N)")
     ax.grid(True, alpha=0.3)
     ax.legend(fontsize=7.5, loc="best", ncol=2)
     ax.set_title(title or "axial force versus gap")
@@ -108,7 +131,9 @@ def curve_family(curves, equilibria=(), title: str = ""):
     ax2.axhline(curves.max_current_A, color="#b22222", ls=":", lw=1, label="current limit")
     ax2.axhline(-curves.max_current_A, color="#b22222", ls=":", lw=1)
     ax2.set_ylabel("hover current (A)")
-    ax2.set_xlabel("gap (mm)")
+    ax2.set_xlabel(gap_label)
+    if curves.max_current_A <= 0:
+        ax2.text(0.5, 0.5, "no coils: no hover current", transform=ax2.transAxes, ha="center", va="center", color="#555555")
     ax2.grid(True, alpha=0.3)
     ax2.legend(fontsize=7.5)
     fin = ih[np.isfinite(ih)]
@@ -234,7 +259,7 @@ def sensor_curves(design, beams, halls, placement=None):
         ax.legend(fontsize=7)
     if placement is not None:
         ax = axes[i]
-        d = np.asarray(placement.positions_m) @ design.up * 1e3
+        d = np.asarray(placement.positions_m) @ design.axial * 1e3
         ax.plot(d, placement.linear_half_width_m * 1e3, "o-", label="linear half-width (mm)")
         ax2 = ax.twinx()
         ax2.semilogy(d, np.maximum(placement.worst_crosstalk_gap_m_per_A * 1e3, 1e-6), "s--", color="#b22222",

@@ -85,11 +85,17 @@ def _key_numbers(J: dict, out: Path) -> list[str]:
     rows = []
     if curves:
         rows.append(["floater mass", num(curves["mass_kg"], "curves.json", "mass_kg", "g", scale=1e3)])
+        across = curves.get("gravity_across_axis", False)
         rows.append(["floater weight", num(curves["weight_N"], "curves.json", "weight_N", "N")])
+        if across:
+            rows.append(["axial load (weight along the gap direction)", "0 N (gravity acts across the gap direction)"])
         op = curves["at_operating_gap"]
         rows.append(["operating gap", num(op["gap_m"], "curves.json", "at_operating_gap.gap_m", "mm", scale=1e3)])
-        rows.append(["hover current at the operating gap", num(op["hover_current_A"], "curves.json", "at_operating_gap.hover_current_A", "A")])
-        rows.append(["force per ampere k_i there", num(op["ki_N_per_A"], "curves.json", "at_operating_gap.ki_N_per_A", "N/A")])
+        if curves.get("max_current_A", 0.0) > 0:
+            rows.append(["hover current at the operating gap", num(op["hover_current_A"], "curves.json", "at_operating_gap.hover_current_A", "A")])
+            rows.append(["force per ampere k_i there", num(op["ki_N_per_A"], "curves.json", "at_operating_gap.ki_N_per_A", "N/A")])
+        else:
+            rows.append(["hover current, force per ampere", "none: the design has no coils"])
         rows.append(["axial stiffness k_z there (k = -dF/dz)", num(op["kz_at_hover_N_per_m"], "curves.json", "at_operating_gap.kz_at_hover_N_per_m", "N/m")])
     if stab:
         rows.append(["equilibrium gap (six-axis)", num(stab["equilibrium"]["gap_m"], "stability.json", "equilibrium.gap_m", "mm", scale=1e3)])
@@ -118,7 +124,8 @@ def _curves(curves: dict, out: Path) -> list[str]:
                 num(e["kz_N_per_m"], "curves.json", f"equilibria[{i}].kz_N_per_m", "N/m"), esc(e["label"])]
                for i, e in enumerate(curves["equilibria"])]
     if eq_rows:
-        S.append("<h3>Equilibria (force = weight)</h3>" + table(["current", "gap", "k_z", "kind"], eq_rows, left_cols=0))
+        what = "axial force = 0" if curves.get("gravity_across_axis", False) else "force = weight"
+        S.append(f"<h3>Equilibria ({what})</h3>" + table(["current", "gap", "k_z", "kind"], eq_rows, left_cols=0))
     S.append('<p>Data: <code>curves.csv</code>, <code>kz_table.csv</code>, <code>curves.json</code>. The payload '
              'envelope (heaviest and lightest floater that can hover within the current limit) is in '
              '<code>curves.csv</code> (max_payload_kg, min_payload_kg).</p>')
@@ -260,8 +267,8 @@ def _control(J: dict, out: Path) -> list[str]:
     return control_section(J["control.json"], out)
 
 
-def _accuracy(J: dict) -> list[str]:
-    """Numerical accuracy estimates."""
+def _accuracy(J: dict, design=None) -> list[str]:
+    """Numerical accuracy estimates (``design``: says how its soft iron is modelled)."""
     stab, curves, coil = (J[k] for k in ("stability.json", "curves.json", "coil.json"))
     acc = []
     if curves:
@@ -278,10 +285,15 @@ def _accuracy(J: dict) -> list[str]:
             acc.append([f"{esc(c['name'])}: inductance quadrature", num(c["inductance_error_H"], "coil.json", f"coils[{i}].inductance_error_H", "H", digits=2)])
     if not acc:
         return []
-    return ["<h2>Numerical accuracy</h2>" + table(["estimate", "value"], acc)
-            + "<p>Iron cores use an iron-free approximation (a uniformly magnetized equivalent body with the "
-            "published demagnetizing factor of its shape): treat results with cores as estimates, especially at gaps "
-            "small compared with the core diameter or near saturation.</p>"]
+    iron = ""
+    if design is not None and (design.cores or design.floater.soft_iron):
+        iron = ("<p>Soft iron is solved, not assumed: ring cells with the B-H curve, and every force with iron "
+                "carries the difference between two cell levels as its error bar. Against an independent "
+                "axisymmetric finite-element solve the cell model agrees within 0.12 % on the suspension example "
+                "and 0.23 % on the steel-ball rig (README, Limits); sideways and tilt poses of cores use azimuthal "
+                "harmonics of the same solve, with no independent 3-D check yet. Hysteresis and eddy currents are "
+                "not modelled.</p>")
+    return ["<h2>Numerical accuracy</h2>" + table(["estimate", "value"], acc) + iron]
 
 
 def stiffness_unit(i: int, j: int) -> str:
@@ -343,9 +355,9 @@ def build_report(design, out: Path, failed: dict, load, geometry_text: str | Non
     S += _verdict(J, failed) + _key_numbers(J, out)
     for name, section in (("curves.json", _curves), ("stability.json", _stability), ("coil.json", _coil),
                           ("sensors.json", _sensors)):
-        if J[name]:
+        if J[name] and not (name == "coil.json" and not J[name].get("coils")):  # no coils: no datasheet
             S += section(J[name], out)
-    S += _control(J, out) + _accuracy(J)
+    S += _control(J, out) + _accuracy(J, design)
     S += _files_and_inputs(out, input_lines, geometry_text)
     head = 3 if design.description else 2
     return page(f"{design.name}: hoverfield report", with_contents(S, after=head))

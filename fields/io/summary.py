@@ -5,6 +5,8 @@ Returns lines of text and a JSON-ready dict; printing is the CLI's business.
 
 from __future__ import annotations
 
+import numpy as np
+
 from fields.input import tables
 from fields.model.design import Design, Magnet
 
@@ -102,10 +104,14 @@ def design_summary(design: Design) -> tuple[list[str], dict]:
             lines.append(f"  {s.name}: Hall sensor at {_vec_mm(s.position_m)}, axis {tuple(round(a, 3) for a in s.axis)}, range {s.range_T * 1e3:g} mT")
         out["sensors"].append({"name": s.name, "kind": s.kind})
     st = design.study
-    lines.append(f"study: gap {_mm(st.gap_min_m)}..{_mm(st.gap_max_m)} ({st.gap_points} points) from '{st.gap_reference}', "
-                 f"operating gap {_mm(st.operating_gap_m)}, supply {st.supply_voltage_V:g} V, g {design.gravity_magnitude:.5g} m/s^2")
+    where = (f"from '{st.gap_reference}'" if st.gap_mode == "clearance" else
+             f"as an offset along {tuple(round(float(a), 3) for a in design.axial)} from {_vec_mm(st.gap_origin_m)}")
+    lines.append(f"study: gap {_mm(st.gap_min_m)}..{_mm(st.gap_max_m)} ({st.gap_points} points) {where}, "
+                 f"operating gap {_mm(st.operating_gap_m)}, " + (f"supply {st.supply_voltage_V:g} V" if np.isfinite(st.supply_voltage_V) else "no supply (no coils)") + f", g {design.gravity_magnitude:.5g} m/s^2"
+                 f" along {tuple(round(float(a), 3) for a in -design.up)}")
     out["study"] = {"gap_min_m": st.gap_min_m, "gap_max_m": st.gap_max_m, "gap_points": st.gap_points,
-                    "gap_reference": st.gap_reference, "operating_gap_m": st.operating_gap_m,
+                    "gap_reference": st.gap_reference, "gap_mode": st.gap_mode, "gap_direction": st.gap_direction,
+                    "operating_gap_m": st.operating_gap_m,
                     "supply_voltage_V": st.supply_voltage_V, "currents_A": st.currents_A,
                     "lateral_span_m": st.lateral_span_m, "tilt_span_rad": st.tilt_span_rad,
                     "gravity_m_per_s2": st.gravity_m_per_s2, "free_axes": st.free_axes}

@@ -202,23 +202,25 @@ def mode_name(mode) -> str:
     a coupled mode names the axes it mixes with ("sideways x coupled with tilt about y")."""
     from fields.analysis.verdict import MODE_KIND
 
-    base = _axes_name(mode.kind, mode.axes)
+    vertical = getattr(mode, "z_vertical", True)
+    base = _axes_name(mode.kind, mode.axes, vertical)
     coupled = getattr(mode, "coupled_axes", ())
     if not coupled:
         return base
-    return f"{base} coupled with {_axes_name(MODE_KIND[coupled[0]], coupled)}"
+    return f"{base} coupled with {_axes_name(MODE_KIND[coupled[0]], coupled, vertical)}"
 
 
-def _axes_name(kind, axes) -> str:
+def _axes_name(kind, axes, z_vertical: bool = True) -> str:
+    """Names about the z axis; with gravity along z (``z_vertical``) it is "vertical", else "axial"."""
     from fields.analysis.verdict import ModeKind
 
     if kind is ModeKind.SIDEWAYS:
-        return "sideways " + "/".join(axes)
+        return ("sideways " if z_vertical else "radial ") + "/".join(axes)
     if kind is ModeKind.TILT:
         return "tilt about " + "/".join(a.lstrip("r") for a in axes)
     if kind is ModeKind.VERTICAL:
-        return "vertical"
-    return "spin about vertical"
+        return "vertical" if z_vertical else "axial z"
+    return "spin about vertical" if z_vertical else "spin about z"
 
 
 def verdict_notes(verdict, ball: bool = False) -> tuple[str, ...]:

@@ -302,7 +302,9 @@ class Study:
     and ``gap_direction`` from the body named in ``gap_reference`` (:func:`fields.model.gap.gap_axis`)
     so that at the operating gap ``gap`` is the floater's clearance to that body, as
     :func:`fields.model.clearance.floater_clearance_m` measures it (at every gap when flat faces face
-    each other).
+    each other). With ``gap_mode = "offset"`` the gap is instead the signed displacement of the
+    floater along ``gap_direction`` from ``gap_origin_m`` as given (any sign; e.g. the axial offset
+    of a ring in a radial bearing, where gravity acts across the gap direction).
     """
 
     gap_min_m: float
@@ -324,6 +326,7 @@ class Study:
     ambient_temperature_C: float = 25.0
     convection_W_per_m2K: float = 10.0
     sensor_line: tuple[Vec3, Vec3, int] | None = None
+    gap_mode: str = "clearance"
 
     def floater_origin_m(self, gaps_m) -> np.ndarray:
         """Floater frame origins (g, 3) for gaps (g,) in metres."""
@@ -363,6 +366,22 @@ class Design:
     @property
     def weight_N(self) -> float:
         return self.floater.mass_kg * self.gravity_magnitude
+
+    @property
+    def axial(self) -> np.ndarray:
+        """The direction of the axial curves, the hover current and the single-axis control: up,
+        or with ``study.gap_mode = "offset"`` the gap direction (which gravity may cross)."""
+        if self.study.gap_mode == "offset":
+            d = np.asarray(self.study.gap_direction, dtype=float)
+            return d / np.linalg.norm(d)
+        return self.up
+
+    @property
+    def axial_load_N(self) -> float:
+        """The weight's share along :attr:`axial` that the axial force must carry (N): the weight,
+        or zero where gravity acts across the gap direction."""
+        c = float(self.up @ self.axial)
+        return self.weight_N * (c if abs(c) > 1e-12 else 0.0)
 
 
 def axis_to_rotvec(axis) -> np.ndarray:

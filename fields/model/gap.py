@@ -30,6 +30,10 @@ GAP_TOLERANCE_M = 1e-12
 GAP_SIDES = ("above", "below")
 """Where the reference body is, seen from the floater."""
 
+GAP_MODES = ("clearance", "offset")
+"""What a gap is: the clearance to the reference body along gravity, or a signed displacement along
+a given direction (:class:`fields.model.design.Study`)."""
+
 
 @dataclass(frozen=True)
 class GapAxis:

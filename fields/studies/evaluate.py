@@ -48,7 +48,7 @@ def _stiffness_columns(design: Design, op) -> dict[str, Any]:
     from fields import analysis
     from fields.physics.wrench import wrench_basis
 
-    up = design.up
+    up = design.axial  # up, or the gap direction of an offset study
     d = analysis.drive_pattern(design)
     eq = op.equilibrium
     P, Rv, finish = analysis.stiffness_stencil(design, eq.position_m, eq.rotvec_rad)

@@ -76,7 +76,7 @@ def beam_fraction_at_poses(design: Design, sensor: BeamGate, positions_m, rotvec
     """Blocked fraction (n,) of a beam gate at arbitrary floater poses (frame origins, rotation vectors)."""
     P = np.atleast_2d(np.asarray(positions_m, float))
     Rv = np.atleast_2d(np.asarray(rotvecs_rad, float))
-    up = design.up
+    up = design.axial  # the beam height runs along the axial direction
     d = np.asarray(sensor.direction, float)
     d = d / np.linalg.norm(d)
     across = np.cross(up, d)

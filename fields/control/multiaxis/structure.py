@@ -50,15 +50,17 @@ REFERENCE_ANGLE_RAD = np.deg2rad(1.0)
 _KIND = {"x": "sideways", "y": "sideways", "z": "vertical", "rx": "tilt", "ry": "tilt", "rz": "spin"}
 
 
-def _mode_name(axis: str) -> str:
+def _mode_name(axis: str, z_vertical: bool = True) -> str:
+    """Mode name of a dominant axis; with gravity across z (``z_vertical`` false) z is "axial z"
+    and x, y are "radial" (as in :func:`fields.io.wording.mode_name`)."""
     kind = _KIND[axis]
     if kind == "sideways":
-        return f"sideways {axis}"
+        return f"sideways {axis}" if z_vertical else f"radial {axis}"
     if kind == "tilt":
         return f"tilt about {axis[1]}"
     if kind == "spin":
-        return "spin about vertical"
-    return "vertical"
+        return "spin about vertical" if z_vertical else "spin about z"
+    return "vertical" if z_vertical else "axial z"
 
 
 @dataclass(frozen=True)
@@ -244,7 +246,7 @@ def _hall_suggestion(design, plant: MultiaxisPlant, phi: np.ndarray, eta_ref: fl
     from fields.physics.field_basis import fixed_field_basis, floater_field_T
 
     cands = [np.asarray(s.position_m, float) for s in design.sensors if getattr(s, "kind", "") == "hall"]
-    up = design.up
+    up = design.axial
     size = max(max(m.dimensions_m) for m in design.floater.magnets if m.shape != "mesh") \
         if any(m.shape != "mesh" for m in design.floater.magnets) else 0.01
     com = np.asarray(plant.position_m) + np.asarray(design.floater.centre_of_mass_m)
@@ -312,7 +314,7 @@ def check_structure(plant: MultiaxisPlant, design=None, tolerance: float = PBH_T
         sh = phi**2 * np.diag(M)
         sh = sh / sh.sum()
         dom = int(np.argmax(sh))
-        base = _mode_name(free[dom])
+        base = _mode_name(free[dom], design is None or bool(abs(design.up[2]) > 0.999))
         used[base] = used.get(base, 0) + 1
         name = base if used[base] == 1 else f"{base} ({used[base]})"
         kerr = float(np.abs(phi) @ plant.stiffness_error @ np.abs(phi))

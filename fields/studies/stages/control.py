@@ -142,7 +142,7 @@ def _axis_tables(design: Design, eq, ax, grid_points: int = 81):
 
     st = design.study
     if ax.index == 2:
-        c = float(design.up @ np.asarray(st.gap_direction))  # d gap / d s
+        c = float(design.axial @ np.asarray(st.gap_direction))  # d gap / d s
         lo_gap, hi_gap = st.gap_min_m, st.gap_max_m
         s_a = (lo_gap - eq.gap_m) / c
         s_b = (hi_gap - eq.gap_m) / c
@@ -425,7 +425,7 @@ def _authority_refusal(design: Design, err: Exception) -> dict | None:
     gop = design.study.operating_gap_m
     one = analysis.axial_curves(design, gaps_m=[gop], currents_A=[0.0])
     ki = float(one.ki_N_per_A[0])
-    up = design.up
+    up = design.axial
     P, Rv = analysis.pose_at_gap(design, [gop])
     pat = np.asarray(one.pattern, float)
     k_std = float((wrench_basis(design, P, Rv).Fk_N_per_A[0] @ up) @ pat)

@@ -31,7 +31,7 @@ def _grid_table(design: Design, eq, ax, I0: float):
     from fields.control.force_grid import GridForceTable
 
     st = design.study
-    c = float(design.up @ np.asarray(st.gap_direction))  # d gap / d s
+    c = float(design.axial @ np.asarray(st.gap_direction))  # d gap / d s
     s_a, s_b = (st.gap_min_m - eq.gap_m) / c, (st.gap_max_m - eq.gap_m) / c
     s = np.linspace(min(s_a, s_b), max(s_a, s_b), GRID_POSITIONS)
     gaps = eq.gap_m + c * s
@@ -40,7 +40,7 @@ def _grid_table(design: Design, eq, ax, I0: float):
     o = np.argsort(gaps)
     curves = analysis.axial_curves(design, gaps_m=gaps[o], currents_A=cur)
     F = np.empty((s.size, cur.size))
-    F[o] = curves.Fup_N * float(np.sign(ax.direction @ design.up) or 1.0)
+    F[o] = curves.Fup_N * float(np.sign(ax.direction @ design.axial) or 1.0)
     ok = np.empty(s.size, dtype=bool)
     ok[o] = ~curves.contact
     i0 = int(np.argmin(np.abs(s)))

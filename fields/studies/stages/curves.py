@@ -53,6 +53,10 @@ class CurvesResult:
     warnings: tuple[str, ...]
     files: tuple[str, ...]
     at_operating_gap: AtOperatingGap
+    #: the force the axial curves balance: the weight, or 0 where gravity acts across an offset
+    #: study's gap direction (``gravity_across_axis``)
+    axial_load_N: float = 0.0
+    gravity_across_axis: bool = False
     curves: analysis.AxialCurves = internal()
     axial_equilibria: tuple[analysis.Equilibrium1D, ...] = internal(())
 
@@ -115,16 +119,19 @@ def run_curves(design: Design, out: Path) -> CurvesResult:
     eqs = all_equilibria(design, c)
     _write_tables(design, c, out)
     result = CurvesResult(
-        weight_N=c.weight_N, mass_kg=design.floater.mass_kg, currents_A=c.currents_A, max_current_A=c.max_current_A,
+        weight_N=design.weight_N, mass_kg=design.floater.mass_kg, currents_A=c.currents_A, max_current_A=c.max_current_A,
         linear_in_current=c.linear_in_current,
         equilibria=tuple(AxialEquilibriumRow(e.gap_m, e.current_A, e.kz_N_per_m, e.stable, equilibrium_label(e.stable))
                          for e in eqs),
         max_force_error_N=float(np.nanmax(c.error_F_N)) if len(c.error_F_N) else 0.0,
         contact_gaps=int(c.contact.sum()), warnings=curve_warnings(c),
         files=file_list(out, "curves.csv", "kz_table.csv", "curves.json", "curves.png"),
-        at_operating_gap=_at_operating_gap(design, c), curves=c, axial_equilibria=tuple(eqs))
+        at_operating_gap=_at_operating_gap(design, c), axial_load_N=c.weight_N,
+        gravity_across_axis=bool(abs(float(design.up @ design.axial)) <= 1e-12), curves=c, axial_equilibria=tuple(eqs))
     write_json(out / "curves.json", result)
-    fig = plots.curve_family(c, eqs, title=f"{design.name}: upward force versus gap")
+    offset = design.study.gap_mode == "offset"
+    fig = plots.curve_family(c, eqs, title=f"{design.name}: " + ("axial force versus offset" if offset else "upward force versus gap"),
+                             gap_label="offset along the gap direction (mm)" if offset else "gap (mm)")
     write_png(out / "curves.png", fig)
     close_figure(fig)
     return result

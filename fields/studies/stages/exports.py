@@ -32,8 +32,10 @@ def _tables(design: Design, c, exp: Path) -> list[str]:
     g = c.gaps_m[ok]
     F0, f = c.F0_N[ok], c.ki_N_per_A[ok]
     kz0, dki = c.kz0_N_per_m[ok], c.dki_dh_N_per_A_m[ok]
-    W = design.weight_N
-    Fgrid = np.linspace(0.0, 3.0 * W, 13)
+    W = design.axial_load_N
+    # the inverse table spans 0..3 x the axial load (the weight), or +-the weight where gravity
+    # acts across an offset study's gap direction (the axial load is then zero)
+    Fgrid = np.linspace(0.0, 3.0 * W, 13) if W != 0.0 else np.linspace(-design.weight_N, design.weight_N, 13)
     if getattr(c, "core_model", "none") == "cells":
         Fz, kz, ki, Iinv, eFz, ekz = _saturable_tables(design, g, I, Fgrid, c.pattern)
         fz_note = "error_Fz_N: the cell solve's |fine - coarse| plus interpolation tails at each gap and current"

@@ -117,7 +117,7 @@ def _placement(design: Design, gaps, out: Path):
 
     a, b, n = design.study.sensor_line
     hall = next((s for s in design.sensors if s.kind == "hall"), None)
-    axis = np.asarray(hall.axis) if hall is not None else design.up
+    axis = np.asarray(hall.axis) if hall is not None else design.axial
     table = placement.placement_table(design, np.linspace(a, b, n), axis, gaps_m=gaps,
                                       range_T=None if hall is None else hall.range_T)
     rows = table.rows()

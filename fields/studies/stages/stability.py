@@ -200,7 +200,7 @@ def run_stability(design: Design, out: Path, curves: analysis.AxialCurves | None
         files += list(MAP_FILES)
     result = StabilityResult(
         operating_point=wording.operating_point_text(op),
-        equilibrium=EquilibriumSummary(eq.gap_m, eq.position_m, eq.rotvec_rad, eq.currents_A, eq.residual_force_N,
+        equilibrium=EquilibriumSummary(eq.gap_m if abs(eq.gap_m) >= 1e-15 else 0.0, eq.position_m, eq.rotvec_rad, eq.currents_A, eq.residual_force_N,
                                        eq.residual_torque_Nm, tuple(eq.free_axes)),
         stiffness_matrix=S.K, stiffness_error=S.error, stiffness_error_max=float(np.max(S.error)),
         step_rule=wording.step_rule_text(S.step_length_m, S.step_angle_rad),
