@@ -219,22 +219,28 @@ def c_header(design_name: str, arrays: dict[str, np.ndarray], units: dict[str, s
 
 def force_tables_header(design_name: str, gap_m, current_A, force_N, Fz_N, kz_N_per_m, ki_N_per_A, I_of_F_A,
                         max_current_A: float, weight_N: float, precision: str = "double",
-                        affine_in_current: bool = True) -> str:
+                        affine_in_current: bool = True, error_Fz_N=None, error_kz_N_per_m=None) -> str:
     """The firmware header of the force tables: F_z, k_z, k_i on (gap, current) and the inverse
     table I(gap, F), whose entries beyond +-``max_current_A`` (the coil cannot give that force)
-    or not finite are ``<P>_NO_VALUE``; a lookup function per table (:func:`c_header`)."""
+    or not finite are ``<P>_NO_VALUE``; a lookup function per table (:func:`c_header`). With
+    ``error_Fz_N`` and ``error_kz_N_per_m`` (same grid) their error estimates are tables too."""
     imax = abs(float(max_current_A))
     arrays = {"gap_m": gap_m, "current_A": current_A, "force_N": force_N, "Fz_N": Fz_N, "kz_N_per_m": kz_N_per_m,
               "ki_N_per_A": ki_N_per_A, "I_of_F_A": I_of_F_A}
     units = {"gap_m": "m", "current_A": "A", "force_N": "N (columns of I_of_F_A)", "Fz_N": "N, [gap][current]",
              "kz_N_per_m": "N/m, [gap][current]", "ki_N_per_A": "N/A, [gap][current]",
              "I_of_F_A": "A, [gap][force]: the current that gives force F at the gap"}
+    for key, err, unit in (("error_Fz_N", error_Fz_N, "N"), ("error_kz_N_per_m", error_kz_N_per_m, "N/m")):
+        if err is not None:
+            arrays[key] = err
+            units[key] = f"{unit}, [gap][current]: error estimate of {key[6:]} (see the CSV table's notes)"
     notes = ["Interpolation: bilinear in (gap, current) is accurate to the grid spacing squared;",
              ("the force is affine in current here, so interpolating along current loses nothing." if affine_in_current
               else "the iron's B-H curve makes the force non-affine in current: interpolate along current with care."),
              f"Weight of the floater {weight_N!r} N; max current {imax!r} A."]
     tables = {"Fz_N": ("gap_m", "current_A"), "kz_N_per_m": ("gap_m", "current_A"),
               "ki_N_per_A": ("gap_m", "current_A"), "I_of_F_A": ("gap_m", "force_N")}
+    tables.update({k: ("gap_m", "current_A") for k in ("error_Fz_N", "error_kz_N_per_m") if k in arrays})
     return c_header(design_name, arrays, units, notes, precision=precision, tables=tables,
                     limits={"I_of_F_A": (-imax, imax)},
                     constants={"max_current_A": (imax, "A"), "weight_N": (float(weight_N), "N")})

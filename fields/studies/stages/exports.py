@@ -76,7 +76,8 @@ def _tables(design: Design, c, exp: Path) -> list[str]:
     affine = getattr(c, "core_model", "none") != "cells"
     for fname, precision in (("tables.h", "double"), ("tables_float.h", "single")):
         write_atomic(exp / fname, formats.force_tables_header(design.name, g, I, Fgrid, Fz, kz, ki, Iinv, imax, W,
-                                                              precision=precision, affine_in_current=affine))
+                                                              precision=precision, affine_in_current=affine,
+                                                              error_Fz_N=eFz, error_kz_N_per_m=ekz))
         files.append(str(exp / fname))
     return files
 

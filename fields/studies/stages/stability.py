@@ -147,7 +147,12 @@ def _maps(design: Design, eq: analysis.Equilibrium, out: Path) -> PoseMaps:
               zip(gs.gaps_m, gs.k_x_N_per_m, gs.k_y_N_per_m, gs.k_vertical_N_per_m, gs.k_rx_Nm_per_rad, gs.k_ry_Nm_per_rad,
                   gs.k_lateral_N_per_m, gs.k_tilt_Nm_per_rad),
               header_lines(design.name, "diagonal stiffness versus gap at the hover current (k = -dF/dq); "
-                                        "k_lateral and k_tilt are the means of the x and y entries"))
+                                        "k_lateral and k_tilt are the means of the x and y entries; an overview "
+                                        "without per-entry error bars: central differences (steps 1e-6 m, 1e-4 rad) "
+                                        "of the plain cap rule"
+                                        + (", fast rule and coarse cells (about 0.5 % from the fine level)"
+                                           if design.cores else " (about 1e-3 within a few mm of a source edge)")
+                                        + "; the stiffness at the operating point (stiffness.csv) carries error bars"))
     figures = (
         ("maps.png", plots.pose_maps(lat, tilt, title=f"{design.name}: sideways and tilt maps at currents "
                                                       f"{np.round(eq.currents_A, 4).tolist()} A")),
