@@ -69,6 +69,41 @@ def test_zero_tolerances_return_the_nominal_design_exactly(tmp_path):
     ctl = r.summary["control"]
     assert ctl["checked"] and ctl["stabilised_share"] == 1.0
     assert ctl["phase_margin_deg"]["mean"] == pytest.approx(45.0, abs=0.5)  # digital loop: ZOH budgeted, not exact
+    # the nonlinear releases: every sample is the nominal design, so all are captured or none
+    cap = ctl["nonlinear_capture"]
+    assert cap["computed"] and len({row["captured"] for row in r.table}) == 1
+    assert cap["captured_share"] in (0.0, 1.0)
+
+
+def test_capture_check_matches_a_direct_simulation_and_fails_without_authority():
+    """capture_of_row against fields.control.simulate.simulate (solve_ivp, the reference
+    integrator) from the same release; and a loop whose current limit is far below the hover
+    current cannot hold the floater (the drive saturates: it falls)."""
+    import dataclasses
+
+    from fields.control.plant import linear_sensor
+    from fields.control.simulate import Scenario, simulate
+    from fields.studies import tolerance_control as tc
+
+    d = geometry.load(AIR)
+    nominal = evaluate_design(d)
+    drive = tc.drive_model(d)
+    plant = tc.plant_of_row(nominal, drive)
+    ctrl = tc.nominal_controller(plant)
+    c = tc.capture_of_row(nominal, d, drive, ctrl)
+    table = tc.vertical_table(d, float(nominal["operating_gap_m"]))
+    lo, hi = table.range_m
+    tol = 0.01 * (hi - lo)
+
+    def held(s0):
+        res = simulate(plant.params, table, ctrl, Scenario(t_end_s=tc.CAPTURE_T_END_S, s0_m=s0),
+                       sensor=linear_sensor(plant.params))
+        return (res.time_s[-1] >= tc.CAPTURE_T_END_S * (1 - 1e-9) and abs(res.s_m[-1]) < tol
+                and abs(res.v_m_per_s[-1]) < tol * ctrl.crossover_rad_per_s)
+
+    assert c.captured and all(held(s0) for s0 in tc.CAPTURE_STARTS_M)
+    weak = dataclasses.replace(drive, max_current_A=0.2 * float(nominal["operating_current_A"]))
+    assert not tc.capture_of_row(nominal, d, weak, ctrl).captured
 
 
 def test_hover_current_scales_as_one_over_remanence(tmp_path):

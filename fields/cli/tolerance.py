@@ -28,6 +28,11 @@ def summary_lines(r) -> list[str]:
     if ctl["checked"]:
         lines.append(f"nominal controller stabilises {ctl['stabilised_count']} of {s['samples']} samples "
                      f"({100 * ctl['stabilised_share']:.1f} %, linearised vertical loop)")
+        cap = ctl["nonlinear_capture"]
+        if cap.get("computed"):
+            lines.append(f"and captures {cap['captured_count']} of {s['samples']} "
+                         f"({100 * cap['captured_share']:.1f} %) when released at "
+                         + " and ".join(f"{a * 1e3:+g} mm" for a in cap["starts_m"]) + " (nonlinear simulation)")
     else:
         lines.append(f"control not checked: {ctl['reason']}")
     lines.append("wrote " + ", ".join(r.files.values()))

@@ -27,6 +27,11 @@ from fields.model.solids import Solid
 GAP_TOLERANCE_M = 1e-12
 """Clearance at the operating gap is matched to this (m): far below any physical dimension."""
 
+GAP_RESOLUTION_M = 1e-9
+"""Where the clearance itself is only resolved to about 1e-11 m (a tilted floater's nearest point
+is found by sampling and polishing, :func:`fields.model.clearance.solids_clearance_detail`), a
+match within this (a nanometre) is accepted when the steps stall."""
+
 GAP_SIDES = ("above", "below")
 """Where the reference body is, seen from the floater."""
 
@@ -190,7 +195,7 @@ def gap_axis(fixed: Sequence[Solid], floater: Sequence[Solid], reference: str, s
             break
         slope = (f_new - f) / (u_new - u)
         u, f = u_new, f_new
-    if abs(f) > GAP_TOLERANCE_M:
+    if GAP_TOLERANCE_M < abs(f) and not abs(f) <= GAP_RESOLUTION_M:
         if not slope > 1e-6:
             raise SolverError(f"gap_axis: moving the floater along the vertical does not bring it to "
                               f"{g * 1e3:.4g} mm from {reference!r} (it passes beside it).")
