@@ -134,7 +134,7 @@ AFFINE_RTOL = 1e-3
 
 
 def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, near_field: bool = True,
-                 core_model: str = "cells") -> AxialCurves:
+                 core_model: str = "cells", estimate_error: bool = True) -> AxialCurves:
     """F_up(gap, I), hover current, k_z, k_i and the payload envelope along the study's gap range.
 
     Derivatives along up are central differences with :data:`fields.analysis.stencil.STEP_LENGTH_M`
@@ -142,6 +142,8 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
     derivatives of the Chebyshev interpolant of the cell solve's family.
 
     ``core_model="uniform"`` selects the uniform-magnetization core (for comparison only).
+    ``estimate_error=False`` (iron-free designs; for searches that use no error bar, e.g. a
+    sweep's operating point): one rule level on the stencil g, g +- h only, and NaN error bars.
     """
     gaps = design.study.gaps() if gaps_m is None else np.asarray(gaps_m, float)
     cur = family_currents(design) if currents_A is None else np.asarray(currents_A, float)
@@ -159,6 +161,11 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
         P = np.concatenate([pos, pos + shift, pos - shift])
         b = wrench_basis(design, P, np.concatenate([rot] * 3), near_field=near_field, core_model=core_model)
         error_F = np.asarray(b.error_F_N[:n])
+    elif not estimate_error:  # g, g +- h at the curves' level only
+        P = np.concatenate([pos, pos + shift, pos - shift])
+        b = wrench_basis(design, P, np.concatenate([rot] * 3), order=CURVES_ORDER, estimate_error=False,
+                         near_field=near_field, core_model=core_model)
+        error_F = np.full(n, np.nan)
     else:  # g, g +- h, g +- 2h at the level and the next coarser (no extra poses for the estimate)
         P = np.concatenate([pos, pos + shift, pos - shift, pos + 2 * shift, pos - 2 * shift])
         b, error_F, lo = _two_levels(design, P, np.concatenate([rot] * 5), near_field, core_model, n)
@@ -171,6 +178,8 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
     if design.cores:
         L = np.minimum(gaps, floater_size_m(design))
         err_kz = np.repeat((error_F / L)[:, None], len(cur), axis=1)
+    elif not estimate_error:
+        err_kz = np.full((n, len(cur)), np.nan)
     else:
         err_kz = _kz_bar(design, b, lo, up, d, h, n, cur)
     Fup = F0c[:, None] + fc[:, None] * cur[None, :]

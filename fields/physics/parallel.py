@@ -53,6 +53,23 @@ def _run(i: int):
     return _TASK(i)  # type: ignore[misc]
 
 
+def _quiet_child() -> None:
+    """A forked worker ends silently when its pool is closed (the command's SIGTERM handler,
+    inherited from the parent, would print a traceback)."""
+    import signal
+
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+
+
+def serial_worker() -> None:
+    """Initializer of an outer pool's workers (a sweep's or a tolerance study's designs, the
+    sizing search): their own splits run serially, so that the pool, not a pool per worker,
+    uses the cores (and the memory stays one process per core)."""
+    global _IN_BACKGROUND
+    _IN_BACKGROUND = True
+    _quiet_child()
+
+
 def map_chunks(fn: Callable[[slice], object], n: int, workers: int | None = None,
                min_items_per_worker: int = MIN_ITEMS_PER_WORKER, warm_first: bool = False) -> list:
     """``[fn(chunk) for chunk in contiguous slices of range(n)]``, the chunks on several processes.
@@ -76,7 +93,7 @@ def map_chunks(fn: Callable[[slice], object], n: int, workers: int | None = None
     chunks = [slice(a, b) for a, b in zip(edges[:-1], edges[1:])]
     _TASK = lambda i: fn(chunks[i])  # noqa: E731 - read by the forked children through _run
     try:
-        with mp.get_context("fork").Pool(w - 1) as pool:
+        with mp.get_context("fork").Pool(w - 1, initializer=_quiet_child) as pool:
             pending = [pool.apply_async(_run, (i,)) for i in range(1, w)]
             first = fn(chunks[0])
             return [first] + [p.get() for p in pending]
@@ -127,6 +144,7 @@ class Pending:
 def _background_main(fn: Callable[[], object], conn) -> None:
     global _IN_BACKGROUND
     _IN_BACKGROUND = True
+    _quiet_child()
     try:
         from fields.errors import HoverfieldError
 

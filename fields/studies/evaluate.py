@@ -25,8 +25,8 @@ def _operating_point_or_none(design: Design):
     from fields import analysis
     from fields.analysis.operating import operating_point
 
-    # the zero-current equilibria need F0 and k_i only: one current is enough
-    curves = analysis.axial_curves(design, currents_A=[0.0])
+    # the zero-current equilibria need F0 and k_i only: one current is enough, and no error bar
+    curves = analysis.axial_curves(design, currents_A=[0.0], estimate_error=False)
     try:
         return operating_point(design, curves)
     except SolverError:

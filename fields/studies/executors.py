@@ -119,8 +119,10 @@ def open_executor(workers: int | None, scheduler_address: str | None):
         return ex, close
     from concurrent.futures import ProcessPoolExecutor
 
+    from fields.physics.parallel import serial_worker
+
     n = (os.cpu_count() or 1) if workers is None else workers
-    ex = ProcessPoolExecutor(max_workers=n)
+    ex = ProcessPoolExecutor(max_workers=n, initializer=serial_worker)
     return ex, lambda: ex.shutdown(wait=True, cancel_futures=True)
 
 

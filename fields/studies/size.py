@@ -140,7 +140,9 @@ def _pool(workers: int):
         return None
     import multiprocessing
 
-    return multiprocessing.get_context("fork").Pool(workers)
+    from fields.physics.parallel import serial_worker
+
+    return multiprocessing.get_context("fork").Pool(workers, initializer=serial_worker)
 
 
 def _envelope_start(req: Requirement, n_mag: int) -> np.ndarray:

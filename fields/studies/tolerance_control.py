@@ -138,7 +138,7 @@ def vertical_table(design: Design, operating_gap_m: float, points: int = CAPTURE
     st = design.study
     c = float(design.axial @ np.asarray(st.gap_direction, float))  # d gap / d s
     gaps = np.linspace(st.gap_min_m, st.gap_max_m, int(points))
-    cur = analysis.axial_curves(design, gaps_m=gaps, currents_A=[0.0])
+    cur = analysis.axial_curves(design, gaps_m=gaps, currents_A=[0.0], estimate_error=False)
     s = (gaps - operating_gap_m) / c
     o = np.argsort(s)
     ok = ~cur.contact[o]
