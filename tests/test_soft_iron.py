@@ -77,7 +77,7 @@ def test_ball_mass_and_inertia_from_its_volume():
     d = _rig()
     m = 7850.0 * math.pi * 0.0254 ** 3 / 6  # density of carbon steel (from memory) x ball volume
     assert d.floater.mass_kg == pytest.approx(m, rel=1e-12)
-    # solid sphere: I = 2/5 m a^2 (any mechanics handbook)
+    # solid sphere: I = 2/5 m a^2 (common practice, no source)
     assert d.floater.inertia_kg_m2[0][0] == pytest.approx(0.4 * m * 0.0127 ** 2, rel=1e-12)
 
 

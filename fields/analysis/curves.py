@@ -370,24 +370,25 @@ def _exact_hover(design, z, ok, d, target_N, ih, ki_h, kz_h, uz):
     from fields.physics.iron import iron_model
     from fields.physics.iron_family import REPORTED_LEVEL, hover_points
 
-    if design.floater.soft_iron:
+    if design.floater.soft_iron:  # the ball is solved with the cores at each height
         from fields.physics.iron_floater import floater_hover_points
 
-        def hover_points(_model, zz, d, target, guess):  # noqa: F811 - the soft-iron floater's solve
-            return floater_hover_points(design, zz, d, target, guess)
-
-        model = None
+        def solve(zz, guess):
+            return floater_hover_points(design, zz, d, target_N, guess)
     else:
         model = iron_model(design, REPORTED_LEVEL)
+
+        def solve(zz, guess):
+            return hover_points(model, zz, d, target_N, guess)
     idx = np.flatnonzero(ok)
     ih, ki_h, kz_h = ih.copy(), ki_h.copy(), kz_h.copy()
     if idx.size <= HOVER_NODES:
-        a, b, c = hover_points(model, z[idx], d, target_N, ih[idx])
+        a, b, c = solve(z[idx], ih[idx])
         ih[idx], ki_h[idx], kz_h[idx] = a, uz * b, c
         return ih, ki_h, kz_h
     gop = design.study.operating_gap_m
     j = idx[int(np.argmin(np.abs(z[idx] - design.study.floater_origin_m([gop])[0, 2])))]
-    a, b, c = hover_points(model, z[[j]], d, target_N, ih[[j]])
+    a, b, c = solve(z[[j]], ih[[j]])
     ih[j], ki_h[j], kz_h[j] = a[0], uz * b[0], c[0]
     return ih, ki_h, kz_h
 

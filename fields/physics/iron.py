@@ -73,7 +73,7 @@ FIELD_CHUNK = 400_000
 # --------------------------------------------------------------------------- geometry
 
 
-def _axis_of_cores(design: Design) -> np.ndarray:
+def axis_of_cores(design: Design) -> np.ndarray:
     """The common symmetry axis (x, y) of the design's cores (cylinders/rings along world z)."""
     if not design.cores:
         raise input_error("iron_model", "design.cores", "at least one core", 0)
@@ -396,19 +396,21 @@ def face_sheet_field_T(edges: Edges, muK_T, points_m, axis_xy, order: int = 6, m
     return out if muK.ndim > 1 else out[0]
 
 
+def curve_of(part):
+    """The B-H curve of one soft-iron part (a core or a floater's iron): its ``bh_curve`` table,
+    else the two-parameter curve of ``relative_permeability`` and ``saturation_polarization``."""
+    if getattr(part, "bh_curve", None):
+        return TableCurve.from_points([h for h, _ in part.bh_curve], [b for _, b in part.bh_curve],
+                                      f"core {part.name}.bh_curve")
+    mu_r = float(part.relative_permeability)
+    if not np.isfinite(mu_r) or mu_r <= 1.0:
+        raise input_error(f"core {part.name}", "relative_permeability", "> 1", mu_r)
+    return FrohlichKennelly(mu_r - 1.0, float(part.saturation_polarization_T))
+
+
 def _curves(design: Design, curves) -> tuple:
     if curves is None:
-        out = []
-        for c in design.cores:
-            if getattr(c, "bh_curve", None):
-                out.append(TableCurve.from_points([h for h, _ in c.bh_curve], [b for _, b in c.bh_curve],
-                                                  f"core {c.name}.bh_curve"))
-                continue
-            mu_r = float(c.relative_permeability)
-            if not np.isfinite(mu_r) or mu_r <= 1.0:
-                raise input_error(f"core {c.name}", "relative_permeability", "> 1", mu_r)
-            out.append(FrohlichKennelly(mu_r - 1.0, float(c.saturation_polarization_T)))
-        return tuple(out)
+        return tuple(curve_of(c) for c in design.cores)
     curves = tuple(curves)
     if len(curves) != len(design.cores):
         raise input_error("iron_model", "curves", f"one per core ({len(design.cores)})", len(curves))
@@ -506,7 +508,7 @@ def build_iron_model(design: Design, level="coarse", curves=None) -> IronModel:
         st, name = dict(LEVELS[level]), level
     else:
         raise input_error("iron_model", "level", f"one of {', '.join(LEVELS)}", level)
-    axis_xy = _axis_of_cores(design)
+    axis_xy = axis_of_cores(design)
     curves = _curves(design, curves)
     mesh, body = _core_mesh(design, st)
     model = cell_model(mesh, curves, body, axis_xy, st, design, name)

@@ -39,11 +39,10 @@ from scipy.constants import mu_0
 
 from fields.model.design import Design
 from fields.physics.checks import input_error
-from fields.physics.iron import LEVELS, IronModel, _coaxial_sheets, _curves, iron_model
+from fields.physics.iron import LEVELS, IronModel, _coaxial_sheets, axis_of_cores, curve_of, iron_model
 from fields.physics.iron_rings import (
     Edges,
-    _pairs_L,
-    SPLIT_FLOOR,
+    cross_inductance,
     edge_inductance_matrix,
     graded_nodes,
     rectangle_cells,
@@ -104,7 +103,7 @@ def _part_cells(part, level: dict) -> tuple[np.ndarray, np.ndarray]:
 def floater_iron_curve(design: Design):
     """The B-H curve of the floater's soft iron (:mod:`fields.physics.bh`)."""
     part = design.floater.soft_iron[0]
-    return _curves(type("_One", (), {"cores": (part,)})(), None)[0]
+    return curve_of(part)
 
 
 @functools.lru_cache(maxsize=8)
@@ -119,21 +118,6 @@ def floater_iron(design: Design, level: str) -> FloaterIron:
     V2 = np.repeat(mesh.volume_m3, 2)
     D = np.diag(V2) - mesh.incidence.T @ L @ mesh.incidence / mu_0
     return FloaterIron(V, C, floater_iron_curve(design), 0.5 * (D + D.T), mesh.incidence, mesh.edges, mesh.volume_m3)
-
-
-def cross_inductance(a: Edges, b: Edges) -> np.ndarray:
-    """``L_ef = int_e int_f M dl dl`` (a, b) between two disjoint edge sets (Wb m^2 per A/m)."""
-    na, nb = a.start_m.shape[0], b.start_m.shape[0]
-    i, j = np.meshgrid(np.arange(na), np.arange(nb), indexing="ij")
-    i, j = i.ravel(), j.ravel()
-    rmax = float(max(a.start_m[:, 0].max(), a.end_m[:, 0].max(), b.start_m[:, 0].max(), b.end_m[:, 0].max()))
-    out = np.empty(i.size)
-    step = 40_000
-    for s in range(0, i.size, step):
-        ii, jj = i[s:s + step], j[s:s + step]
-        out[s:s + step] = _pairs_L(a.start_m[ii], a.end_m[ii], b.start_m[jj], b.end_m[jj],
-                                   np.zeros(ii.size, dtype=bool), SPLIT_FLOOR * rmax)
-    return out.reshape(na, nb)
 
 
 def _shifted(fi: FloaterIron, z_m: float) -> Edges:
@@ -449,7 +433,7 @@ def on_axis_poses(design: Design, positions_m, rotvecs_rad) -> np.ndarray:
     Rv = np.array(np.broadcast_to(np.asarray(rotvecs_rad, dtype=float), P.shape))
     axis = np.zeros(2)
     if design.cores:
-        axis = np.asarray(design.cores[0].position_m[:2], dtype=float)
+        axis = axis_of_cores(design)
     elif design.coils:
         axis = np.asarray(design.coils[0].position_m[:2], dtype=float)
     part = design.floater.soft_iron[0]

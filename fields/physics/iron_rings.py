@@ -325,6 +325,21 @@ def _pairs_L(s0, s1, t0, t1, same, r_floor: float) -> np.ndarray:
     return total
 
 
+def cross_inductance(a: Edges, b: Edges) -> np.ndarray:
+    """``L_ef = int_e int_f M dl dl`` (a, b) between two disjoint edge sets (Wb m^2 per A/m)."""
+    na, nb = a.start_m.shape[0], b.start_m.shape[0]
+    i, j = np.meshgrid(np.arange(na), np.arange(nb), indexing="ij")
+    i, j = i.ravel(), j.ravel()
+    rmax = float(max(a.start_m[:, 0].max(), a.end_m[:, 0].max(), b.start_m[:, 0].max(), b.end_m[:, 0].max()))
+    out = np.empty(i.size)
+    step = 40_000
+    for s in range(0, i.size, step):
+        ii, jj = i[s:s + step], j[s:s + step]
+        out[s:s + step] = _pairs_L(a.start_m[ii], a.end_m[ii], b.start_m[jj], b.end_m[jj],
+                                   np.zeros(ii.size, dtype=bool), SPLIT_FLOOR * rmax)
+    return out.reshape(na, nb)
+
+
 def edge_inductance_matrix(edges: Edges) -> np.ndarray:
     """``L_ef = int_e int_f M dl dl`` for all pairs of edges: symmetric (e, e).
 

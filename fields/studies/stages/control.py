@@ -502,14 +502,16 @@ def _summary(design, o, sa, st) -> tuple[str, ...]:
             lines.append(f"  capture region {o.region.axes[0]} x {o.region.axes[1]}: {100 * o.region.held_fraction:.0f} % "
                          "of the grid held (capture_region.csv/png)")
     if sa is not None:
-        lines.append(f"  single loop along {sa.axis}: PD crossover {sa.controller_pd['crossover_rad_per_s']:.4g} rad/s, "
-                     f"unstable pole {sa.unstable_pole_rad_per_s:.4g} rad/s hot, {sa.unstable_pole_cold_rad_per_s:.4g} cold")
-    if st is not None:
-        for i, h in enumerate(st.half_band_equivalent_m):
-            f = st.frequency_Hz[i]
-            lines.append(f"  on/off ({st.switch}), band +-{h * 1e3:g} mm: {st.status[i]}"
-                         + (f", {f:.4g} Hz, ripple {st.ripple_current_A[i]:.3g} A, {st.joule_power_W[i]:.3g} W" if f else ""))
-    return tuple(lines)
+        lines.append(single_loop_line(sa))
+    from fields.studies.stages.control_switch import on_off_lines
+
+    return tuple(lines + on_off_lines(st))
+
+
+def single_loop_line(sa) -> str:
+    """The summary line of the single-axis loop."""
+    return (f"  single loop along {sa.axis}: PD crossover {sa.controller_pd['crossover_rad_per_s']:.4g} rad/s, "
+            f"unstable pole {sa.unstable_pole_rad_per_s:.4g} rad/s hot, {sa.unstable_pole_cold_rad_per_s:.4g} cold")
 
 
 def run_control(design: Design, out: Path, stability=None, coil=None, switch: str = "auto",

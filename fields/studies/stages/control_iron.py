@@ -63,8 +63,8 @@ def soft_iron_control(design: Design, out: Path, stability, coil, switch: str, w
     from fields.io.export import write_json
     from fields.studies.stages.common import file_list
     from fields.studies.stages.control import (ControlResult, _axis_fields, _axis_pieces, _Drive, _refused_result,
-                                               _single_axis, _write_on_off)
-    from fields.studies.stages.control_switch import switch_study
+                                               _single_axis, _write_on_off, single_loop_line)
+    from fields.studies.stages.control_switch import on_off_lines, switch_study
 
     eq = stability.equilibrium_point
     ax = analysis.control_axis(design, stability.stiffness)
@@ -97,13 +97,7 @@ def soft_iron_control(design: Design, out: Path, stability, coil, switch: str, w
              "needs off-axis forces, which the soft-iron model does not compute)",
              f"  k_i = dF/dI at the bias current {I0:.4g} A: {ax.force_per_ampere_N_per_A:.4g} N/A (the pull grows "
              "about with the current's square); back-EMF coefficient the same dF/dI",
-             f"  single loop along {sa.axis}: PD crossover {sa.controller_pd['crossover_rad_per_s']:.4g} rad/s, "
-             f"unstable pole {sa.unstable_pole_rad_per_s:.4g} rad/s hot, {sa.unstable_pole_cold_rad_per_s:.4g} cold"]
-    if st is not None:
-        for i, h in enumerate(st.half_band_equivalent_m):
-            f = st.frequency_Hz[i]
-            lines.append(f"  on/off ({st.switch}), band +-{h * 1e3:g} mm: {st.status[i]}"
-                         + (f", {f:.4g} Hz, ripple {st.ripple_current_A[i]:.3g} A, {st.joule_power_W[i]:.3g} W" if f else ""))
+             single_loop_line(sa)] + on_off_lines(st)
     r = ControlResult(status="closable", route="single-axis", summary=tuple(lines), single_axis=sa, on_off=st,
                       **_axis_fields(pieces), files=file_list(out, "control.json", *files), plant=pieces.plant,
                       raw_plant=pieces.raw_plant, table=table, params=pieces.params, outcome=None, **extra)

@@ -135,3 +135,15 @@ def switch_study(design, ax, params, plant, table, sensor, sensor_gain_per_m: fl
         describing_function_amplitude_signal=[_f(d.amplitude) if d.found else None for d in dfs],
         linear_amplitude_m=lin_amp, linear_joule_power_W=lin_pj, hover_joule_power_W=R * I0 * I0,
         notes=tuple(notes), runs=tuple(runs), linear_trace=trace)
+
+
+def on_off_lines(st) -> list[str]:
+    """The summary lines of the on/off study (none without one)."""
+    if st is None:
+        return []
+    lines = []
+    for i, h in enumerate(st.half_band_equivalent_m):
+        f = st.frequency_Hz[i]
+        lines.append(f"  on/off ({st.switch}), band +-{h * 1e3:g} mm: {st.status[i]}"
+                     + (f", {f:.4g} Hz, ripple {st.ripple_current_A[i]:.3g} A, {st.joule_power_W[i]:.3g} W" if f else ""))
+    return lines
