@@ -142,8 +142,10 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
     derivatives of the Chebyshev interpolant of the cell solve's family.
 
     ``core_model="uniform"`` selects the uniform-magnetization core (for comparison only).
-    ``estimate_error=False`` (iron-free designs; for searches that use no error bar, e.g. a
-    sweep's operating point): one rule level on the stencil g, g +- h only, and NaN error bars.
+    ``estimate_error=False`` (for searches that use no error bar, e.g. a sweep's operating point,
+    whose equilibria are then refined on the exact force): one rule level on the stencil g, g +- h
+    only, and NaN error bars; with cores off their axis (every pose a 3-D iron response) that
+    level is the fast rule with the coarse cells.
     """
     gaps = design.study.gaps() if gaps_m is None else np.asarray(gaps_m, float)
     cur = family_currents(design) if currents_A is None else np.asarray(currents_A, float)
@@ -159,8 +161,10 @@ def axial_curves(design: Design, gaps_m=None, currents_A=None, pattern=None, nea
     n = len(gaps)
     if design.cores:  # one level on the stencil g, g + h, g - h; the engine's own force estimate
         P = np.concatenate([pos, pos + shift, pos - shift])
-        b = wrench_basis(design, P, np.concatenate([rot] * 3), near_field=near_field, core_model=core_model)
-        error_F = np.asarray(b.error_F_N[:n])
+        # without the estimate: a search over the gap range (the fast rule, coarse cells)
+        b = wrench_basis(design, P, np.concatenate([rot] * 3), order=CURVES_ORDER if estimate_error else "fast",
+                         estimate_error=estimate_error, near_field=near_field, core_model=core_model)
+        error_F = np.asarray(b.error_F_N[:n]) if estimate_error else np.full(n, np.nan)
     elif not estimate_error:  # g, g +- h at the curves' level only
         P = np.concatenate([pos, pos + shift, pos - shift])
         b = wrench_basis(design, P, np.concatenate([rot] * 3), order=CURVES_ORDER, estimate_error=False,
