@@ -112,3 +112,12 @@ def test_report_runs_without_coils_or_failures(rings, tmp_path):
     html = (tmp_path / "report.html").read_text(encoding="utf-8")
     assert "radial x/y" in html and "axial z" in html and "Coil datasheet" not in html
     assert "uniformly magnetized equivalent" not in html
+
+
+def test_curves_command_words_a_design_without_coils(tmp_path, capsys):
+    from fields.cli import main
+
+    assert main(["curves", str(RINGS), "-o", str(tmp_path)]) == 0
+    out = capsys.readouterr().out
+    assert "gravity acts across the gap direction" in out
+    assert "no coils (no hover current); axial force 0 N" in out and "nan" not in out
