@@ -41,3 +41,23 @@ def pose_arrays(positions_m, rotvecs_rad, where: str = "poses") -> tuple[np.ndar
     if not (np.all(np.isfinite(P)) and np.all(np.isfinite(Rv))):
         raise input_error(where, "positions_m and rotvecs_rad", "finite numbers", "NaN or inf")
     return P, Rv
+
+
+def array_key(a) -> tuple:
+    """A float array as a hashable cache key (its shape and exact bytes): for ``functools.lru_cache``
+    on functions of arrays; :func:`key_array` gives the array back.
+
+    Examples
+    --------
+    >>> k = array_key(np.array([[1.0, 2.0]]))
+    >>> key_array(k).tolist(), hash(k) == hash(array_key(np.array([[1.0, 2.0]])))
+    ([[1.0, 2.0]], True)
+    """
+    a = np.ascontiguousarray(np.asarray(a, dtype=float))
+    return a.shape, a.tobytes()
+
+
+def key_array(key: tuple) -> np.ndarray:
+    """The read-only array of an :func:`array_key`."""
+    shape, data = key
+    return np.frombuffer(data, dtype=float).reshape(shape)

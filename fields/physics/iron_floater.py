@@ -38,7 +38,7 @@ from scipy import linalg
 from scipy.constants import mu_0
 
 from fields.model.design import Design
-from fields.physics.checks import input_error
+from fields.physics.checks import array_key, input_error, key_array
 from fields.physics.iron import LEVELS, IronModel, _coaxial_sheets, axis_of_cores, curve_of, iron_model
 from fields.physics.iron_rings import (
     Edges,
@@ -321,12 +321,10 @@ FAMILY_NODES = 9
 
 
 @functools.lru_cache(maxsize=16)
-def _family_forces(design: Design, level: str, z_bytes: bytes, rows_bytes: bytes, k: int) -> FloaterIronForces:
+def _family_forces(design: Design, level: str, z_key: tuple, rows_key: tuple) -> FloaterIronForces:
     """:func:`floater_iron_forces` at a family's nodes, kept per design: the stages of one command
     (curves, control table, exports) ask for the same nodes and current rows."""
-    z = np.frombuffer(z_bytes, dtype=float)
-    rows = np.frombuffer(rows_bytes, dtype=float).reshape(-1, k)
-    return floater_iron_forces(design, z, rows, level)
+    return floater_iron_forces(design, key_array(z_key), key_array(rows_key), level)
 
 
 def floater_iron_family(design: Design, floater_z_m, gaps_m, currents_A):
@@ -358,7 +356,7 @@ def floater_iron_family(design: Design, floater_z_m, gaps_m, currents_A):
         sn = 0.5 * (lo + hi) + 0.5 * (hi - lo) * lobatto_points(n)
         slope = (z[-1] - z[0]) / (gaps[-1] - gaps[0])  # heights are affine in the gap
         zn = z[0] + slope * (np.exp(sn) - gaps[0])
-    out = {lv: _family_forces(design, lv, zn.tobytes(), rows.tobytes(), rows.shape[1])
+    out = {lv: _family_forces(design, lv, array_key(zn), array_key(rows))
            for lv in (REPORTED_LEVEL, CHECK_LEVEL)}
     if n == 0:
         # direct: derivatives by central differences of extra heights

@@ -23,7 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fields.model.design import Design
-from fields.physics.checks import input_error
+from fields.physics.checks import array_key, input_error, key_array
 from fields.physics.iron import iron_model
 
 
@@ -78,9 +78,9 @@ def iron_inductance(design: Design, positions_m, rotvecs_rad, currents_A, level:
     if not design.cores and not design.floater.soft_iron:
         raise input_error("iron_inductance", "design.cores", "at least one core or a soft-iron floater", 0)
     if design.floater.soft_iron:
-        P = np.ascontiguousarray(np.atleast_2d(np.asarray(positions_m, dtype=float)))
-        I = np.ascontiguousarray(np.asarray(currents_A, dtype=float).reshape(P.shape[0], len(design.coils)))
-        return _soft_iron_inductance(design, P.tobytes(), I.tobytes(), len(design.coils), level)
+        P = np.atleast_2d(np.asarray(positions_m, dtype=float))
+        I = np.asarray(currents_A, dtype=float).reshape(P.shape[0], len(design.coils))
+        return _soft_iron_inductance(design, array_key(P), array_key(I), level)
     model = iron_model(design, level)
     P = np.atleast_2d(np.asarray(positions_m, dtype=float))
     Rv = np.atleast_2d(np.asarray(rotvecs_rad, dtype=float))
@@ -108,16 +108,16 @@ def iron_inductance(design: Design, positions_m, rotvecs_rad, currents_A, level:
 
 
 @functools.lru_cache(maxsize=8)
-def _soft_iron_inductance(design: Design, P_bytes: bytes, I_bytes: bytes, k: int, level: str) -> IronInductance:
+def _soft_iron_inductance(design: Design, P_key: tuple, I_key: tuple, level: str) -> IronInductance:
     """:func:`iron_inductance` of a soft-iron floater on the axis: the joint cell system of cores
     and floater at each height (:mod:`fields.physics.iron_floater`); kept per design and poses
     (the design summary and the coil stage ask for the same gaps)."""
     from fields.physics.iron_floater import _joint
     from fields.physics.iron_newton import incremental_response, newton_sweep
 
-    P = np.frombuffer(P_bytes, dtype=float).reshape(-1, 3)
-    n = P.shape[0]
-    I = np.frombuffer(I_bytes, dtype=float).reshape(n, k)
+    P = key_array(P_key)
+    I = key_array(I_key)
+    n, k = I.shape
     L = np.empty((n, k, k))
     L_lin = np.empty((n, k, k))
     link = np.empty((n, k))
