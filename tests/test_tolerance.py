@@ -250,3 +250,16 @@ def test_cli_tolerance_writes_its_files(tmp_path, capsys):
     assert (out / "tolerance.png").stat().st_size > 10_000
     # geometry file untouched and valid TOML
     tomllib.loads(AIR.read_text())
+
+
+def test_a_design_that_raises_a_bug_is_recorded_not_fatal(monkeypatch):
+    """One design's unexpected error keeps its reason in ``failure`` (a long run goes on); no
+    physics here: the executor's contract."""
+    from fields.studies import evaluate, executors
+
+    def boom(design):
+        raise ZeroDivisionError("division by zero")
+
+    monkeypatch.setattr(evaluate, "evaluate_design", boom)
+    rows = executors.run_chunk((AIR.read_text(encoding="utf-8"), AIR.name, str(AIR.parent), [(0, {})]))
+    assert rows[0]["failure"] == "internal error ZeroDivisionError: division by zero"

@@ -5,6 +5,7 @@ Sign conventions: :mod:`fields.analysis.poses`.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -26,6 +27,10 @@ def _force_torque(design: Design, P, Rv, I, estimate_error: bool = True):
         return w.force_N, w.torque_Nm, w.contact
     b = wrench_basis(design, P, Rv, estimate_error=estimate_error)
     return (b.force(I) if len(I) else b.F0_N), (b.torque(I) if len(I) else b.T0_Nm), b.contact
+
+
+#: cells a bracket of the curves may be widened by when the exact force does not cross in it
+BRACKET_WIDEN = 2
 
 
 @dataclass(frozen=True)
@@ -61,10 +66,26 @@ def axial_equilibria(design: Design, current_A: float, curves: AxialCurves | Non
     out = []
     up = design.axial
 
+    @functools.lru_cache(maxsize=64)
     def resid(gap):
         p, r = pose_at_gap(design, [gap])
         F, _, _ = _force_torque(design, p, r, current_A * d if len(d) else np.zeros(0), estimate_error=False)
         return float(F[0] @ up) - c.weight_N
+
+    gaps = c.gaps_m
+
+    def bracket(i):
+        """A sign change of the exact residual around the curves' cell i..i+1 (the curves may be a
+        coarser rule than the exact force): that cell, else up to BRACKET_WIDEN cells wider; None
+        where the exact force does not cross (a tangency the coarser curves saw as a crossing)."""
+        for w in range(BRACKET_WIDEN + 1):
+            lo, hi = max(i - w, 0), min(i + 1 + w, len(gaps) - 1)
+            if not (np.isfinite(F[lo]) and np.isfinite(F[hi])):
+                return None
+            ra, rb = resid(float(gaps[lo])), resid(float(gaps[hi]))
+            if ra == 0.0 or rb == 0.0 or ra * rb < 0:
+                return float(gaps[lo]), float(gaps[hi])
+        return None
 
     if design.floater.soft_iron:
         return _equilibria_from_family(c, F, current_A)
@@ -75,7 +96,12 @@ def axial_equilibria(design: Design, current_A: float, curves: AxialCurves | Non
         if a == 0.0:
             g0 = c.gaps_m[i]
         elif a * bb < 0:
-            g0 = optimize.brentq(resid, c.gaps_m[i], c.gaps_m[i + 1], xtol=1e-12, rtol=1e-12)
+            br = bracket(i)
+            if br is None:
+                continue
+            g0 = optimize.brentq(resid, br[0], br[1], xtol=1e-12, rtol=1e-12)
+            if any(abs(e.gap_m - g0) <= 1e-9 for e in out):  # found already from a widened bracket
+                continue
         else:
             continue
         # stiffness at the root from the exact basis

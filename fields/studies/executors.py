@@ -47,6 +47,9 @@ def run_chunk(task: tuple) -> list[dict]:
         except HoverfieldError as e:
             row.update({c: (False if c in BOOL_COLUMNS else math.nan) for c in RESULT_COLUMNS})
             row["failure"] = str(e).replace("\n", " ")
+        except Exception as e:  # noqa: BLE001 - one design's bug must not end a long run: it is recorded
+            row.update({c: (False if c in BOOL_COLUMNS else math.nan) for c in RESULT_COLUMNS})
+            row["failure"] = f"internal error {type(e).__name__}: {e}".replace("\n", " ")
         rows.append(row)
     return rows
 
