@@ -106,8 +106,8 @@ def control_axis(design: Design, stiff: Stiffness) -> ControlAxis:
     ax = design.axial
     if j == 2:
         direction = ax * np.sign(ax[2]) if ax[2] != 0 else direction
-    # "vertical" where the axial direction is up (gravity along it); an offset study across gravity: "axial"
-    names = ("sideways x", "sideways y", "vertical" if abs(float(design.up @ ax)) > 1e-12 else "axial")
+    # "vertical" where gravity has a share along the axial direction; an offset study across gravity: "axial"
+    names = ("sideways x", "sideways y", "axial" if design.gravity_across_axial else "vertical")
     if not design.coils:
         return ControlAxis(names[j], j, direction, float(diag[j]), 0.0, np.zeros(0), np.zeros(0))
     if design.floater.soft_iron:  # induced floater: the incremental force per ampere at the bias currents

@@ -434,9 +434,9 @@ def _spline(cur, F):
 def _mass_envelope(design: Design, fmax, fmin) -> tuple[np.ndarray, np.ndarray]:
     """Largest and smallest total floater mass the axial force range holds at each gap (kg); NaN
     where gravity acts across the axial direction (the axial force then carries no weight)."""
-    share = float(design.up @ design.axial)
-    if abs(share) <= 1e-12:
+    if design.gravity_across_axial:
         return np.full(np.shape(fmax), np.nan), np.full(np.shape(fmin), np.nan)
+    share = float(design.up @ design.axial)
     if share < 0:  # the axial direction points down: an upward force is a negative axial one
         fmax, fmin = -np.asarray(fmin), -np.asarray(fmax)
     g = design.gravity_magnitude * abs(share)

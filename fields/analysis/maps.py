@@ -138,7 +138,7 @@ def pose_map(design: Design, kind: str = "lateral", gaps_m=None, coordinate=None
         curves = holding_curves(design, gaps) if hold_curves is None else hold_curves
         if len(curves.gaps_m) != G or not np.allclose(curves.gaps_m, gaps, rtol=0, atol=1e-12):
             raise input_error("pose_map", "hold_curves", "curves at the map's gaps", f"{len(curves.gaps_m)} gaps")
-        if np.all(np.isnan(curves.max_total_mass_kg)):  # gravity across the axial direction
+        if design.gravity_across_axial:
             reach = np.abs(curves.ki_N_per_A) * curves.max_current_A
             holdable = (curves.F0_N + reach >= W) & (curves.F0_N - reach <= W)
         else:

@@ -217,7 +217,7 @@ def stability_verdict(design: Design, stiff: Stiffness, free_axes=None) -> Verdi
             kinds = {MODE_KIND[x] for x in coupled}
             coupled = tuple(x for x in free if MODE_KIND[x] in kinds)
         extra = dict(diagonal_stiffness=tuple(float(stiff.K[AXES.index(x), AXES.index(x)]) for x in axes),
-                     coupled_axes=coupled, coupling_share=float(share), z_vertical=bool(abs(design.up[2]) > 0.999))
+                     coupled_axes=coupled, coupling_share=float(share), z_vertical=design.z_vertical)
         if neutral:
             modes.append(Mode(kind, axes, True, True, 0.0, unit, None, None, v, **extra))
         elif lam_i > 0:

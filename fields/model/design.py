@@ -377,11 +377,22 @@ class Design:
         return self.up
 
     @property
+    def gravity_across_axial(self) -> bool:
+        """Gravity acts across :attr:`axial` (an offset study of a horizontal shaft or a radial
+        bearing): the axial force then carries none of the weight."""
+        return abs(float(self.up @ self.axial)) <= 1e-12
+
+    @property
+    def z_vertical(self) -> bool:
+        """Gravity acts along z (the usual stack): the mode names say "vertical" and "sideways";
+        otherwise "axial z" and "radial"."""
+        return abs(float(self.up[2])) > 0.999
+
+    @property
     def axial_load_N(self) -> float:
         """The weight's share along :attr:`axial` that the axial force must carry (N): the weight,
         or zero where gravity acts across the gap direction."""
-        c = float(self.up @ self.axial)
-        return self.weight_N * (c if abs(c) > 1e-12 else 0.0)
+        return 0.0 if self.gravity_across_axial else self.weight_N * float(self.up @ self.axial)
 
 
 def axis_to_rotvec(axis) -> np.ndarray:

@@ -314,7 +314,7 @@ def check_structure(plant: MultiaxisPlant, design=None, tolerance: float = PBH_T
         sh = phi**2 * np.diag(M)
         sh = sh / sh.sum()
         dom = int(np.argmax(sh))
-        base = _mode_name(free[dom], design is None or bool(abs(design.up[2]) > 0.999))
+        base = _mode_name(free[dom], design is None or design.z_vertical)
         used[base] = used.get(base, 0) + 1
         name = base if used[base] == 1 else f"{base} ({used[base]})"
         kerr = float(np.abs(phi) @ plant.stiffness_error @ np.abs(phi))

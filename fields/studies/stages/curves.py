@@ -127,7 +127,7 @@ def run_curves(design: Design, out: Path) -> CurvesResult:
         contact_gaps=int(c.contact.sum()), warnings=curve_warnings(c),
         files=file_list(out, "curves.csv", "kz_table.csv", "curves.json", "curves.png"),
         at_operating_gap=_at_operating_gap(design, c), axial_load_N=c.weight_N,
-        gravity_across_axis=bool(abs(float(design.up @ design.axial)) <= 1e-12), curves=c, axial_equilibria=tuple(eqs))
+        gravity_across_axis=design.gravity_across_axial, curves=c, axial_equilibria=tuple(eqs))
     write_json(out / "curves.json", result)
     offset = design.study.gap_mode == "offset"
     fig = plots.curve_family(c, eqs, title=f"{design.name}: " + ("axial force versus offset" if offset else "upward force versus gap"),
